@@ -1,0 +1,148 @@
+"""Gate audit: for one placement, which two-qubit gates of each circuit land off-coupler.
+
+The exact audit is authoritative: a circuit is swap-free on a placement exactly when
+every two-qubit gate (after unrolling to CNOTs, see `embedcheck.io.qasm`) acts on a
+pair joined by a live coupler. The number of off-coupler gates is an exact figure;
+how many gates a router would add to fix them is only an estimate, and is labelled
+so (`router_estimate`, qiskit's transpiler at optimization level 0 with the
+placement as initial layout and a fixed seed).
+
+`off_coupler_counts` is the same test vectorised over many placements at once
+(numpy fancy indexing), used by the search report.
+
+    >>> from embedcheck.device import Device
+    >>> from embedcheck.lattices import square_grid
+    >>> from embedcheck.patch import Patch, Circuit, Operation
+    >>> ops = (Operation("cx", ("a", "b"), "2q", line=4), Operation("cx", ("a", "c"), "2q", line=5))
+    >>> patch = Patch("t", ("a", "b", "c"), dict.fromkeys("abc", "data"), {"round": Circuit("round", ops)})
+    >>> dev = Device.from_lattice(square_grid(1, 3), name="line")
+    >>> report = audit_placement(dev, patch, Placement((0, 1, 2)))
+    >>> [(c.circuit, c.two_qubit_gates, len(c.off_coupler)) for c in report.circuits]
+    [('round', 2, 1)]
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Sequence
+
+import numpy as np
+
+from .device import Device
+from .patch import Patch
+from .search import Placement
+
+
+@dataclass(frozen=True)
+class OffCouplerGate:
+    """A two-qubit gate whose two physical qubits share no live coupler."""
+
+    circuit: str
+    gate_index: int            # position among the circuit's two-qubit gates, from 0
+    patch_qubits: tuple[str, str]
+    physical_qubits: tuple[int, int]
+    written: str               # the gate as written, e.g. 'cx' or 'swap'
+    text: str                  # the source statement
+    file: str | None
+    line: int | None
+    reason: str                # 'no coupler', 'dead coupler' or 'dead qubit'
+
+
+@dataclass(frozen=True)
+class CircuitAudit:
+    """One circuit on one placement."""
+
+    circuit: str
+    times_run: int
+    two_qubit_gates: int
+    measurements: int
+    off_coupler: tuple[OffCouplerGate, ...]
+    router_estimate: dict | None = None
+
+    @property
+    def swap_free(self) -> bool:
+        return not self.off_coupler
+
+
+@dataclass(frozen=True)
+class AuditReport:
+    """Every circuit of a patch on one placement, plus the whole experiment's totals."""
+
+    placement: Placement
+    circuits: tuple[CircuitAudit, ...]
+
+    @property
+    def swap_free(self) -> bool:
+        return all(c.swap_free for c in self.circuits)
+
+    def experiment_totals(self) -> dict[str, int]:
+        """Two-qubit gates and off-coupler gates over the experiment (rounds counted)."""
+        run = [c for c in self.circuits if c.times_run]
+        return {"two_qubit_gates": sum(c.two_qubit_gates * c.times_run for c in run),
+                "off_coupler_gates": sum(len(c.off_coupler) * c.times_run for c in run),
+                "measurements": sum(c.measurements * c.times_run for c in run)}
+
+
+def audit_placement(device: Device, patch: Patch, placement: Placement, *,
+                    router_estimate: bool = False, seed: int = 11) -> AuditReport:
+    """Audit every circuit of `patch` on `placement` (exact), optionally with a router estimate."""
+    where = placement.as_dict(patch)
+    times = dict(patch.experiment())
+    audits = []
+    for name, circuit in patch.circuits.items():
+        off = []
+        for k, gate in enumerate(circuit.two_qubit_gates):
+            a, b = (where[q] for q in gate.qubits)
+            if not device.is_coupled(a, b):
+                off.append(OffCouplerGate(name, k, gate.qubits, (a, b), gate.written, gate.text,
+                                          gate.file, gate.line, _why_off(device, a, b)))
+        estimate = None
+        if router_estimate and off:
+            estimate = estimate_router_overhead(device, patch, name, placement, seed=seed)
+        audits.append(CircuitAudit(name, times.get(name, 0), len(circuit.two_qubit_gates),
+                                   len(circuit.measurements), tuple(off), estimate))
+    return AuditReport(placement, tuple(audits))
+
+
+def off_coupler_counts(device: Device, patch: Patch, placements: Sequence[Placement],
+                       circuits: Sequence[str]) -> np.ndarray:
+    """Off-coupler two-qubit gates, shape (placements, circuits), without a per-placement loop."""
+    n = max(device.qubits) + 1
+    coupled = np.zeros((n, n), dtype=bool)
+    for a, b in device.live_couplers:
+        coupled[a, b] = coupled[b, a] = True
+    grid = np.array([p.physical for p in placements], dtype=np.int64).reshape(len(placements), -1)
+    out = np.zeros((len(placements), len(circuits)), dtype=np.int64)
+    for j, name in enumerate(circuits):
+        counts = patch.interaction_counts([name])
+        if not counts or not len(placements):
+            continue
+        pairs = np.array(list(counts), dtype=np.int64)
+        weight = np.array(list(counts.values()), dtype=np.int64)
+        on = coupled[grid[:, pairs[:, 0]], grid[:, pairs[:, 1]]]
+        out[:, j] = (~on * weight).sum(axis=1)
+    return out
+
+
+def estimate_router_overhead(device: Device, patch: Patch, circuit: str, placement: Placement,
+                             *, seed: int = 11) -> dict:
+    """Two-qubit gates qiskit's router adds for `circuit` on `placement` (an estimate).
+
+    Transpiles at optimization_level=0 (higher levels cancel and resynthesise gates)
+    with the placement as initial layout. Returns the native two-qubit count before and
+    after, the difference, the seed and a label saying it is an estimate.
+    """
+    from .qiskit_bridge import transpile_on_placement
+
+    before = len(patch.circuits[circuit].two_qubit_gates)
+    after = transpile_on_placement(device, patch, circuit, placement, seed=seed)["two_qubit_gates"]
+    return {"kind": "estimate", "method": "qiskit transpile, optimization_level=0",
+            "seed": seed, "two_qubit_gates_before": before, "two_qubit_gates_after": after,
+            "added_two_qubit_gates": after - before}
+
+
+def _why_off(device: Device, a: int, b: int) -> str:
+    if a in device.dead_qubits or b in device.dead_qubits:
+        return "dead qubit"
+    if (min(a, b), max(a, b)) in device.dead_couplers:
+        return "dead coupler"
+    return "no coupler"

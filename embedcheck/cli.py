@@ -1,0 +1,214 @@
+"""The `embedcheck` command line: parse arguments, call the stages, map errors to exit codes.
+
+Exit codes: 0 answered (findings included); 1 with `--strict` when a circuit needs
+routing; 2 bad input or usage (one line on stderr, no traceback, nothing written).
+"""
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+
+from . import __version__
+from .audit import audit_placement
+from .io.chipfile import load_device
+from .io.errors import InputError, did_you_mean
+from .io.patchfile import load_patch
+from .rank import CAUTION, rank_placements
+from .report import data as report_data
+from .report.text import render_audit, render_find
+from .search import Placement
+from .vet import vet_patch
+
+
+class _Parser(argparse.ArgumentParser):
+    def error(self, message):  # one line, exit 2
+        raise InputError(f"{message} (see 'embedcheck --help')")
+
+
+def main(argv: list[str] | None = None) -> int:
+    try:
+        args = _parser().parse_args(argv)
+        if not getattr(args, "command", None):
+            raise InputError("give a command: find, audit or validate (see 'embedcheck --help')")
+        return args.run(args)
+    except InputError as err:
+        print(f"embedcheck: error: {err}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print("embedcheck: interrupted", file=sys.stderr)
+        return 130
+    except BrokenPipeError:
+        return 0
+
+
+def _parser() -> argparse.ArgumentParser:
+    top = _Parser(prog="embedcheck", description="Check that a QEC code patch sits on a chip's "
+                  "fixed couplers with no added two-qubit gates, circuit by circuit.")
+    top.add_argument("--version", action="version", version=f"embedcheck {__version__}")
+    sub = top.add_subparsers(dest="command", parser_class=_Parser)
+
+    find = sub.add_parser("find", help="find, audit and rank every swap-free placement")
+    _common(find)
+    find.add_argument("--limit", type=_positive_int, default=10_000,
+                      help="stop after this many distinct placements (default 10000)")
+    find.add_argument("--budget-s", type=float, default=60.0,
+                      help="stop the search after this many seconds (default 60)")
+    find.add_argument("--top", type=_positive_int, default=10,
+                      help="placements to list (default 10)")
+    find.add_argument("--strict", action="store_true",
+                      help="exit 1 unless every circuit is swap-free on the best placement")
+    find.set_defaults(run=_run_find)
+
+    audit = sub.add_parser("audit", help="audit every circuit of one placement, gate by gate")
+    _common(audit)
+    how = audit.add_mutually_exclusive_group(required=True)
+    how.add_argument("--placement", help="patch qubit=physical qubit pairs, e.g. d0=53,d1=55,...")
+    how.add_argument("--pick", type=_positive_int,
+                     help="audit the placement ranked N by 'find' (1 = best)")
+    audit.add_argument("--router-estimate", action="store_true",
+                       help="also ask qiskit's router how many gates it would add (an estimate)")
+    audit.add_argument("--seed", type=int, default=11, help="router seed (default 11)")
+    audit.add_argument("--strict", action="store_true",
+                       help="exit 1 when any circuit needs routing")
+    audit.set_defaults(run=_run_audit)
+
+    check = sub.add_parser("validate", help="check chip and patch files and say what is wrong")
+    check.add_argument("files", nargs="+", metavar="FILE")
+    check.add_argument("--format", choices=("text", "json"), default="text")
+    check.set_defaults(run=_run_validate)
+    return top
+
+
+def _common(p):
+    p.add_argument("chip", help="chip file (YAML)")
+    p.add_argument("patch", help="patch file (YAML)")
+    p.add_argument("--format", choices=("text", "json"), default="text")
+
+
+def _positive_int(text):
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"'{text}' is not a whole number") from None
+    if value < 1:
+        raise argparse.ArgumentTypeError(f"'{text}' must be at least 1")
+    return value
+
+
+def _emit(args, payload: dict, text: str) -> None:
+    if args.format == "json":
+        json.dump(payload, sys.stdout, indent=2)
+        sys.stdout.write("\n")
+    else:
+        print(text)
+
+
+def _progress():
+    if not sys.stderr.isatty():
+        return None
+
+    def show(n):
+        print(f"\r  searching: {n} maps so far ...", end="", file=sys.stderr, flush=True)
+    return show
+
+
+def _run_find(args) -> int:
+    device, patch = load_device(args.chip), load_patch(args.patch)
+    progress = _progress()
+    vetting = vet_patch(device, patch, limit=args.limit, budget_s=args.budget_s,
+                        progress=progress)
+    if progress:
+        print("\r" + " " * 40 + "\r", end="", file=sys.stderr)
+    payload = report_data.find_dict(vetting, top=args.top)
+    _emit(args, payload, render_find(payload))
+    return 1 if args.strict and not vetting.all_swap_free else 0
+
+
+def _run_audit(args) -> int:
+    device, patch = load_device(args.chip), load_patch(args.patch)
+    if args.placement:
+        placement = _parse_placement(args.placement, patch, device)
+    else:
+        vetting = vet_patch(device, patch, limit=max(args.pick, 10_000))
+        if args.pick > len(vetting.ranking.placements):
+            raise InputError(f"--pick {args.pick}: 'find' ranks only "
+                             f"{len(vetting.ranking.placements)} placement(s)")
+        placement = vetting.ranking.placements[args.pick - 1]
+    report = audit_placement(device, patch, placement, router_estimate=args.router_estimate,
+                             seed=args.seed)
+    ranking = rank_placements(device, patch, [placement])
+    score = report_data.placement_rows(patch, ranking, _zeros(patch), 1)[0]
+    payload = {"tool": "embedcheck", "version": __version__, "command": "audit",
+               "chip": report_data.chip_summary(device), "patch": report_data.patch_summary(patch),
+               "audit": report_data.audit_dict(patch, report),
+               "score": {k: score[k] for k in ("figure", "success", "log_success", "terms",
+                                               "unscored_gates")},
+               "caution": CAUTION}
+    _emit(args, payload, render_audit(payload))
+    return 1 if args.strict and not report.swap_free else 0
+
+
+def _zeros(patch):
+    import numpy as np
+    return np.zeros((1, len(patch.circuits)), dtype=int)
+
+
+def _parse_placement(text: str, patch, device) -> Placement:
+    where = {}
+    for item in filter(None, (s.strip() for s in text.split(","))):
+        name, sep, phys = item.partition("=")
+        if not sep:
+            raise InputError(f"--placement: '{item}' should look like name=physical_qubit")
+        name = name.strip()
+        if name not in patch.index:
+            raise InputError(f"--placement: '{name}' is not a qubit of patch '{patch.name}'"
+                             f"{did_you_mean(name, patch.qubits)}")
+        try:
+            q = int(phys)
+        except ValueError:
+            raise InputError(f"--placement: '{phys}' is not a qubit number") from None
+        if q not in set(device.qubits):
+            raise InputError(f"--placement: chip '{device.name}' has no qubit {q}")
+        if name in where:
+            raise InputError(f"--placement: '{name}' is placed twice")
+        where[name] = q
+    missing = [q for q in patch.qubits if q not in where]
+    if missing:
+        raise InputError(f"--placement: no physical qubit given for {', '.join(missing)}")
+    if len(set(where.values())) != len(where):
+        raise InputError("--placement: two patch qubits share one physical qubit")
+    return Placement(tuple(where[q] for q in patch.qubits))
+
+
+def _run_validate(args) -> int:
+    results = []
+    for path in args.files:
+        kind = _kind_of(path)
+        obj = load_device(path) if kind == "chip" else load_patch(path)
+        results.append({"file": path, "kind": kind, "name": obj.name,
+                        "qubits": obj.num_qubits, "valid": True})
+    text = "\n".join(f"{r['file']}: valid {r['kind']} file '{r['name']}' ({r['qubits']} qubits)"
+                     for r in results)
+    _emit(args, {"tool": "embedcheck", "command": "validate", "files": results}, text)
+    return 0
+
+
+def _kind_of(path: str) -> str:
+    """'chip' or 'patch', from the file's top-level version key."""
+    import re
+    try:
+        text = open(path, encoding="utf-8").read()
+    except FileNotFoundError:
+        raise InputError("file not found", file=path) from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputError(f"cannot read file: {exc}", file=path) from None
+    m = re.search(r"^embedcheck_(chip|patch)\s*:", text, re.M)
+    if not m:
+        raise InputError("not a chip or patch file: it needs a version key "
+                         "'embedcheck_chip: 1' or 'embedcheck_patch: 1'", file=path)
+    return m.group(1)
+
+
+if __name__ == "__main__":
+    sys.exit(main())

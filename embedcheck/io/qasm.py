@@ -1,0 +1,218 @@
+"""Read OpenQASM 2 or 3 text into `Operation`s on patch qubit names, keeping source lines.
+
+qiskit's importers drop source lines, so we walk the syntax tree of the `openqasm3`
+parser (which also accepts OpenQASM 2 statements) ourselves and keep each statement's
+line. Register qubit `d[2]` is patch qubit `d2`; a scalar `qubit a;` is patch qubit `a`.
+
+Gates on two or more qubits are unrolled to CNOTs with qiskit's standard
+decompositions (`transpile(..., basis_gates=["cx", "u"], optimization_level=0)`),
+cached per gate name, so the count of two-qubit gates is a count of CNOT
+equivalents: `swap` is 3, `ccx` is 6, `cz` is 1. User `gate` definitions are expanded
+in place. Gates inside `if` blocks count (they may run) and are marked conditional.
+
+    >>> ops = read_qasm('OPENQASM 2.0; include "qelib1.inc"; qreg q[2]; swap q[0], q[1];')
+    >>> [(o.name, o.qubits, o.written) for o in ops if o.kind == "2q"][0]
+    ('cx', ('q0', 'q1'), 'swap')
+"""
+from __future__ import annotations
+
+import re
+from functools import lru_cache
+
+import openqasm3
+from openqasm3 import ast
+
+from ..patch import Operation
+from .errors import InputError
+
+_ONE_QUBIT = {"id", "x", "y", "z", "h", "s", "sdg", "t", "tdg", "sx", "sxdg", "rx", "ry",
+              "rz", "p", "u", "u1", "u2", "u3", "U", "r", "phase", "gphase"}
+_KEEP = {"cx", "CX", "cnot"}   # already one CNOT; everything else goes through qiskit
+
+
+def qasm_version(text: str) -> int:
+    """2 or 3, from the OPENQASM header (3 when there is none)."""
+    m = re.search(r"^\s*OPENQASM\s+(\d)", text, re.M)
+    return int(m.group(1)) if m else 3
+
+
+def read_qasm(text: str, *, file: str | None = None, first_line: int = 1) -> list[Operation]:
+    """Operations of an OpenQASM 2/3 program; lines are `first_line`-based in `file`."""
+    try:
+        program = openqasm3.parse(text)
+    except Exception as exc:  # the parser raises its own error types
+        line = _error_line(exc)
+        raise InputError(f"OpenQASM syntax error: {_first_line(exc)}", file=file,
+                         line=line + first_line - 1 if line else first_line) from None
+    walker = _Walker(text.splitlines(), file, first_line)
+    walker.block(program.statements, conditional=False)
+    return walker.ops
+
+
+class _Walker:
+    def __init__(self, lines, file, first_line):
+        self.lines, self.file, self.offset = lines, file, first_line - 1
+        self.registers: dict[str, int | None] = {}
+        self.definitions: dict[str, ast.QuantumGateDefinition] = {}
+        self.ops: list[Operation] = []
+
+    def fail(self, node, message):
+        line = node.span.start_line + self.offset if node.span else None
+        return InputError(message, file=self.file, line=line)
+
+    def block(self, statements, conditional):
+        for stmt in statements:
+            self.statement(stmt, conditional)
+
+    def statement(self, stmt, conditional):
+        if isinstance(stmt, ast.QubitDeclaration):
+            size = None if stmt.size is None else _integer(stmt.size)
+            self.registers[stmt.qubit.name] = size
+        elif isinstance(stmt, ast.QuantumGateDefinition):
+            self.definitions[stmt.name.name] = stmt
+        elif isinstance(stmt, ast.QuantumGate):
+            if stmt.modifiers:
+                raise self.fail(stmt, "gate modifiers (ctrl @, inv @, pow @) are not supported")
+            self.gate(stmt, stmt.name.name, [self.operand(q, stmt) for q in stmt.qubits],
+                      conditional, stmt.name.name)
+        elif isinstance(stmt, ast.QuantumMeasurementStatement):
+            for q in self.operand(stmt.measure.qubit, stmt):
+                self.emit(stmt, "measure", (q,), "measure", conditional, "measure")
+        elif isinstance(stmt, ast.QuantumReset):
+            for q in self.operand(stmt.qubits, stmt):
+                self.emit(stmt, "reset", (q,), "reset", conditional, "reset")
+        elif isinstance(stmt, ast.QuantumBarrier):
+            qubits = tuple(q for operand in stmt.qubits for q in self.operand(operand, stmt))
+            self.emit(stmt, "barrier", qubits, "barrier", conditional, "barrier")
+        elif isinstance(stmt, ast.BranchingStatement):
+            self.block(stmt.if_block, True)
+            self.block(stmt.else_block, True)
+        elif isinstance(stmt, (ast.ForInLoop, ast.WhileLoop, ast.SubroutineDefinition,
+                               ast.Box)):
+            raise self.fail(stmt, f"{type(stmt).__name__} is not supported yet: "
+                                  "write the circuit out without it")
+        # Includes, classical declarations and assignments carry no quantum operation.
+
+    def operand(self, node, stmt) -> list[str]:
+        """Patch qubit names an operand stands for (a whole register broadcasts)."""
+        if isinstance(node, ast.Identifier):
+            name = node.name
+            if name not in self.registers:
+                raise self.fail(stmt, f"qubit register '{name}' is not declared")
+            size = self.registers[name]
+            return [name] if size is None else [f"{name}{i}" for i in range(size)]
+        if isinstance(node, ast.IndexedIdentifier):
+            name = node.name.name
+            if name not in self.registers:
+                raise self.fail(stmt, f"qubit register '{name}' is not declared")
+            size = self.registers[name]
+            out = []
+            for index_group in node.indices:
+                for expr in (index_group if isinstance(index_group, list) else [index_group]):
+                    i = _integer(expr)
+                    if i is None:
+                        raise self.fail(stmt, "only integer qubit indices are supported")
+                    if size is None or not 0 <= i < size:
+                        raise self.fail(stmt, f"index {i} is outside register '{name}'")
+                    out.append(f"{name}{i}")
+            return out
+        raise self.fail(stmt, "unsupported qubit operand")
+
+    def gate(self, stmt, name, operands, conditional, written, depth=0):
+        sizes = {len(o) for o in operands if len(o) != 1}
+        if len(sizes) > 1:
+            raise self.fail(stmt, f"'{name}' broadcasts over registers of different sizes")
+        width = sizes.pop() if sizes else 1
+        for k in range(width):
+            qubits = tuple(o[k] if len(o) > 1 else o[0] for o in operands)
+            if len(set(qubits)) != len(qubits):
+                raise self.fail(stmt, f"'{name}' acts twice on qubit {qubits[0]}")
+            self.one_gate(stmt, name, qubits, conditional, written, depth)
+
+    def one_gate(self, stmt, name, qubits, conditional, written, depth):
+        if name in self.definitions:
+            if depth > 50:
+                raise self.fail(stmt, f"gate '{name}' is defined recursively")
+            definition = self.definitions[name]
+            formal = [q.name for q in definition.qubits]
+            if len(formal) != len(qubits):
+                raise self.fail(stmt, f"gate '{name}' takes {len(formal)} qubits, got {len(qubits)}")
+            bind = dict(zip(formal, qubits))
+            for inner in definition.body:
+                if isinstance(inner, ast.QuantumGate):
+                    names = [[bind[q.name]] for q in inner.qubits]
+                    self.gate(stmt, inner.name.name, names, conditional, written, depth + 1)
+            return
+        if len(qubits) == 1:
+            if name not in _ONE_QUBIT:
+                raise self.fail(stmt, f"unknown gate '{name}'")
+            self.emit(stmt, name, qubits, "1q", conditional, written)
+        elif name in _KEEP:
+            self.emit(stmt, "cx", qubits, "2q", conditional, written)
+        else:
+            for kind, local in _unrolled(name, len(qubits), stmt, self):
+                self.emit(stmt, "cx" if kind == "2q" else "u",
+                          tuple(qubits[i] for i in local), kind, conditional, written)
+
+    def emit(self, stmt, name, qubits, kind, conditional, written):
+        start = stmt.span.start_line if stmt.span else None
+        end = stmt.span.end_line if stmt.span else start
+        text = " ".join(self.lines[i - 1].strip() for i in range(start, end + 1)) if start else ""
+        self.ops.append(Operation(name, qubits, kind, line=start + self.offset if start else None,
+                                  text=text, file=self.file, written=written,
+                                  conditional=conditional))
+
+
+def _unrolled(name, width, stmt, walker):
+    try:
+        return _decomposition(name, width)
+    except KeyError:
+        raise walker.fail(stmt, f"unknown gate '{name}' on {width} qubits") from None
+
+
+@lru_cache(maxsize=None)
+def _decomposition(name: str, width: int) -> tuple[tuple[str, tuple[int, ...]], ...]:
+    """(kind, local qubit indices) of a standard gate unrolled to cx + u by qiskit."""
+    from qiskit import QuantumCircuit, transpile
+    from qiskit.circuit.library import get_standard_gate_name_mapping
+
+    gate = get_standard_gate_name_mapping().get(name)
+    if gate is None or gate.num_qubits != width:
+        raise KeyError(name)
+    if gate.params:
+        gate = gate.__class__(*[0.3] * len(gate.params))
+    qc = QuantumCircuit(width)
+    qc.append(gate, range(width))
+    out = transpile(qc, basis_gates=["cx", "u"], optimization_level=0)
+    return tuple(("2q" if len(ins.qubits) == 2 else "1q",
+                  tuple(out.find_bit(q).index for q in ins.qubits)) for ins in out.data)
+
+
+def _integer(expr):
+    if isinstance(expr, ast.IntegerLiteral):
+        return expr.value
+    return None
+
+
+def _parser_message(exc):
+    """The 'L<line>:C<col>: msg' text the parser hides in the exception chain."""
+    seen = set()
+    while exc is not None and id(exc) not in seen:
+        seen.add(id(exc))
+        m = re.search(r"L(\d+):C\d+: (.*)", str(exc))
+        if m:
+            return int(m.group(1)), m.group(2)
+        for arg in getattr(exc, "args", ()):
+            token = getattr(arg, "offendingToken", None)
+            if token is not None:
+                return token.line, f"unexpected '{token.text}' at column {token.column + 1}"
+        exc = exc.__cause__ or exc.__context__
+    return None, "cannot parse"
+
+
+def _error_line(exc):
+    return _parser_message(exc)[0]
+
+
+def _first_line(exc):
+    return _parser_message(exc)[1]

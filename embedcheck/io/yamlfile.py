@@ -1,0 +1,159 @@
+"""Strict YAML reading: line numbers for every value, JSON Schema validation, one-line errors.
+
+`read_yaml(path, schema_name)` returns a `Document`: the plain data plus the line of
+every key path, so the loaders can point at the offending line even for checks the
+schema cannot express (a coupler naming a missing qubit, say). Schemas live in
+`embedcheck/schemas/*.schema.json` (JSON Schema draft 2020-12).
+"""
+from __future__ import annotations
+
+import json
+from dataclasses import dataclass
+from functools import lru_cache
+from importlib import resources
+from pathlib import Path
+from typing import Any
+
+import jsonschema
+import yaml
+
+from .errors import InputError, did_you_mean
+
+KeyPath = tuple  # of str keys and int list indices
+
+
+@dataclass(frozen=True)
+class Document:
+    """Parsed YAML data with the 1-based line of every key path."""
+
+    file: str
+    data: Any
+    lines: dict
+
+    def line(self, path: KeyPath) -> int | None:
+        """The line of `path`, or of its nearest ancestor that has one."""
+        path = tuple(path)
+        while path and path not in self.lines:
+            path = path[:-1]
+        return self.lines.get(path)
+
+    def error(self, path: KeyPath, message: str) -> InputError:
+        """An InputError pointing at `path` in this document."""
+        return InputError(message, file=self.file, line=self.line(path), key=key_name(path))
+
+
+def key_name(path: KeyPath) -> str | None:
+    """`('couplers', 3, 'coupler')` -> `'couplers[3].coupler'`."""
+    out = ""
+    for part in path:
+        out += f"[{part}]" if isinstance(part, int) else (f".{part}" if out else str(part))
+    return out or None
+
+
+@lru_cache(maxsize=None)
+def schema(name: str) -> dict:
+    """The packaged JSON Schema `name` (e.g. 'chip')."""
+    text = resources.files("embedcheck.schemas").joinpath(f"{name}.schema.json").read_text()
+    return json.loads(text)
+
+
+def read_yaml(path: str | Path, schema_name: str) -> Document:
+    """Read and validate one YAML file; raise InputError on the first problem."""
+    file = str(path)
+    try:
+        text = Path(path).read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise InputError("file not found", file=file) from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputError(f"cannot read file: {exc}", file=file) from None
+    return parse_yaml(text, file, schema_name)
+
+
+def parse_yaml(text: str, file: str, schema_name: str) -> Document:
+    """Parse YAML text (named `file` in messages) and validate it against a schema."""
+    try:
+        node = yaml.compose(text, Loader=yaml.SafeLoader)
+    except yaml.YAMLError as exc:
+        mark = getattr(exc, "problem_mark", None)
+        problem = getattr(exc, "problem", None) or str(exc).splitlines()[0]
+        raise InputError(f"YAML syntax error: {problem}", file=file,
+                         line=mark.line + 1 if mark else None) from None
+    if node is None:
+        raise InputError("file is empty", file=file)
+    lines: dict = {}
+    data = _to_python(node, (), lines, file)
+    doc = Document(file, data, lines)
+    _validate(doc, schema(schema_name))
+    return doc
+
+
+def _to_python(node, path, lines, file):
+    """Turn a composed YAML node into plain data, recording lines; reject duplicate keys."""
+    lines.setdefault(path, node.start_mark.line + 1)
+    if isinstance(node, yaml.MappingNode):
+        out = {}
+        for key_node, value_node in node.value:
+            if not isinstance(key_node, yaml.ScalarNode):
+                raise InputError("a key must be a plain value", file=file,
+                                 line=key_node.start_mark.line + 1)
+            key = str(_scalar(key_node))
+            if key in out:
+                raise InputError(f"duplicate key '{key}'", file=file,
+                                 line=key_node.start_mark.line + 1, key=key_name(path + (key,)))
+            lines[path + (key,)] = key_node.start_mark.line + 1
+            out[key] = _to_python(value_node, path + (key,), lines, file)
+        return out
+    if isinstance(node, yaml.SequenceNode):
+        return [_to_python(item, path + (i,), lines, file) for i, item in enumerate(node.value)]
+    value = _scalar(node)
+    if isinstance(value, str) and node.style in ("|", ">"):
+        # Block scalars start on the line after their indicator; remember that offset
+        # so OpenQASM written inline can report lines of the YAML file.
+        lines[path + ("<text>",)] = node.start_mark.line + 2
+    return value
+
+
+def _scalar(node):
+    return yaml.SafeLoader.construct_object(yaml.SafeLoader(""), node)
+
+
+def _validate(doc: Document, the_schema: dict) -> None:
+    validator = jsonschema.Draft202012Validator(the_schema)
+    errors = list(validator.iter_errors(doc.data))
+    if not errors:
+        return
+    # Report the error that comes first in the file, deepest first at equal lines.
+    errors.sort(key=lambda e: (doc.line(tuple(e.absolute_path)) or 0, -len(e.absolute_path)))
+    raise _explain(doc, errors[0])
+
+
+def _explain(doc: Document, err: jsonschema.ValidationError) -> InputError:
+    path = tuple(err.absolute_path)
+    if err.validator == "additionalProperties":
+        known = list(err.schema.get("properties", {}))
+        extra = sorted(set(err.instance) - set(known))
+        unknown = extra[0] if extra else "?"
+        key_path = path + (unknown,)
+        return InputError(f"unknown key '{unknown}'{did_you_mean(unknown, known)}",
+                          file=doc.file, line=doc.line(key_path), key=key_name(key_path))
+    if err.validator == "required":
+        missing = err.message.split("'")[1] if "'" in err.message else err.message
+        return doc.error(path, f"missing required key '{missing}'")
+    if err.validator == "enum":
+        choices = ", ".join(repr(c) for c in err.validator_value)
+        return doc.error(path, f"{err.instance!r} is not one of {choices}"
+                               f"{did_you_mean(err.instance, err.validator_value)}")
+    if err.validator in ("minimum", "maximum", "exclusiveMinimum", "exclusiveMaximum"):
+        bound = {"minimum": ">=", "maximum": "<=", "exclusiveMinimum": ">",
+                 "exclusiveMaximum": "<"}[err.validator]
+        hint = " (a probability must lie in [0, 1])" if path and "error" in str(path[-1]) else ""
+        return doc.error(path, f"{err.instance!r} must be {bound} {err.validator_value}{hint}")
+    if err.validator == "type":
+        want = err.validator_value
+        want = " or ".join(want) if isinstance(want, list) else want
+        return doc.error(path, f"{err.instance!r} should be of type {want}")
+    if err.validator == "const":
+        return doc.error(path, f"must be {err.validator_value!r}, got {err.instance!r}")
+    if err.validator == "oneOf" or err.validator == "anyOf":
+        return doc.error(path, err.schema.get("description", "does not match any allowed form"))
+    return doc.error(path, err.message)

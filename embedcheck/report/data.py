@@ -1,0 +1,96 @@
+"""Plain JSON-ready dictionaries of results; the text renderer and `--format json` share them.
+
+The shape is described by `embedcheck/schemas/find-report.schema.json` and
+`audit-report.schema.json`.
+"""
+from __future__ import annotations
+
+from .. import __version__
+from ..audit import AuditReport
+from ..device import Device
+from ..patch import Patch
+from ..rank import CAUTION, Ranking
+from ..vet import Vetting
+
+
+def chip_summary(device: Device) -> dict:
+    return {"name": device.name, "file": device.source, "qubits": device.num_qubits,
+            "couplers": len(device.couplers), "live_couplers": len(device.live_couplers),
+            "dead_qubits": sorted(device.dead_qubits),
+            "dead_couplers": [list(c) for c in sorted(device.dead_couplers)],
+            "calibration_timestamp": device.calibration_timestamp}
+
+
+def patch_summary(patch: Patch) -> dict:
+    roles = {r: list(patch.qubits_with_role(r)) for r in ("data", "flag", "ancilla")}
+    return {"name": patch.name, "file": patch.source, "qubits": patch.num_qubits,
+            "roles": roles, "rounds": patch.rounds}
+
+
+def placement_rows(patch: Patch, ranking: Ranking, off, top: int | None) -> list[dict]:
+    names = list(patch.circuits)
+    rows = []
+    count = len(ranking.placements) if top is None else min(top, len(ranking.placements))
+    for i in range(count):
+        rows.append({
+            "rank": i + 1,
+            "qubits": ranking.placements[i].as_dict(patch),
+            "figure": ranking.figure,
+            "success": float(ranking.success[i]),
+            "log_success": float(ranking.log_success[i]),
+            "terms": {k: float(v[i]) for k, v in ranking.terms.items()},
+            "off_coupler_gates": {n: int(off[i, j]) for j, n in enumerate(names)},
+            "unscored_gates": int(ranking.unscored_gates[i]),
+        })
+    return rows
+
+
+def audit_dict(patch: Patch, report: AuditReport) -> dict:
+    circuits = []
+    for c in report.circuits:
+        circuits.append({
+            "circuit": c.circuit, "times_run": c.times_run,
+            "two_qubit_gates": c.two_qubit_gates, "measurements": c.measurements,
+            "swap_free": c.swap_free, "off_coupler_count": len(c.off_coupler),
+            "off_coupler": [{
+                "gate_index": g.gate_index, "patch_qubits": list(g.patch_qubits),
+                "physical_qubits": list(g.physical_qubits), "written": g.written,
+                "text": g.text, "file": g.file, "line": g.line, "reason": g.reason,
+            } for g in c.off_coupler],
+            "router_estimate": c.router_estimate,
+        })
+    return {"placement": report.placement.as_dict(patch), "swap_free": report.swap_free,
+            "experiment": report.experiment_totals(), "circuits": circuits}
+
+
+def find_dict(v: Vetting, top: int | None = 10) -> dict:
+    names = list(v.patch.circuits)
+    times = dict(v.patch.experiment())
+    circuits = []
+    for j, fit in enumerate(v.fits):
+        col = v.off_coupler[:, j] if len(v.ranking.placements) else None
+        circuits.append({
+            "circuit": fit.circuit, "times_run": times.get(fit.circuit, 0),
+            "two_qubit_gates": fit.two_qubit_gates,
+            "measurements": len(v.patch.circuits[fit.circuit].measurements),
+            "fits_alone": fit.fits_alone, "in_core": fit.circuit in v.core,
+            "off_coupler_min": int(col.min()) if col is not None else None,
+            "off_coupler_max": int(col.max()) if col is not None else None,
+            "reasons": list(fit.reasons),
+        })
+    s = v.search
+    return {
+        "tool": "embedcheck", "version": __version__, "command": "find",
+        "chip": chip_summary(v.device), "patch": patch_summary(v.patch),
+        "circuits": circuits,
+        "all_swap_free": v.all_swap_free,
+        "search": {"circuits": list(s.circuits), "distinct_placements": len(s.placements),
+                   "raw_maps": s.raw_maps, "symmetry_order": s.symmetry_order,
+                   "complete": s.complete, "stop_reason": s.stop_reason,
+                   "elapsed_s": round(s.elapsed_s, 4), "reasons": list(s.reasons)},
+        "figure": v.ranking.figure,
+        "placements": placement_rows(v.patch, v.ranking, v.off_coupler, top),
+        "best_audit": audit_dict(v.patch, v.best_audit) if v.best_audit else None,
+        "caution": CAUTION,
+        "circuit_order": names,
+    }

@@ -1,0 +1,122 @@
+"""Terminal renderings of the report dictionaries (`report.data`)."""
+from __future__ import annotations
+
+import math
+
+
+def _where(gate: dict) -> str:
+    if gate.get("file") and gate.get("line"):
+        return f"{gate['file']}:{gate['line']}"
+    return gate.get("file") or "?"
+
+
+def _placement(qubits: dict) -> str:
+    return " ".join(f"{k}={v}" for k, v in qubits.items())
+
+
+def _off_gates(audit: dict, indent: str = "  ") -> list[str]:
+    lines = []
+    for c in audit["circuits"]:
+        for g in c["off_coupler"]:
+            a, b = g["patch_qubits"]
+            p, q = g["physical_qubits"]
+            written = f" (part of '{g['written']}')" if g["written"] not in ("cx", "") else ""
+            lines.append(f"{indent}{c['circuit']}: two-qubit gate #{g['gate_index']} at "
+                         f"{_where(g)}: {g['text']}{written}")
+            lines.append(f"{indent}    needs {a}-{b} = physical {p}-{q}: {g['reason']}")
+        est = c.get("router_estimate")
+        if est:
+            lines.append(f"{indent}{c['circuit']}: router {est['kind']} ({est['method']}, seed "
+                         f"{est['seed']}): +{est['added_two_qubit_gates']} two-qubit gates")
+    return lines
+
+
+def render_find(d: dict) -> str:
+    chip, patch = d["chip"], d["patch"]
+    roles = ", ".join(f"{len(v)} {k}" for k, v in patch["roles"].items() if v)
+    dead = []
+    if chip["dead_qubits"]:
+        dead.append(f"{len(chip['dead_qubits'])} dead qubit(s)")
+    if chip["dead_couplers"]:
+        dead.append(f"{len(chip['dead_couplers'])} dead coupler(s)")
+    out = [f"Patch '{patch['name']}' ({patch['qubits']} qubits: {roles}; {patch['rounds']} "
+           f"round(s)) on chip '{chip['name']}' ({chip['qubits']} qubits, "
+           f"{chip['live_couplers']} live couplers{', ' + ', '.join(dead) if dead else ''})", ""]
+    out.append(f"  {'circuit':<12} {'runs':>4} {'2q gates':>8} {'measures':>8}  "
+               f"{'fits alone':<10}  on the placements below")
+    for c in d["circuits"]:
+        if c["off_coupler_max"] is None:
+            verdict = "-"
+        elif c["off_coupler_max"] == 0:
+            verdict = "swap-free"
+        elif c["off_coupler_min"] == c["off_coupler_max"]:
+            verdict = f"NEEDS ROUTING: {c['off_coupler_min']} off-coupler gate(s) on every one"
+        else:
+            verdict = (f"NEEDS ROUTING: {c['off_coupler_min']} to {c['off_coupler_max']} "
+                       f"off-coupler gate(s)")
+        out.append(f"  {c['circuit']:<12} {c['times_run']:>4} {c['two_qubit_gates']:>8} "
+                   f"{c['measurements']:>8}  {'yes' if c['fits_alone'] else 'no':<10}  {verdict}")
+        for reason in c["reasons"]:
+            out.append(f"      why not: {reason}")
+    s = d["search"]
+    out.append("")
+    if not s["distinct_placements"]:
+        out.append("No placement is swap-free for any circuit set that includes the check round.")
+        for reason in s["reasons"]:
+            out.append(f"  why: {reason}")
+        out += ["", d["caution"]]
+        return "\n".join(out)
+    state = "search complete" if s["complete"] else f"INCOMPLETE: stopped by the {s['stop_reason']}"
+    out.append(f"Swap-free for {', '.join(s['circuits'])}: {s['distinct_placements']} distinct "
+               f"placement(s) ({s['raw_maps']} maps / patch symmetry of order "
+               f"{s['symmetry_order']}); {state}, {s['elapsed_s']:.2f} s.")
+    excluded = [c["circuit"] for c in d["circuits"] if not c["in_core"]]
+    if d["all_swap_free"]:
+        out.append("Every circuit is swap-free on every placement listed: no added two-qubit gates.")
+    else:
+        out.append(f"No placement makes every circuit swap-free: {', '.join(excluded)} "
+                   f"need(s) routing on all of them (see the gates below).")
+    out += ["", f"  {'rank':>4} {'est. success':>12} {'log 2q':>8} {'log read':>8} {'log 1q':>8} "
+                f"{'off-coupler':>11}  placement (patch qubit=physical qubit)"]
+    for row in d["placements"]:
+        off = sum(row["off_coupler_gates"].values())
+        t = row["terms"]
+        out.append(f"  {row['rank']:>4} {row['success']:>12.4f} {t['two_qubit']:>8.4f} "
+                   f"{t['readout']:>8.4f} {t['single_qubit']:>8.4f} {off:>11}  "
+                   f"{_placement(row['qubits'])}")
+    if s["distinct_placements"] > len(d["placements"]):
+        out.append(f"  ... {s['distinct_placements'] - len(d['placements'])} more (use --top)")
+    best = d["best_audit"]
+    if best and not best["swap_free"]:
+        out += ["", "On the best placement, these gates land on uncoupled qubits "
+                    "(exact; a router would add SWAPs, 3 two-qubit gates each):"]
+        out += _off_gates(best)
+    out += ["", f"Score: {d['figure']} = product of (1 - error) over every gate and measurement "
+                "of the experiment (README, 'Cost model'); off-coupler gates are not scored.",
+            d["caution"]]
+    return "\n".join(out)
+
+
+def render_audit(d: dict) -> str:
+    out = [f"Audit of patch '{d['patch']['name']}' on chip '{d['chip']['name']}' at "
+           f"{_placement(d['audit']['placement'])}", ""]
+    out.append(f"  {'circuit':<12} {'runs':>4} {'2q gates':>8} {'off-coupler':>11}  verdict")
+    for c in d["audit"]["circuits"]:
+        verdict = "swap-free" if c["swap_free"] else "NEEDS ROUTING"
+        out.append(f"  {c['circuit']:<12} {c['times_run']:>4} {c['two_qubit_gates']:>8} "
+                   f"{c['off_coupler_count']:>11}  {verdict}")
+    e = d["audit"]["experiment"]
+    out.append(f"  {'experiment':<12} {'':>4} {e['two_qubit_gates']:>8} {e['off_coupler_gates']:>11}"
+               f"  {'swap-free' if e['off_coupler_gates'] == 0 else 'NEEDS ROUTING'}")
+    lines = _off_gates(d["audit"])
+    if lines:
+        out += ["", "Off-coupler gates (exact):"] + lines
+    score = d.get("score")
+    if score:
+        out += ["", f"Estimated success ({score['figure']}): {score['success']:.4f} "
+                    f"(log: 2q {score['terms']['two_qubit']:.4f}, readout "
+                    f"{score['terms']['readout']:.4f}, 1q {score['terms']['single_qubit']:.4f})"]
+        if not math.isclose(score["unscored_gates"], 0):
+            out.append(f"  {score['unscored_gates']} off-coupler gate(s) are not in the score.")
+    out += ["", d["caution"]]
+    return "\n".join(out)

@@ -1,0 +1,97 @@
+"""The main job in one call: which circuits fit, where, how well, and what breaks.
+
+`vet_patch` runs the stages in order (search, audit, rank) and returns plain data
+for the report:
+
+1. each circuit on its own: does any swap-free placement exist?
+2. the *core*: the largest set of circuits that fit together, built greedily with
+   the check round first (a layout is chosen for its check rounds; a preparation can
+   be rewritten, see the repair work);
+3. every distinct placement that is swap-free for the core, ranked by the cost model;
+4. for every such placement, the off-coupler gates of each circuit (vectorised), and
+   the full audit of the best one, naming each offending gate and its source line.
+
+    >>> from embedcheck import load_device, load_patch   # doctest: +SKIP
+    >>> v = vet_patch(load_device("devices/demo_heavy_hex.yaml"),
+    ...               load_patch("samples/flagged_weight4.yaml"))   # doctest: +SKIP
+    >>> v.core, v.excluded                                          # doctest: +SKIP
+    (('round', 'readout'), ('prep',))
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Callable
+
+import numpy as np
+
+from .audit import AuditReport, audit_placement, off_coupler_counts
+from .device import Device
+from .io.errors import InputError
+from .patch import Patch
+from .rank import Ranking, rank_placements
+from .search import SearchResult, find_placements
+
+_CORE_ORDER = ("round", "readout", "prep")
+
+
+@dataclass(frozen=True)
+class CircuitFit:
+    """Whether one circuit alone has any swap-free placement, and why not."""
+
+    circuit: str
+    two_qubit_gates: int
+    fits_alone: bool
+    reasons: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class Vetting:
+    """Everything the find report shows, in the order the stages produced it."""
+
+    device: Device
+    patch: Patch
+    fits: tuple[CircuitFit, ...]
+    core: tuple[str, ...]
+    excluded: tuple[str, ...]
+    search: SearchResult
+    ranking: Ranking
+    off_coupler: np.ndarray      # (placements in ranked order, circuits in patch order)
+    best_audit: AuditReport | None
+
+    @property
+    def all_swap_free(self) -> bool:
+        return not self.excluded and bool(self.ranking.placements)
+
+
+def vet_patch(device: Device, patch: Patch, *, limit: int | None = 10_000,
+              budget_s: float | None = 60.0,
+              progress: Callable[[int], None] | None = None) -> Vetting:
+    """Search, audit and rank `patch` on `device`; see the module docstring."""
+    if patch.num_qubits > device.num_qubits:
+        raise InputError(f"the patch has {patch.num_qubits} qubits but chip '{device.name}' has "
+                         f"only {device.num_qubits}", file=patch.source)
+    fits = []
+    for name, circuit in patch.circuits.items():
+        alone = find_placements(device, patch, circuits=[name], limit=1, budget_s=budget_s)
+        fits.append(CircuitFit(name, len(circuit.two_qubit_gates), bool(alone.placements),
+                               alone.reasons))
+    core: list[str] = []
+    order = sorted(patch.circuits, key=lambda n: (_CORE_ORDER.index(n)
+                                                  if n in _CORE_ORDER else len(_CORE_ORDER)))
+    fitting = {f.circuit for f in fits if f.fits_alone}
+    for name in order:
+        if name in fitting and (not core or find_placements(
+                device, patch, circuits=core + [name], limit=1, budget_s=budget_s).placements):
+            core.append(name)
+    excluded = tuple(n for n in patch.circuits if n not in core)
+    if core:
+        search = find_placements(device, patch, circuits=core, limit=limit, budget_s=budget_s,
+                                 progress=progress)
+    else:
+        search = find_placements(device, patch, circuits=list(patch.circuits), limit=1,
+                                 budget_s=budget_s)
+    ranking = rank_placements(device, patch, search.placements)
+    names = list(patch.circuits)
+    off = off_coupler_counts(device, patch, ranking.placements, names)
+    best = audit_placement(device, patch, ranking.placements[0]) if ranking.placements else None
+    return Vetting(device, patch, tuple(fits), tuple(core), excluded, search, ranking, off, best)
