@@ -29,7 +29,7 @@ import numpy as np
 
 from .device import Device
 from .patch import Patch
-from .search import Placement
+from .search import Placement, placement_grid
 
 
 @dataclass(frozen=True)
@@ -110,7 +110,7 @@ def off_coupler_counts(device: Device, patch: Patch, placements: Sequence[Placem
     coupled = np.zeros((n, n), dtype=bool)
     for a, b in device.live_couplers:
         coupled[a, b] = coupled[b, a] = True
-    grid = np.array([p.physical for p in placements], dtype=np.int64).reshape(len(placements), -1)
+    grid = placement_grid(placements, patch.num_qubits)
     out = np.zeros((len(placements), len(circuits)), dtype=np.int64)
     for j, name in enumerate(circuits):
         counts = patch.interaction_counts([name])

@@ -17,7 +17,7 @@ Qubits are numbered row by row in reading order of their drawing positions.
     >>> len(hh.qubits), len(hh.couplers)
     (12, 12)
     >>> heavy_hex_qubit_count(3, 4)
-    88
+    87
 """
 from __future__ import annotations
 

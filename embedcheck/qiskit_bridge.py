@@ -11,8 +11,6 @@ from .io.qasm import qasm_version
 from .patch import Patch
 from .search import Placement
 
-_BASIS = ["cx", "u", "measure", "reset", "barrier", "if_else", "while_loop", "for_loop",
-          "switch_case", "delay"]
 
 
 def qiskit_circuit(patch: Patch, circuit: str):
@@ -38,16 +36,29 @@ def qiskit_circuit(patch: Patch, circuit: str):
     return qc, names
 
 
-def coupling_map(device: Device):
-    """qiskit `CouplingMap` of the live couplers, both directions."""
-    from qiskit.transpiler import CouplingMap
+def device_target(device: Device):
+    """A qiskit `Target`: CNOT both ways on live couplers, u/measure/reset on live qubits.
 
-    edges = [e for a, b in device.live_couplers for e in ((a, b), (b, a))]
-    cmap = CouplingMap(edges)
-    for q in range(max(device.qubits) + 1):
-        if q not in cmap.physical_qubits:
-            cmap.add_physical_qubit(q)
-    return cmap
+    The control-flow operations are listed too: without them qiskit refuses circuits
+    with classically-controlled blocks.
+    """
+    from qiskit.circuit import (ForLoopOp, IfElseOp, Measure, Parameter, Reset, SwitchCaseOp,
+                                WhileLoopOp)
+    from qiskit.circuit.library import CXGate, UGate
+    from qiskit.transpiler import Target
+
+    target = Target(num_qubits=max(device.qubits) + 1)
+    live = [(q,) for q in device.live_qubits]
+    target.add_instruction(CXGate(), {e: None for a, b in device.live_couplers
+                                      for e in ((a, b), (b, a))})
+    theta, phi, lam = Parameter("theta"), Parameter("phi"), Parameter("lam")
+    target.add_instruction(UGate(theta, phi, lam), {q: None for q in live})
+    target.add_instruction(Measure(), {q: None for q in live})
+    target.add_instruction(Reset(), {q: None for q in live})
+    for op, name in ((IfElseOp, "if_else"), (WhileLoopOp, "while_loop"),
+                     (ForLoopOp, "for_loop"), (SwitchCaseOp, "switch_case")):
+        target.add_instruction(op, name=name)
+    return target
 
 
 def transpile_on_placement(device: Device, patch: Patch, circuit: str, placement: Placement,
@@ -63,8 +74,8 @@ def transpile_on_placement(device: Device, patch: Patch, circuit: str, placement
     where = placement.as_dict(patch)
     spare = iter(q for q in sorted(set(device.live_qubits) - set(placement.physical)))
     layout = [where[n] if n in where else next(spare) for n in names]
-    out = transpile(qc, coupling_map=coupling_map(device), basis_gates=_BASIS,
-                    initial_layout=layout, optimization_level=0, seed_transpiler=seed)
+    out = transpile(qc, target=device_target(device), initial_layout=layout,
+                    optimization_level=0, seed_transpiler=seed)
     return {"two_qubit_gates": _count_two_qubit(out), "circuit": out}
 
 

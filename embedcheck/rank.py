@@ -25,7 +25,7 @@ placements x patch qubits): no Python loop per placement.
     ...               {"round": Circuit("round", (Operation("cx", ("a", "b"), "2q"),))})
     >>> r = rank_placements(dev, patch, [Placement((1, 2)), Placement((0, 1))])
     >>> [p.physical for p in r.placements], np.round(r.success, 3).tolist()
-    [(0, 1), (1, 2)], [0.99, 0.98]
+    ([(0, 1), (1, 2)], [0.99, 0.98])
 """
 from __future__ import annotations
 
@@ -36,7 +36,7 @@ import numpy as np
 
 from .device import Device
 from .patch import Patch
-from .search import Placement
+from .search import Placement, placement_grid
 
 FIGURE = "fidelity_product"
 CAUTION = ("Scores are model estimates from the calibration you supplied, which drifts; "
@@ -77,7 +77,7 @@ def rank_placements(device: Device, patch: Patch, placements: Sequence[Placement
     """Score every placement with the cost model above and sort best first."""
     pairs, measures, singles = experiment_counts(patch)
     two, readout, single = device.error_arrays()
-    grid = np.array([p.physical for p in placements], dtype=np.int64).reshape(len(placements), -1)
+    grid = placement_grid(placements, patch.num_qubits)
     if pairs and len(placements):
         ab = np.array(list(pairs), dtype=np.int64)
         weight = np.array(list(pairs.values()), dtype=float)

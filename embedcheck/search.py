@@ -34,6 +34,7 @@ from collections import deque
 from dataclasses import dataclass
 from typing import Callable, Sequence
 
+import numpy as np
 import rustworkx as rx
 
 from .device import Device
@@ -117,6 +118,12 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
                    "the chip's live coupling graph (exhaustive search found no placement)"]
     return SearchResult(names, tuple(found), raw, len(autos), stop, tuple(reasons),
                         time.monotonic() - start)
+
+
+def placement_grid(placements: Sequence[Placement], num_qubits: int) -> np.ndarray:
+    """Placements as an int array of shape (placements, patch qubits), for vectorised scoring."""
+    return np.array([p.physical for p in placements], dtype=np.int64).reshape(
+        len(placements), num_qubits)
 
 
 def necessary_conditions(device: Device, patch: Patch, circuits: Sequence[str]) -> list[str]:

@@ -1,0 +1,128 @@
+"""The command line as a user meets it: the demo, JSON output, exit codes, bad input."""
+import json
+import subprocess
+import sys
+import textwrap
+
+import pytest
+
+from embedcheck.cli import main
+from helpers import DEMO_CHIP, DEMO_PATCH, FIXED_PATCH
+
+GOOD_CHIP = """\
+embedcheck_chip: 1
+name: tiny
+qubits: 3
+couplers: [[0, 1], [1, 2]]
+calibration:
+  defaults: {readout_error: 0.01, two_qubit_error: 0.01}
+  qubits:
+    - {qubit: 0, t1_us: 100, t2_us: 80}
+"""
+
+
+def run(capsys, *args):
+    code = main([str(a) for a in args])
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+def test_demo_find_reports_the_lesson(capsys):
+    code, out, err = run(capsys, "find", DEMO_CHIP, DEMO_PATCH)
+    assert code == 0 and err == ""
+    assert "prep" in out and "NEEDS ROUTING: 3 off-coupler gate(s) on every one" in out
+    round_line = next(line for line in out.splitlines() if line.strip().startswith("round"))
+    assert "swap-free" in round_line
+    assert f"{DEMO_PATCH}:23: cx d[0], d[1];" in out
+    assert "model estimates" in out and "search complete" in out
+
+
+def test_demo_find_json_and_strict(capsys):
+    code, out, _ = run(capsys, "find", DEMO_CHIP, DEMO_PATCH, "--format", "json", "--top", "3")
+    data = json.loads(out)
+    assert code == 0 and data["all_swap_free"] is False
+    assert len(data["placements"]) == 3 and data["placements"][0]["rank"] == 1
+    prep = next(c for c in data["circuits"] if c["circuit"] == "prep")
+    assert prep["fits_alone"] and not prep["in_core"] and prep["off_coupler_min"] == 3
+    assert data["search"]["complete"] and data["figure"] == "fidelity_product"
+    assert run(capsys, "find", DEMO_CHIP, DEMO_PATCH, "--strict")[0] == 1
+    assert run(capsys, "find", DEMO_CHIP, FIXED_PATCH, "--strict")[0] == 0
+
+
+def test_audit_by_rank_and_by_placement(capsys):
+    code, out, _ = run(capsys, "audit", DEMO_CHIP, DEMO_PATCH, "--pick", "1", "--format", "json")
+    data = json.loads(out)
+    assert code == 0 and not data["audit"]["swap_free"]
+    placement = ",".join(f"{k}={v}" for k, v in data["audit"]["placement"].items())
+    code, out, _ = run(capsys, "audit", DEMO_CHIP, FIXED_PATCH, "--placement", placement,
+                       "--strict")
+    assert code == 0 and "experiment" in out and "NEEDS ROUTING" not in out
+    code, out, _ = run(capsys, "audit", DEMO_CHIP, DEMO_PATCH, "--placement", placement,
+                       "--strict", "--router-estimate")
+    assert code == 1 and "router estimate" in out
+
+
+def test_validate(capsys):
+    code, out, _ = run(capsys, "validate", DEMO_CHIP, DEMO_PATCH)
+    assert code == 0 and "valid chip file" in out and "valid patch file" in out
+
+
+def _bad(tmp_path, capsys, text, *, name="chip.yaml", patch=None):
+    path = tmp_path / name
+    path.write_text(textwrap.dedent(text))
+    args = ["validate", path] if patch is None else ["find", path, patch]
+    code, out, err = run(capsys, *args)
+    assert code == 2 and out == ""
+    assert err.count("\n") == 1 and "Traceback" not in err
+    return err
+
+
+@pytest.mark.parametrize("change,expected", [
+    (("couplers: [[0, 1], [1, 2]]", "coupler: [[0, 1]]"),
+     ":4: coupler: unknown key 'coupler' (did you mean 'couplers'?)"),
+    (("two_qubit_error: 0.01", "two_qubit_error: 1.5"),
+     "calibration.defaults.two_qubit_error: 1.5 must be <= 1"),
+    (("[1, 2]]", "[1, 5]]"), ":4: couplers[1]: coupler [1, 5] names qubit 5"),
+    (("[1, 2]]", "[1, 2], [2, 1]]"), ":4: couplers[2]: duplicate coupler [2, 1]"),
+    (("t2_us: 80", "t2_us: 250"), ":8: calibration.qubits[0].t2_us: qubit 0: t2_us 250"),
+    (("qubits: 3", "qubits: [3"), "YAML syntax error"),
+    (("name: tiny\n", ""), "missing required key 'name'"),
+])
+def test_bad_chip_files(tmp_path, capsys, change, expected):
+    err = _bad(tmp_path, capsys, GOOD_CHIP.replace(*change))
+    assert expected in err and "chip.yaml" in err
+
+
+def test_missing_file(tmp_path, capsys):
+    code, _, err = run(capsys, "find", tmp_path / "nope.yaml", DEMO_PATCH)
+    assert code == 2 and "nope.yaml: file not found" in err
+
+
+def test_undeclared_patch_qubit(tmp_path, capsys):
+    text = DEMO_PATCH.read_text().replace("ancilla: [a0]", "ancilla: [a9]")
+    (tmp_path / "flagged_weight4_round.qasm").write_text(
+        (DEMO_PATCH.parent / "flagged_weight4_round.qasm").read_text())
+    err = _bad(tmp_path, capsys, text, name="patch.yaml")
+    assert "flagged_weight4_round.qasm:14: circuit 'round' uses qubit 'a0'" in err
+
+
+def test_patch_larger_than_chip(tmp_path, capsys):
+    chip = tmp_path / "tiny.yaml"
+    chip.write_text(GOOD_CHIP)
+    code, out, err = run(capsys, "find", chip, DEMO_PATCH)
+    assert code == 2 and "the patch has 7 qubits but chip 'tiny' has only 3" in err
+
+
+def test_usage_errors_exit_2(capsys):
+    assert run(capsys, "find", DEMO_CHIP)[0] == 2
+    assert run(capsys)[0] == 2
+    code, _, err = run(capsys, "audit", DEMO_CHIP, DEMO_PATCH, "--placement", "d0=1")
+    assert code == 2 and "no physical qubit given for d1" in err
+    code, _, err = run(capsys, "audit", DEMO_CHIP, DEMO_PATCH, "--placement", "dd0=1")
+    assert code == 2 and "did you mean 'd0'" in err
+
+
+def test_console_entry_point_runs_as_a_module():
+    proc = subprocess.run([sys.executable, "-m", "embedcheck", "find", str(DEMO_CHIP),
+                           str(DEMO_PATCH), "--top", "1"], capture_output=True, text=True)
+    assert proc.returncode == 0 and "NEEDS ROUTING" in proc.stdout

@@ -1,0 +1,71 @@
+"""The vectorised cost model against a plain per-gate product, and what it ranks first."""
+import math
+import random
+
+import numpy as np
+import pytest
+
+from embedcheck import load_device, load_patch, rank_placements, vet_patch
+from embedcheck.search import Placement
+from helpers import DEMO_CHIP, DEMO_PATCH, FIXED_PATCH
+
+
+def _product_by_hand(device, patch, placement):
+    """prod (1 - e) over every operation the experiment runs, one gate at a time."""
+    where = placement.as_dict(patch)
+    s = 1.0
+    for name, times in patch.experiment():
+        for _ in range(times):
+            for op in patch.circuits[name].operations:
+                if op.kind == "2q":
+                    a, b = (where[q] for q in op.qubits)
+                    if device.is_coupled(a, b):
+                        s *= 1 - device.coupler_calibration[(min(a, b), max(a, b))].two_qubit_error
+                elif op.kind == "measure":
+                    s *= 1 - device.qubit_calibration[where[op.qubits[0]]].readout_error
+                elif op.kind == "1q":
+                    s *= 1 - device.qubit_calibration[where[op.qubits[0]]].single_qubit_error
+    return s
+
+
+@pytest.mark.parametrize("patch_file", [DEMO_PATCH, FIXED_PATCH])
+def test_vectorised_score_equals_gate_by_gate_product(patch_file):
+    device, patch = load_device(DEMO_CHIP), load_patch(patch_file)
+    placements = list(vet_patch(device, patch).ranking.placements)
+    ranking = rank_placements(device, patch, placements)
+    for placement, success in zip(ranking.placements, ranking.success):
+        assert success == pytest.approx(_product_by_hand(device, patch, placement), rel=1e-12)
+    total = sum(ranking.terms.values())
+    assert np.allclose(total, ranking.log_success)
+    assert (np.diff(ranking.log_success) <= 0).all()          # best first
+
+
+def test_unscored_gates_are_the_off_coupler_ones():
+    device, patch = load_device(DEMO_CHIP), load_patch(DEMO_PATCH)
+    vetting = vet_patch(device, patch)
+    # Prep's three data-data CNOTs are off-coupler on every round placement.
+    assert (vetting.ranking.unscored_gates == 3).all()
+
+
+def test_worse_region_ranks_below_the_good_one():
+    device, patch = load_device(DEMO_CHIP), load_patch(FIXED_PATCH)
+    ranking = vet_patch(device, patch).ranking
+    xmax = max(x for x, _ in device.positions.values())
+
+    def in_worse_region(p):
+        return any(device.positions[q][0] >= 0.7 * xmax for q in p.physical)
+
+    worse = [i for i, p in enumerate(ranking.placements) if in_worse_region(p)]
+    good = [i for i, p in enumerate(ranking.placements) if not in_worse_region(p)]
+    assert worse and good
+    assert max(ranking.success[worse]) < min(ranking.success[good][:5])
+
+
+def test_empty_and_uncalibrated():
+    device, patch = load_device(DEMO_CHIP), load_patch(DEMO_PATCH)
+    empty = rank_placements(device, patch, [])
+    assert len(empty.placements) == 0 and empty.log_success.shape == (0,)
+    rng = random.Random(1)
+    p = Placement(tuple(rng.sample(device.live_qubits, 7)))
+    r = rank_placements(device, patch, [p])
+    assert math.isfinite(r.log_success[0]) and r.log_success[0] < 0
