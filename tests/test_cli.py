@@ -85,12 +85,18 @@ def _bad(tmp_path, capsys, text, *, name="chip.yaml", patch=None):
     (("[1, 2]]", "[1, 5]]"), ":4: couplers[1]: coupler [1, 5] names qubit 5"),
     (("[1, 2]]", "[1, 2], [2, 1]]"), ":4: couplers[2]: duplicate coupler [2, 1]"),
     (("t2_us: 80", "t2_us: 250"), ":8: calibration.qubits[0].t2_us: qubit 0: t2_us 250"),
-    (("qubits: 3", "qubits: [3"), "YAML syntax error"),
+    (("qubits: 3", "qubits: 3:"), "chip.yaml:3: YAML syntax error"),
+    (("embedcheck_chip: 1", "embedcheck_chip: 2"), ":1: embedcheck_chip: format version 2"),
     (("name: tiny\n", ""), "missing required key 'name'"),
 ])
 def test_bad_chip_files(tmp_path, capsys, change, expected):
     err = _bad(tmp_path, capsys, GOOD_CHIP.replace(*change))
     assert expected in err and "chip.yaml" in err
+
+
+def test_chip_given_where_a_patch_belongs(capsys):
+    code, _, err = run(capsys, "find", DEMO_CHIP, DEMO_CHIP)
+    assert code == 2 and "this is a chip file, but a patch file was expected" in err
 
 
 def test_missing_file(tmp_path, capsys):

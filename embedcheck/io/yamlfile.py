@@ -83,8 +83,28 @@ def parse_yaml(text: str, file: str, schema_name: str) -> Document:
     lines: dict = {}
     data = _to_python(node, (), lines, file)
     doc = Document(file, data, lines)
+    _check_kind(doc, schema_name)
     _validate(doc, schema(schema_name))
     return doc
+
+
+def _check_kind(doc: Document, schema_name: str) -> None:
+    """A clear message when the file is not a mapping, or is another kind of file."""
+    if not isinstance(doc.data, dict):
+        raise InputError(f"a {schema_name} file must be a mapping of keys, found "
+                         f"{type(doc.data).__name__}", file=doc.file, line=1)
+    key = f"embedcheck_{schema_name}"
+    if key in doc.data:
+        if doc.data[key] != 1:
+            raise doc.error((key,), f"format version {doc.data[key]!r} is not supported "
+                                    f"(this embedcheck reads version 1)")
+        return
+    other = [k for k in doc.data if k.startswith("embedcheck_")]
+    if other:
+        raise InputError(f"this is a {other[0][len('embedcheck_'):]} file, but a {schema_name} "
+                         f"file was expected here", file=doc.file, line=doc.line((other[0],)))
+    raise InputError(f"missing the version key '{key}: 1' (is this a {schema_name} file?)",
+                     file=doc.file, line=1)
 
 
 def _to_python(node, path, lines, file):
@@ -155,5 +175,6 @@ def _explain(doc: Document, err: jsonschema.ValidationError) -> InputError:
     if err.validator == "const":
         return doc.error(path, f"must be {err.validator_value!r}, got {err.instance!r}")
     if err.validator == "oneOf" or err.validator == "anyOf":
-        return doc.error(path, err.schema.get("description", "does not match any allowed form"))
+        return doc.error(path, f"{err.instance!r} is not valid here: expected "
+                               + err.schema.get("description", "another form"))
     return doc.error(path, err.message)
