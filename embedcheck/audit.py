@@ -57,6 +57,7 @@ class CircuitAudit:
     measurements: int
     off_coupler: tuple[OffCouplerGate, ...]
     router_estimate: dict | None = None
+    direction_fixes: int = 0     # gates on a coupler whose native gate runs the other way
 
     @property
     def swap_free(self) -> bool:
@@ -89,17 +90,19 @@ def audit_placement(device: Device, patch: Patch, placement: Placement, *,
     times = dict(patch.experiment())
     audits = []
     for name, circuit in patch.circuits.items():
-        off = []
+        off, flips = [], 0
         for k, gate in enumerate(circuit.two_qubit_gates):
             a, b = (where[q] for q in gate.qubits)
             if not device.is_coupled(a, b):
                 off.append(OffCouplerGate(name, k, gate.qubits, (a, b), gate.written, gate.text,
                                           gate.file, gate.line, _why_off(device, a, b)))
+            elif not device.runs_natively(a, b):
+                flips += 1      # fixed by single-qubit gates (Hadamards round a CNOT): no SWAP
         estimate = None
         if router_estimate and off:
             estimate = estimate_router_overhead(device, patch, name, placement, seed=seed)
         audits.append(CircuitAudit(name, times.get(name, 0), len(circuit.two_qubit_gates),
-                                   len(circuit.measurements), tuple(off), estimate))
+                                   len(circuit.measurements), tuple(off), estimate, flips))
     return AuditReport(placement, tuple(audits))
 
 

@@ -11,12 +11,14 @@ import sys
 
 from . import __version__
 from .audit import audit_placement
-from .io.chipfile import load_device
+from .io.chipfile import load_device, load_snapshots
+from .io.writers import family_chip_yaml, write_atomic
+from .lattices import FAMILIES, build_family
 from .io.errors import InputError, did_you_mean
 from .io.patchfile import load_patch
 from .rank import CAUTION, rank_placements
 from .report import data as report_data
-from .report.text import render_audit, render_find
+from .report.text import render_audit, render_chip, render_find, render_patch
 from .search import Placement
 from .vet import vet_patch
 
@@ -30,7 +32,8 @@ def main(argv: list[str] | None = None) -> int:
     try:
         args = _parser().parse_args(argv)
         if not getattr(args, "command", None):
-            raise InputError("give a command: find, audit or validate (see 'embedcheck --help')")
+            raise InputError("give a command: find, audit, validate, show or generate "
+                             "(see 'embedcheck --help')")
         return args.run(args)
     except InputError as err:
         print(f"embedcheck: error: {err}", file=sys.stderr)
@@ -77,6 +80,21 @@ def _parser() -> argparse.ArgumentParser:
     check.add_argument("files", nargs="+", metavar="FILE")
     check.add_argument("--format", choices=("text", "json"), default="text")
     check.set_defaults(run=_run_validate)
+
+    show = sub.add_parser("show", help="summarise a chip or patch file")
+    show.add_argument("file", metavar="FILE", help="chip file, folder of chip snapshots, or patch file")
+    show.add_argument("--format", choices=("text", "json"), default="text")
+    show.set_defaults(run=_run_show)
+
+    gen = sub.add_parser("generate", help="write a chip file for a lattice family "
+                         "(placeholder calibration)")
+    gen.add_argument("family", choices=sorted(FAMILIES))
+    gen.add_argument("--rows", type=_positive_int)
+    gen.add_argument("--columns", type=_positive_int)
+    gen.add_argument("--size", type=_positive_int, help="qubits, for line and ring")
+    gen.add_argument("--name", help="chip name (default: from the family and size)")
+    gen.add_argument("--output", "-o", help="file to write (default: standard output)")
+    gen.set_defaults(run=_run_generate)
     return top
 
 
@@ -191,6 +209,43 @@ def _run_validate(args) -> int:
     text = "\n".join(f"{r['file']}: valid {r['kind']} file '{r['name']}' ({r['qubits']} qubits)"
                      for r in results)
     _emit(args, {"tool": "embedcheck", "command": "validate", "files": results}, text)
+    return 0
+
+
+def _run_show(args) -> int:
+    from pathlib import Path
+    kind = "chip" if Path(args.file).is_dir() else _kind_of(args.file)
+    if kind == "chip":
+        payload = report_data.chip_details(load_snapshots(args.file))
+        text = render_chip(payload)
+    else:
+        payload = report_data.patch_details(load_patch(args.file))
+        text = render_patch(payload)
+    _emit(args, payload, text)
+    return 0
+
+
+def _run_generate(args) -> int:
+    _, params = FAMILIES[args.family]
+    size = {p: getattr(args, p) for p in params}
+    missing = [f"--{p}" for p, v in size.items() if v is None]
+    if missing:
+        raise InputError(f"family '{args.family}' needs {' and '.join(missing)}")
+    extra = [f"--{p}" for p in ("rows", "columns", "size") if p not in params
+             and getattr(args, p) is not None]
+    if extra:
+        raise InputError(f"family '{args.family}' does not take {', '.join(extra)}")
+    name = args.name or f"{args.family}-" + "x".join(str(v) for v in size.values())
+    try:
+        build_family(args.family, **size)
+    except ValueError as exc:
+        raise InputError(str(exc)) from None
+    text = family_chip_yaml(args.family, name, **size)
+    if args.output:
+        write_atomic(args.output, text)
+        print(f"wrote {args.output}: chip '{name}' with PLACEHOLDER calibration", file=sys.stderr)
+    else:
+        sys.stdout.write(text)
     return 0
 
 

@@ -32,8 +32,11 @@ class QubitCalibration:
 
     readout_error: float | None = None
     single_qubit_error: float | None = None
+    reset_error: float | None = None
     t1_us: float | None = None
     t2_us: float | None = None
+    single_qubit_duration_ns: float | None = None
+    measurement_duration_ns: float | None = None
 
 
 @dataclass(frozen=True)
@@ -48,8 +51,10 @@ class CouplerCalibration:
 class Device:
     """A chip with fixed couplers and one calibration snapshot.
 
-    `couplers` are undirected pairs (smaller index first). Dead qubits and dead
-    couplers stay listed (so a report can name them) but are never "live".
+    `couplers` are undirected pairs (smaller index first). `directed` maps the couplers
+    whose native gate runs one way only to that (control, target) direction; the rest
+    run both ways. Dead qubits and dead couplers stay listed (so a report can name
+    them) but are never "live".
     """
 
     name: str
@@ -60,13 +65,14 @@ class Device:
     coupler_calibration: Mapping[Pair, CouplerCalibration] = field(default_factory=dict)
     dead_qubits: frozenset[int] = frozenset()
     dead_couplers: frozenset[Pair] = frozenset()
+    directed: Mapping[Pair, tuple[int, int]] = field(default_factory=dict)
     native_two_qubit_gate: str = "cx"
     description: str = ""
     calibration_timestamp: str | None = None
     source: str | None = None
 
     def __post_init__(self) -> None:
-        for name in ("positions", "qubit_calibration", "coupler_calibration"):
+        for name in ("positions", "qubit_calibration", "coupler_calibration", "directed"):
             object.__setattr__(self, name, MappingProxyType(dict(getattr(self, name))))
 
     @classmethod
@@ -74,6 +80,43 @@ class Device:
         """A device from a `lattices.Lattice`, with any other fields as keywords."""
         return cls(qubits=lattice.qubits, couplers=lattice.couplers,
                    positions=lattice.positions, **kwargs)
+
+    @classmethod
+    def from_graph(cls, graph, *, name: str, **kwargs) -> "Device":
+        """A device from a networkx or rustworkx graph; node i (or node label i) is qubit i.
+
+        >>> import networkx as nx
+        >>> Device.from_graph(nx.cycle_graph(4), name="square").couplers
+        ((0, 1), (0, 3), (1, 2), (2, 3))
+        """
+        if hasattr(graph, "edge_list"):               # rustworkx
+            qubits = tuple(graph.node_indices())
+            edges = graph.edge_list()
+        else:                                         # networkx
+            qubits = tuple(graph.nodes)
+            edges = graph.edges()
+        if not all(isinstance(q, int) and q >= 0 for q in qubits):
+            raise ValueError("graph nodes must be non-negative integers "
+                             "(networkx.convert_node_labels_to_integers helps)")
+        couplers = tuple(sorted({pair(a, b) for a, b in edges if a != b}))
+        return cls(name=name, qubits=tuple(sorted(qubits)), couplers=couplers, **kwargs)
+
+    def to_target(self):
+        """This device as a qiskit `Target` (see `embedcheck.qiskit_bridge.device_target`)."""
+        from .qiskit_bridge import device_target
+        return device_target(self)
+
+    @classmethod
+    def from_target(cls, target, *, name: str) -> "Device":
+        """A device from a qiskit `Target` (see `embedcheck.qiskit_bridge.device_from_target`)."""
+        from .qiskit_bridge import device_from_target
+        return device_from_target(target, name=name)
+
+    def runs_natively(self, control: int, target: int) -> bool:
+        """True when the native gate runs control -> target on a live coupler without a fix."""
+        key = pair(control, target)
+        return self.is_coupled(control, target) and self.directed.get(key, (control, target)) \
+            == (control, target)
 
     @property
     def num_qubits(self) -> int:

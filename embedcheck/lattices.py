@@ -1,4 +1,4 @@
-"""Chip families: heavy-hex and square grid, with positions for drawing.
+"""Chip families: heavy-hex, square grid, hexagonal, line and ring, with drawing positions.
 
 Heavy-hex is the hexagonal (honeycomb) lattice with one extra qubit on every edge
 (common practice; the layout of the heavy-hex code paper, Chamberland et al.,
@@ -21,6 +21,7 @@ Qubits are numbered row by row in reading order of their drawing positions.
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 from .device import Pair, pair
@@ -42,10 +43,10 @@ def heavy_hex_qubit_count(rows: int, columns: int) -> int:
     return (m + 1) * (4 * n + 3) + m * (n + 1) - 4
 
 
-def heavy_hex(rows: int, columns: int) -> Lattice:
-    """A heavy-hex chip of `rows` x `columns` heavy hexagons (both >= 1)."""
+def _brick_wall(rows: int, columns: int, family: str):
+    """Honeycomb of rows x columns hexagons as a brick wall: vertices, bonds, positions."""
     if rows < 1 or columns < 1:
-        raise ValueError("heavy-hex needs rows >= 1 and columns >= 1")
+        raise ValueError(f"{family} needs rows >= 1 and columns >= 1")
     m, n = rows, columns
     width = 2 * n + 2
     corners = {(0, width - 1), (m, width - 1) if m % 2 == 1 else (m, 0)}
@@ -53,14 +54,45 @@ def heavy_hex(rows: int, columns: int) -> Lattice:
     bonds = [((r, c), (r, c + 1)) for r in range(m + 1) for c in range(width - 1)
              if (r, c) not in corners and (r, c + 1) not in corners]
     bonds += [((r, c), (r + 1, c)) for r in range(m) for c in range(width) if c % 2 == r % 2]
-    # Drawing position of a honeycomb vertex (r, c): x = 2c, y = 2r; the qubit on a
-    # bond sits at the midpoint.
+    # Drawing position of a honeycomb vertex (r, c): x = 2c, y = 2r.
     points = {v: (2.0 * v[1], 2.0 * v[0]) for v in vertices}
+    return points, bonds
+
+
+def hexagonal(rows: int, columns: int) -> Lattice:
+    """The honeycomb lattice itself: rows x columns hexagons, qubits of degree 2 and 3."""
+    points, bonds = _brick_wall(rows, columns, "hexagonal")
+    return _numbered("hexagonal", points, {}, bonds, subdivide=False)
+
+
+def line(size: int) -> Lattice:
+    """`size` qubits in a row, each coupled to the next."""
+    if size < 1:
+        raise ValueError("line needs size >= 1")
+    return Lattice("line", tuple(range(size)), tuple((i, i + 1) for i in range(size - 1)),
+                   {i: (float(i), 0.0) for i in range(size)})
+
+
+def ring(size: int) -> Lattice:
+    """`size` qubits on a cycle (size >= 3)."""
+    if size < 3:
+        raise ValueError("ring needs size >= 3")
+    angle = 2 * math.pi / size
+    positions = {i: (round(size / 2 * math.cos(i * angle), 6), round(size / 2 * math.sin(i * angle), 6))
+                 for i in range(size)}
+    couplers = tuple(sorted(pair(i, (i + 1) % size) for i in range(size)))
+    return Lattice("ring", tuple(range(size)), couplers, positions)
+
+
+def heavy_hex(rows: int, columns: int) -> Lattice:
+    """A heavy-hex chip of `rows` x `columns` heavy hexagons (both >= 1)."""
+    points, bonds = _brick_wall(rows, columns, "heavy-hex")
+    # The qubit on a bond sits at its midpoint.
     mids = {}
     for u, v in bonds:
         (xu, yu), (xv, yv) = points[u], points[v]
         mids[(u, v)] = ((xu + xv) / 2, (yu + yv) / 2)
-    return _numbered("heavy-hex", points, mids, bonds)
+    return _numbered("heavy-hex", points, mids, bonds, subdivide=True)
 
 
 def square_grid(rows: int, columns: int) -> Lattice:
@@ -76,16 +108,40 @@ def square_grid(rows: int, columns: int) -> Lattice:
     return Lattice("square-grid", qubits, tuple(sorted(couplers)), positions)
 
 
-FAMILIES = {"heavy-hex": heavy_hex, "square-grid": square_grid}
+# family name -> (builder, its size parameters)
+FAMILIES = {"heavy-hex": (heavy_hex, ("rows", "columns")),
+            "square-grid": (square_grid, ("rows", "columns")),
+            "hexagonal": (hexagonal, ("rows", "columns")),
+            "line": (line, ("size",)),
+            "ring": (ring, ("size",))}
 
 
-def _numbered(family, points, mids, bonds) -> Lattice:
+def build_family(kind: str, **size) -> Lattice:
+    """The lattice of family `kind` with its size parameters, e.g. build_family("line", size=5)."""
+    builder, params = FAMILIES[kind]
+    return builder(*(size[p] for p in params))
+
+
+def cut(lattice: Lattice, *, remove_qubits=(), remove_couplers=()) -> Lattice:
+    """The lattice without some qubits (and their couplers) and some couplers; numbers kept."""
+    gone = set(remove_qubits)
+    gone_c = {pair(*c) for c in remove_couplers}
+    couplers = tuple(c for c in lattice.couplers
+                     if c not in gone_c and c[0] not in gone and c[1] not in gone)
+    return Lattice(lattice.family, tuple(q for q in lattice.qubits if q not in gone), couplers,
+                   {q: xy for q, xy in lattice.positions.items() if q not in gone})
+
+
+def _numbered(family, points, mids, bonds, subdivide) -> Lattice:
     """Number vertex and bond qubits in reading order (top row first, left to right)."""
     spots = [("v", v, xy) for v, xy in points.items()] + [("b", b, xy) for b, xy in mids.items()]
     spots.sort(key=lambda s: (s[2][1], s[2][0]))
     number = {(kind, key): i for i, (kind, key, _) in enumerate(spots)}
     couplers = []
     for u, v in bonds:
+        if not subdivide:
+            couplers.append(pair(number[("v", u)], number[("v", v)]))
+            continue
         mid = number[("b", (u, v))]
         couplers.append(pair(number[("v", u)], mid))
         couplers.append(pair(mid, number[("v", v)]))

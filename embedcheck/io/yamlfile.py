@@ -81,7 +81,8 @@ def parse_yaml(text: str, file: str, schema_name: str) -> Document:
     if node is None:
         raise InputError("file is empty", file=file)
     lines: dict = {}
-    data = _to_python(node, (), lines, file)
+    budget = [_MAX_NODES]
+    data = _to_python(node, (), lines, file, budget)
     doc = Document(file, data, lines)
     _check_kind(doc, schema_name)
     _validate(doc, schema(schema_name))
@@ -107,13 +108,30 @@ def _check_kind(doc: Document, schema_name: str) -> None:
                      file=doc.file, line=1)
 
 
-def _to_python(node, path, lines, file):
-    """Turn a composed YAML node into plain data, recording lines; reject duplicate keys."""
+_MAX_NODES = 1_000_000      # values after expanding aliases; refuses "billion laughs" files
+_PLAIN_TAGS = {f"tag:yaml.org,2002:{t}" for t in
+               ("map", "seq", "str", "int", "float", "bool", "null", "timestamp")}
+
+
+def _to_python(node, path, lines, file, budget):
+    """Turn a composed YAML node into plain data, recording lines; reject duplicate keys.
+
+    Only plain YAML types are built: a tag such as `!!python/object` is an error (never
+    constructed), and a file that expands past `_MAX_NODES` values through aliases is
+    refused. Timestamps stay the strings they were written as.
+    """
+    budget[0] -= 1
+    if budget[0] < 0:
+        raise InputError(f"the file expands to more than {_MAX_NODES} values (through YAML "
+                         "aliases?); refusing to read it", file=file, line=node.start_mark.line + 1)
+    if node.tag not in _PLAIN_TAGS:
+        raise InputError(f"YAML tag '{node.tag}' is not allowed: only plain values, lists and "
+                         "mappings", file=file, line=node.start_mark.line + 1)
     lines.setdefault(path, node.start_mark.line + 1)
     if isinstance(node, yaml.MappingNode):
         out = {}
         for key_node, value_node in node.value:
-            if not isinstance(key_node, yaml.ScalarNode):
+            if not isinstance(key_node, yaml.ScalarNode) or key_node.tag not in _PLAIN_TAGS:
                 raise InputError("a key must be a plain value", file=file,
                                  line=key_node.start_mark.line + 1)
             key = str(_scalar(key_node))
@@ -121,11 +139,12 @@ def _to_python(node, path, lines, file):
                 raise InputError(f"duplicate key '{key}'", file=file,
                                  line=key_node.start_mark.line + 1, key=key_name(path + (key,)))
             lines[path + (key,)] = key_node.start_mark.line + 1
-            out[key] = _to_python(value_node, path + (key,), lines, file)
+            out[key] = _to_python(value_node, path + (key,), lines, file, budget)
         return out
     if isinstance(node, yaml.SequenceNode):
-        return [_to_python(item, path + (i,), lines, file) for i, item in enumerate(node.value)]
-    value = _scalar(node)
+        return [_to_python(item, path + (i,), lines, file, budget)
+                for i, item in enumerate(node.value)]
+    value = node.value if node.tag.endswith(":timestamp") else _scalar(node)
     if isinstance(value, str) and node.style in ("|", ">"):
         # Block scalars start on the line after their indicator; remember that offset
         # so OpenQASM written inline can report lines of the YAML file.

@@ -5,7 +5,10 @@ The shape is described by `embedcheck/schemas/find-report.schema.json` and
 """
 from __future__ import annotations
 
+import numpy as np
+
 from .. import __version__
+from ..graphs import degree_histogram, shortest_cycle
 from ..audit import AuditReport
 from ..device import Device
 from ..patch import Patch
@@ -58,6 +61,7 @@ def audit_dict(patch: Patch, report: AuditReport) -> dict:
                 "text": g.text, "file": g.file, "line": g.line, "reason": g.reason,
             } for g in c.off_coupler],
             "router_estimate": c.router_estimate,
+            "direction_fixes": c.direction_fixes,
         })
     return {"placement": report.placement.as_dict(patch), "swap_free": report.swap_free,
             "experiment": report.experiment_totals(), "circuits": circuits}
@@ -93,4 +97,83 @@ def find_dict(v: Vetting, top: int | None = 10) -> dict:
         "best_audit": audit_dict(v.patch, v.best_audit) if v.best_audit else None,
         "caution": CAUTION,
         "circuit_order": names,
+    }
+
+
+_WORST_IS_LOW = {"t1_us", "t2_us"}
+
+
+def _figure_summary(values: dict) -> dict | None:
+    """Median and worst of {where: value} (worst = highest error, lowest T1/T2)."""
+    given = {k: v for k, v in values.items() if v is not None}
+    if not given:
+        return None
+    return {"given": len(given), "median": float(np.median(list(given.values())))}
+
+
+def calibration_summary(device: Device) -> dict:
+    """Per figure: how many entries give it, the median, the worst value and where."""
+    out = {}
+    fields = ("readout_error", "single_qubit_error", "reset_error", "t1_us", "t2_us",
+              "single_qubit_duration_ns", "measurement_duration_ns")
+    live_q = device.live_qubits
+    for f in fields:
+        vals = {q: getattr(device.qubit_calibration[q], f) for q in live_q
+                if q in device.qubit_calibration}
+        summary = _figure_summary(vals)
+        if summary:
+            given = {k: v for k, v in vals.items() if v is not None}
+            pick = min if f in _WORST_IS_LOW else max
+            where = pick(given, key=given.get)
+            summary.update(worst=float(given[where]), worst_at=f"qubit {where}")
+            out[f] = summary
+    for f in ("two_qubit_error", "duration_ns"):
+        vals = {c: getattr(device.coupler_calibration[c], f) for c in device.live_couplers
+                if c in device.coupler_calibration}
+        summary = _figure_summary(vals)
+        if summary:
+            given = {k: v for k, v in vals.items() if v is not None}
+            where = max(given, key=given.get)
+            summary.update(worst=float(given[where]), worst_at=f"coupler {list(where)}")
+            out["two_qubit_duration_ns" if f == "duration_ns" else f] = summary
+    return out
+
+
+def chip_details(snapshots) -> dict:
+    """What `show` prints for a chip: graph facts, dead parts, calibration per snapshot."""
+    device = snapshots[-1]
+    live = device.live_couplers
+    return {
+        "tool": "embedcheck", "version": __version__, "command": "show", "kind": "chip",
+        **chip_summary(device),
+        "native_two_qubit_gate": device.native_two_qubit_gate,
+        "directed_couplers": [list(device.directed[c]) for c in sorted(device.directed)],
+        "degree_histogram": {str(k): v for k, v in
+                             degree_histogram(device.live_qubits, live).items()},
+        "shortest_cycle": shortest_cycle(device.live_qubits, live),
+        "snapshots": [{"timestamp": d.calibration_timestamp,
+                       "dead_qubits": sorted(d.dead_qubits),
+                       "dead_couplers": [list(c) for c in sorted(d.dead_couplers)],
+                       "calibration": calibration_summary(d)} for d in snapshots],
+    }
+
+
+def patch_details(patch: Patch) -> dict:
+    """What `show` prints for a patch: roles, circuits, interaction graph facts."""
+    counts = patch.interaction_counts()
+    degree = {q: 0 for q in patch.qubits}
+    for a, b in counts:
+        degree[patch.qubits[a]] += 1
+        degree[patch.qubits[b]] += 1
+    return {
+        "tool": "embedcheck", "version": __version__, "command": "show", "kind": "patch",
+        **patch_summary(patch),
+        "circuits": [{"circuit": name, "times_run": dict(patch.experiment()).get(name, 0),
+                      "two_qubit_gates": len(c.two_qubit_gates),
+                      "measurements": len(c.measurements), "file": c.file}
+                     for name, c in patch.circuits.items()],
+        "interaction_degrees": degree,
+        "interacting_pairs": [{"qubits": [patch.qubits[a], patch.qubits[b]], "gates": n}
+                              for (a, b), n in counts.items()],
+        "shortest_cycle": shortest_cycle(range(patch.num_qubits), list(counts)),
     }

@@ -120,3 +120,49 @@ def render_audit(d: dict) -> str:
             out.append(f"  {score['unscored_gates']} off-coupler gate(s) are not in the score.")
     out += ["", d["caution"]]
     return "\n".join(out)
+
+
+def _figure(value: float) -> str:
+    return f"{value:.4g}"
+
+
+def render_chip(d: dict) -> str:
+    hist = ", ".join(f"{v} of degree {k}" for k, v in d["degree_histogram"].items())
+    cycle = d["shortest_cycle"] if d["shortest_cycle"] is not None else "none (a tree)"
+    out = [f"Chip '{d['name']}' ({d['file']}): {d['qubits']} qubits, {d['couplers']} couplers "
+           f"({d['live_couplers']} live), native gate {d['native_two_qubit_gate']}",
+           f"  live qubits by degree: {hist}",
+           f"  shortest cycle: {cycle}"]
+    if d["directed_couplers"]:
+        out.append(f"  directed couplers (native gate one way only): {len(d['directed_couplers'])}")
+    for snap in d["snapshots"]:
+        dead = []
+        if snap["dead_qubits"]:
+            dead.append("dead qubits " + ", ".join(map(str, snap["dead_qubits"])))
+        if snap["dead_couplers"]:
+            dead.append("dead couplers " + ", ".join(f"{a}-{b}" for a, b in snap["dead_couplers"]))
+        out += ["", f"Calibration {snap['timestamp'] or '(no timestamp)'}"
+                    f"{': ' + '; '.join(dead) if dead else ''}"]
+        if not snap["calibration"]:
+            out.append("  no calibration figures given")
+            continue
+        out.append(f"  {'figure':<26} {'given':>6} {'median':>10} {'worst':>10}  where")
+        for name, s in snap["calibration"].items():
+            out.append(f"  {name:<26} {s['given']:>6} {_figure(s['median']):>10} "
+                       f"{_figure(s['worst']):>10}  {s['worst_at']}")
+    return "\n".join(out)
+
+
+def render_patch(d: dict) -> str:
+    out = [f"Patch '{d['name']}' ({d['file']}): {d['qubits']} qubits, {d['rounds']} round(s)"]
+    for role, names in d["roles"].items():
+        if names:
+            out.append(f"  {role:<8} {', '.join(names)}")
+    out += ["", f"  {'circuit':<12} {'runs':>4} {'2q gates':>8} {'measures':>8}  file"]
+    for c in d["circuits"]:
+        out.append(f"  {c['circuit']:<12} {c['times_run']:>4} {c['two_qubit_gates']:>8} "
+                   f"{c['measurements']:>8}  {c['file'] or '-'}")
+    degrees = ", ".join(f"{q}:{k}" for q, k in d["interaction_degrees"].items())
+    cycle = d["shortest_cycle"] if d["shortest_cycle"] is not None else "none (a tree)"
+    out += ["", f"Interaction graph (all circuits): degrees {degrees}; shortest cycle {cycle}"]
+    return "\n".join(out)
