@@ -114,9 +114,11 @@ class Device:
 
     def runs_natively(self, control: int, target: int) -> bool:
         """True when the native gate runs control -> target on a live coupler without a fix."""
-        key = pair(control, target)
-        return self.is_coupled(control, target) and self.directed.get(key, (control, target)) \
-            == (control, target)
+        if not self.is_coupled(control, target):
+            return False
+        if self.native_two_qubit_gate == "cz":      # symmetric: no direction to respect
+            return True
+        return self.directed.get(pair(control, target), (control, target)) == (control, target)
 
     @property
     def num_qubits(self) -> int:

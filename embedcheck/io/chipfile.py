@@ -193,7 +193,7 @@ def _check_pair(doc, path, ab, known):
 def _calibration(doc: Document, path, known: set, couplers):
     cal = _get(doc.data, path) or {}
     defaults = cal.get("defaults", {})
-    _check_t2(doc, path + ("defaults",), "default", defaults)
+    _check_t2(doc, path + ("defaults",), None, defaults)
     per_qubit = {q: {k: defaults.get(k) for k in _QUBIT_KEYS} for q in known}
     seen_q = set()
     for i, item in enumerate(cal.get("qubits", [])):
@@ -226,8 +226,9 @@ def _calibration(doc: Document, path, known: set, couplers):
 def _check_t2(doc, path, q, values):
     t1, t2 = values.get("t1_us"), values.get("t2_us")
     if t1 is not None and t2 is not None and t2 > 2 * t1:
+        who = f"qubit {q}: " if q is not None else "default "
         raise doc.error(path + ("t2_us",),
-                        f"qubit {q}: t2_us {t2} exceeds 2 * t1_us = {2 * t1} (impossible)")
+                        f"{who}t2_us {t2} exceeds 2 * t1_us = {2 * t1} (impossible)")
 
 
 def _check_timestamp(doc, path, stamp):
