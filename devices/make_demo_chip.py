@@ -32,6 +32,7 @@ def main() -> None:
         "calibration:",
         "  timestamp: '2026-11-30T06:00:00Z'",
         "  note: invented figures for the demo",
+        "  defaults: {single_qubit_duration_ns: 36, measurement_duration_ns: 900}",
         "  qubits:",
     ]
     for q in lat.qubits:

@@ -29,6 +29,7 @@ import numpy as np
 
 from .device import Device
 from .patch import Patch
+from .schedule import schedule_circuit
 from .search import Placement, placement_grid
 
 
@@ -58,6 +59,9 @@ class CircuitAudit:
     off_coupler: tuple[OffCouplerGate, ...]
     router_estimate: dict | None = None
     direction_fixes: int = 0     # gates on a coupler whose native gate runs the other way
+    depth: int = 0
+    duration_ns: float = 0.0     # ASAP schedule with the chip's durations (see schedule.py)
+    missing_durations: tuple[str, ...] = ()
 
     @property
     def swap_free(self) -> bool:
@@ -80,7 +84,9 @@ class AuditReport:
         run = [c for c in self.circuits if c.times_run]
         return {"two_qubit_gates": sum(c.two_qubit_gates * c.times_run for c in run),
                 "off_coupler_gates": sum(len(c.off_coupler) * c.times_run for c in run),
-                "measurements": sum(c.measurements * c.times_run for c in run)}
+                "direction_fixes": sum(c.direction_fixes * c.times_run for c in run),
+                "measurements": sum(c.measurements * c.times_run for c in run),
+                "duration_ns": sum(c.duration_ns * c.times_run for c in run)}
 
 
 def audit_placement(device: Device, patch: Patch, placement: Placement, *,
@@ -101,8 +107,10 @@ def audit_placement(device: Device, patch: Patch, placement: Placement, *,
         estimate = None
         if router_estimate and off:
             estimate = estimate_router_overhead(device, patch, name, placement, seed=seed)
+        timing = schedule_circuit(device, patch, name, placement)
         audits.append(CircuitAudit(name, times.get(name, 0), len(circuit.two_qubit_gates),
-                                   len(circuit.measurements), tuple(off), estimate, flips))
+                                   len(circuit.measurements), tuple(off), estimate, flips,
+                                   timing.depth, timing.duration_ns, timing.missing))
     return AuditReport(placement, tuple(audits))
 
 

@@ -62,6 +62,8 @@ def audit_dict(patch: Patch, report: AuditReport) -> dict:
             } for g in c.off_coupler],
             "router_estimate": c.router_estimate,
             "direction_fixes": c.direction_fixes,
+            "depth": c.depth, "duration_ns": c.duration_ns,
+            "missing_durations": list(c.missing_durations),
         })
     return {"placement": report.placement.as_dict(patch), "swap_free": report.swap_free,
             "experiment": report.experiment_totals(), "circuits": circuits}

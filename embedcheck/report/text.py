@@ -100,14 +100,18 @@ def render_find(d: dict) -> str:
 def render_audit(d: dict) -> str:
     out = [f"Audit of patch '{d['patch']['name']}' on chip '{d['chip']['name']}' at "
            f"{_placement(d['audit']['placement'])}", ""]
-    out.append(f"  {'circuit':<12} {'runs':>4} {'2q gates':>8} {'off-coupler':>11}  verdict")
+    out.append(f"  {'circuit':<11} {'runs':>4} {'2q':>4} {'off':>4} {'dir':>4} {'depth':>5} "
+               f"{'time us':>8}  verdict")
     for c in d["audit"]["circuits"]:
         verdict = "swap-free" if c["swap_free"] else "NEEDS ROUTING"
-        out.append(f"  {c['circuit']:<12} {c['times_run']:>4} {c['two_qubit_gates']:>8} "
-                   f"{c['off_coupler_count']:>11}  {verdict}")
+        out.append(f"  {c['circuit']:<11} {c['times_run']:>4} {c['two_qubit_gates']:>4} "
+                   f"{c['off_coupler_count']:>4} {c['direction_fixes']:>4} {c['depth']:>5} "
+                   f"{c['duration_ns'] / 1000:>8.2f}  {verdict}")
     e = d["audit"]["experiment"]
-    out.append(f"  {'experiment':<12} {'':>4} {e['two_qubit_gates']:>8} {e['off_coupler_gates']:>11}"
-               f"  {'swap-free' if e['off_coupler_gates'] == 0 else 'NEEDS ROUTING'}")
+    out.append(f"  {'experiment':<11} {'':>4} {e['two_qubit_gates']:>4} {e['off_coupler_gates']:>4} "
+               f"{e['direction_fixes']:>4} {'':>5} {e['duration_ns'] / 1000:>8.2f}  "
+               f"{'swap-free' if e['off_coupler_gates'] == 0 else 'NEEDS ROUTING'}")
+    out.append("  (2q: two-qubit gates as CNOTs; off: off-coupler; dir: direction fixes only)")
     lines = _off_gates(d["audit"])
     if lines:
         out += ["", "Off-coupler gates (exact):"] + lines
