@@ -32,7 +32,7 @@ def main(argv: list[str] | None = None) -> int:
     try:
         args = _parser().parse_args(argv)
         if not getattr(args, "command", None):
-            raise InputError("give a command: find, audit, validate, show or generate "
+            raise InputError("give a command: find, audit, check, validate, show or generate "
                              "(see 'embedcheck --help')")
         return args.run(args)
     except InputError as err:
@@ -80,6 +80,22 @@ def _parser() -> argparse.ArgumentParser:
     check.add_argument("files", nargs="+", metavar="FILE")
     check.add_argument("--format", choices=("text", "json"), default="text")
     check.set_defaults(run=_run_validate)
+
+    check = sub.add_parser("check", help="run a project file's rules for CI (exit 1 on a "
+                           "failed rule)")
+    check.add_argument("project", help="project file (YAML)")
+    check.add_argument("--format", choices=("text", "json"), default="text")
+    for kind in ("json", "markdown", "junit", "sarif"):
+        check.add_argument(f"--{kind}", metavar="FILE", help=f"write the {kind} report here "
+                           "(overrides the project file)")
+    check.add_argument("--baseline", metavar="FILE",
+                       help="a previous JSON report: say what got worse and what got better")
+    check.add_argument("--fail-on-worse", action="store_true",
+                       help="exit 1 when anything got worse against the baseline")
+    check.add_argument("--cross-check-top", type=int, metavar="N",
+                       help="placements per pair to re-check with qiskit's transpiler "
+                            "(default: the project's, else 3; 0 turns it off)")
+    check.set_defaults(run=_run_check)
 
     show = sub.add_parser("show", help="summarise a chip or patch file")
     show.add_argument("file", metavar="FILE", help="chip file, folder of chip snapshots, or patch file")
@@ -210,6 +226,66 @@ def _run_validate(args) -> int:
                      for r in results)
     _emit(args, {"tool": "embedcheck", "command": "validate", "files": results}, text)
     return 0
+
+
+def _run_check(args) -> int:
+    from pathlib import Path
+
+    from .checks import run_project
+    from .io.projectfile import load_project
+    from .report.junit import render_junit
+    from .report.markdown import render_markdown
+    from .report.sarif import render_sarif
+    from .report.text import render_check
+
+    project = load_project(args.project)
+    targets = dict(project.reports)
+    for kind in ("json", "markdown", "junit", "sarif"):
+        if getattr(args, kind):
+            targets[kind] = getattr(args, kind)
+    for kind, target in targets.items():
+        if not Path(target).resolve().parent.is_dir():
+            raise InputError(f"--{kind}: folder for '{target}' does not exist")
+    baseline = _read_baseline(args.baseline) if args.baseline else None
+    progress = _progress()
+    result = run_project(project, cross_check_top=args.cross_check_top,
+                         progress=(lambda msg: print(f"\r  checking {msg} ...", end="",
+                                                     file=sys.stderr, flush=True))
+                         if progress else None)
+    if progress:
+        print("\r" + " " * 60 + "\r", end="", file=sys.stderr)
+    payload = report_data.check_dict(result, baseline)
+    if payload["baseline"] is not None:
+        payload["baseline"]["file"] = args.baseline
+    writers = {"json": lambda: json.dumps(payload, indent=2) + "\n",
+               "markdown": lambda: render_markdown(payload),
+               "junit": lambda: render_junit(payload),
+               "sarif": lambda: json.dumps(render_sarif(payload), indent=2) + "\n"}
+    texts = {kind: writers[kind]() for kind in targets}      # render all, then write all
+    for kind, target in targets.items():
+        write_atomic(target, texts[kind])
+    _emit(args, payload, render_check(payload))
+    if result.internal_errors:
+        print("embedcheck: internal error: the exact audit and qiskit's transpiler disagree "
+              "(see the report); please report it", file=sys.stderr)
+        return 3
+    worse = bool(payload["baseline"] and payload["baseline"]["worse"])
+    return 0 if result.passed and not (args.fail_on_worse and worse) else 1
+
+
+def _read_baseline(path: str) -> dict:
+    try:
+        data = json.loads(open(path, encoding="utf-8").read())
+    except FileNotFoundError:
+        raise InputError("baseline report not found", file=path) from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputError(f"cannot read baseline report: {exc}", file=path) from None
+    except json.JSONDecodeError as exc:
+        raise InputError(f"baseline is not JSON: {exc.msg}", file=path, line=exc.lineno) from None
+    if not isinstance(data, dict) or data.get("command") != "check":
+        raise InputError("baseline is not an embedcheck check report (--format json or the "
+                         "project's json report)", file=path)
+    return data
 
 
 def _run_show(args) -> int:

@@ -179,3 +179,89 @@ def patch_details(patch: Patch) -> dict:
                               for (a, b), n in counts.items()],
         "shortest_cycle": shortest_cycle(range(patch.num_qubits), list(counts)),
     }
+
+
+def _gate_dict(g) -> dict:
+    return {"gate_index": g.gate_index, "patch_qubits": list(g.patch_qubits),
+            "physical_qubits": list(g.physical_qubits), "written": g.written, "text": g.text,
+            "file": g.file, "line": g.line, "reason": g.reason}
+
+
+def check_dict(result, baseline: dict | None = None) -> dict:
+    """The `check` report: one entry per chip x patch, rules judged, gates named."""
+    entries = []
+    for pair in result.pairs:
+        v = pair.vetting
+        chosen = pair.audit
+        score = None
+        if chosen is not None:
+            index = v.ranking.placements.index(chosen.placement)
+            score = float(v.ranking.success[index])
+        circuits = []
+        for name in pair.patch.circuits:
+            c = next((c for c in chosen.circuits if c.circuit == name), None) if chosen else None
+            circuits.append({
+                "circuit": name,
+                "two_qubit_gates": len(pair.patch.circuits[name].two_qubit_gates),
+                "off_coupler_count": len(c.off_coupler) if c else None,
+                "allowed": pair.rules.allowed(name),
+                "direction_fixes": c.direction_fixes if c else None,
+                "depth": c.depth if c else None,
+                "duration_ns": c.duration_ns if c else None,
+                "gates": [_gate_dict(g) for g in c.off_coupler] if c else [],
+            })
+        entries.append({
+            "chip": pair.device.name, "chip_file": pair.device.source,
+            "patch": pair.patch.name, "patch_file": pair.patch.source,
+            "passed": pair.passed,
+            "placements_within_allowance": pair.allowed_placements,
+            "search": {"circuits": list(v.search.circuits),
+                       "distinct_placements": len(v.search.placements),
+                       "complete": v.search.complete, "stop_reason": v.search.stop_reason},
+            "chosen_placement": chosen.placement.as_dict(pair.patch) if chosen else None,
+            "figure": v.ranking.figure, "best_score": score,
+            "circuits": circuits,
+            "outcomes": [{"rule": o.rule, "circuit": o.circuit, "passed": o.passed,
+                          "message": o.message} for o in pair.outcomes],
+        })
+    out = {"tool": "embedcheck", "version": __version__, "command": "check",
+           "project": {"name": result.project.name, "file": result.project.file},
+           "passed": result.passed, "internal_errors": list(result.internal_errors),
+           "results": entries, "baseline": None, "caution": CAUTION}
+    if baseline is not None:
+        out["baseline"] = compare_to_baseline(out, baseline)
+    return out
+
+
+def compare_to_baseline(current: dict, baseline: dict) -> dict:
+    """What got worse and what got better since a previous `check` JSON report."""
+    old = {(e["chip"], e["patch"]): e for e in baseline.get("results", [])}
+    worse, better = [], []
+    for e in current["results"]:
+        key = (e["chip"], e["patch"])
+        where = f"{e['patch']} on {e['chip']}"
+        before = old.get(key)
+        if before is None:
+            better.append(f"{where}: new in this report") if e["passed"] else \
+                worse.append(f"{where}: new in this report, and it fails")
+            continue
+        old_circuits = {c["circuit"]: c for c in before["circuits"]}
+        for c in e["circuits"]:
+            prev = old_circuits.get(c["circuit"], {}).get("off_coupler_count")
+            now = c["off_coupler_count"]
+            if prev is not None and now is not None and now != prev:
+                (worse if now > prev else better).append(
+                    f"{where}, {c['circuit']}: off-coupler gates {prev} -> {now}")
+        p0, p1 = before["placements_within_allowance"], e["placements_within_allowance"]
+        if p1 != p0:
+            (worse if p1 < p0 else better).append(f"{where}: placements within allowance "
+                                                  f"{p0} -> {p1}")
+        s0, s1 = before.get("best_score"), e.get("best_score")
+        if s0 is not None and s1 is not None and abs(s1 - s0) > 1e-9:
+            (worse if s1 < s0 else better).append(
+                f"{where}: best {e['figure']} {s0:.4f} -> {s1:.4f}")
+        if before["passed"] and not e["passed"]:
+            worse.append(f"{where}: passed before, fails now")
+        elif not before["passed"] and e["passed"]:
+            better.append(f"{where}: failed before, passes now")
+    return {"worse": worse, "better": better}

@@ -170,3 +170,54 @@ def render_patch(d: dict) -> str:
     cycle = d["shortest_cycle"] if d["shortest_cycle"] is not None else "none (a tree)"
     out += ["", f"Interaction graph (all circuits): degrees {degrees}; shortest cycle {cycle}"]
     return "\n".join(out)
+
+
+def render_check(d: dict) -> str:
+    """The `check` report for a terminal, within 80 columns."""
+    out = [f"embedcheck check: project '{d['project']['name']}'", ""]
+    for e in d["results"]:
+        mark = "pass" if e["passed"] else "FAIL"
+        out.append(f"[{mark}] {e['patch']} on {e['chip']}")
+        if e["chosen_placement"]:
+            out.append(f"  placement: {_placement(e['chosen_placement'])}")
+        gates = {c["circuit"]: c["gates"] for c in e["circuits"]}
+        for o in e["outcomes"]:
+            label = o["rule"] + (f" {o['circuit']}" if o["circuit"] else "")
+            flag = "ok  " if o["passed"] else "FAIL"
+            out.append(f"  {flag} {label}: {o['message']}")
+            if o["rule"] != "max_off_coupler_gates":
+                continue
+            for g in gates.get(o["circuit"], []):
+                where = f"{g['file']}:{g['line']}" if g["line"] else g["file"]
+                out.append(f"         {where}: {g['text']}")
+                out.append(f"           needs physical {g['physical_qubits'][0]}-"
+                           f"{g['physical_qubits'][1]} ({g['reason']})")
+        out.append("")
+    base = d.get("baseline")
+    if base:
+        out.append(f"Against the baseline {base.get('file', '')}:")
+        out += [f"  worse:  {w}" for w in base["worse"]] or ["  nothing got worse"]
+        out += [f"  better: {b}" for b in base["better"]]
+        out.append("")
+    for err in d["internal_errors"]:
+        out.append(f"INTERNAL ERROR (exact audit and qiskit disagree): {err}")
+    failed = sum(not e["passed"] for e in d["results"])
+    out.append(f"{len(d['results']) - failed} passed, {failed} failed "
+               f"(chip x patch pairs)")
+    out.append(_wrap(d["caution"]))
+    return "\n".join(_fold(line) for line in out)
+
+
+def _wrap(text: str, width: int = 80) -> str:
+    import textwrap
+    return "\n".join(textwrap.wrap(text, width))
+
+
+def _fold(line: str, width: int = 80) -> str:
+    """Fold a long line at word boundaries, indenting the continuation."""
+    if len(line) <= width:
+        return line
+    import textwrap
+    indent = " " * (len(line) - len(line.lstrip()) + 4)
+    return "\n".join(textwrap.wrap(line, width, subsequent_indent=indent,
+                                   break_long_words=False, break_on_hyphens=False))

@@ -1,0 +1,178 @@
+"""The CI gate: run every chip x patch of a project and judge it against the rules.
+
+For each pair, `vet_patch` gives the ranked placements; the rules are judged on the
+placement a user would take (the best-ranked one):
+
+- `max_off_coupler_gates`: per circuit, off-coupler two-qubit gates on that placement
+  must not exceed the allowance (default 0: swap-free);
+- `min_placements`: at least this many distinct placements keep every circuit within
+  its allowance;
+- `score_floor`: the named figure of the best placement is at least the floor;
+- `required_circuits`: the patch has these circuits.
+
+With `cross_check_top > 0` the top placements are re-checked through qiskit's
+transpiler; any disagreement with the exact audit is an internal error (exit 3),
+never a rule outcome.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Callable
+
+import numpy as np
+
+from .audit import AuditReport, OffCouplerGate, audit_placement
+from .device import Device
+from .io.chipfile import load_device
+from .io.patchfile import load_patch
+from .io.projectfile import Project, Rules
+from .patch import Patch
+from .vet import Vetting, vet_patch
+
+
+@dataclass(frozen=True)
+class RuleOutcome:
+    """One rule on one chip x patch (and circuit, where the rule is per circuit)."""
+
+    rule: str
+    circuit: str | None
+    passed: bool
+    message: str
+    gates: tuple[OffCouplerGate, ...] = ()
+
+
+@dataclass(frozen=True)
+class PairResult:
+    """One chip x patch: the vetting, the audit of the chosen placement, the outcomes."""
+
+    device: Device
+    patch: Patch
+    rules: Rules
+    vetting: Vetting
+    audit: AuditReport | None
+    outcomes: tuple[RuleOutcome, ...]
+    cross_check: tuple[str, ...]          # disagreements (internal errors); empty is good
+    allowed_placements: int
+
+    @property
+    def passed(self) -> bool:
+        return all(o.passed for o in self.outcomes)
+
+
+@dataclass(frozen=True)
+class CheckResult:
+    project: Project
+    pairs: tuple[PairResult, ...]
+
+    @property
+    def passed(self) -> bool:
+        return all(p.passed for p in self.pairs)
+
+    @property
+    def internal_errors(self) -> tuple[str, ...]:
+        return tuple(e for p in self.pairs for e in p.cross_check)
+
+
+def run_project(project: Project, *, cross_check_top: int | None = None,
+                progress: Callable[[str], None] | None = None) -> CheckResult:
+    """Check every chip x patch of `project` (loading the files it names)."""
+    top = project.cross_check_top if cross_check_top is None else cross_check_top
+    devices = [load_device(path) for path, _ in project.chips]
+    pairs = []
+    for entry in project.patches:
+        patch = load_patch(entry.file)
+        for device in devices:
+            if progress:
+                progress(f"{patch.name} on {device.name}")
+            pairs.append(check_pair(device, patch, entry.rules, limit=project.limit,
+                                    budget_s=project.budget_s, cross_check_top=top,
+                                    seed=project.cross_check_seed))
+    return CheckResult(project, tuple(pairs))
+
+
+def check_pair(device: Device, patch: Patch, rules: Rules, *, limit: int = 10_000,
+               budget_s: float = 60.0, cross_check_top: int = 3, seed: int = 11) -> PairResult:
+    """Judge one chip x patch against `rules`."""
+    vetting = vet_patch(device, patch, limit=limit, budget_s=budget_s)
+    names = list(patch.circuits)
+    allowance = np.array([rules.allowed(n) for n in names])
+    ok_rows = (vetting.off_coupler <= allowance).all(axis=1) if len(names) else \
+        np.ones(len(vetting.ranking.placements), dtype=bool)
+    allowed = int(ok_rows.sum())
+    # Take the best placement that keeps every allowance; else the best one there is.
+    chosen = None
+    if len(vetting.ranking.placements):
+        index = int(np.argmax(ok_rows)) if allowed else 0
+        chosen = vetting.ranking.placements[index]
+    audit = audit_placement(device, patch, chosen) if chosen is not None else None
+    outcomes = []
+    for name in rules.required_circuits:
+        outcomes.append(RuleOutcome("required_circuits", name, name in patch.circuits,
+                                    "present" if name in patch.circuits else
+                                    f"the patch has no circuit '{name}'"))
+    for name in names:
+        limit_n = rules.allowed(name)
+        if audit is None:
+            ops = len(patch.circuits[name].two_qubit_gates)
+            ok = ops == 0
+            why = "; ".join(vetting.search.reasons) or "no placement found"
+            outcomes.append(RuleOutcome("max_off_coupler_gates", name, ok,
+                                        "no two-qubit gates" if ok else f"no placement: {why}"))
+            continue
+        c = next(c for c in audit.circuits if c.circuit == name)
+        n = len(c.off_coupler)
+        msg = f"{n} off-coupler two-qubit gate(s), {limit_n} allowed" if n else "swap-free"
+        outcomes.append(RuleOutcome("max_off_coupler_gates", name, n <= limit_n, msg,
+                                    c.off_coupler))
+    complete = "" if vetting.search.complete else \
+        f" (search incomplete: {vetting.search.stop_reason})"
+    outcomes.append(RuleOutcome(
+        "min_placements", None, allowed >= rules.min_placements,
+        f"{allowed} distinct placement(s) keep every allowance, at least "
+        f"{rules.min_placements} required{complete}"))
+    if rules.score_floor is not None:
+        figure, floor = rules.score_floor
+        if audit is None:
+            outcomes.append(RuleOutcome("score_floor", None, False,
+                                        f"{figure}: no placement to score"))
+        else:
+            index = vetting.ranking.placements.index(chosen)
+            value = float(vetting.ranking.success[index])
+            outcomes.append(RuleOutcome("score_floor", None, value >= floor,
+                                        f"{figure} {value:.4f} on the chosen placement, floor "
+                                        f"{floor:.4f}"))
+    disagreements = ()
+    if cross_check_top and len(vetting.ranking.placements):
+        disagreements = tuple(cross_check(device, patch,
+                                          vetting.ranking.placements[:cross_check_top], seed=seed))
+    return PairResult(device, patch, rules, vetting, audit, tuple(outcomes), disagreements,
+                      allowed)
+
+
+def cross_check(device: Device, patch: Patch, placements, *, seed: int = 11) -> list[str]:
+    """Disagreements between the exact audit and qiskit's transpiler (none expected).
+
+    Agreement means: a swap-free circuit keeps its native two-qubit count through
+    `transpile(optimization_level=0)` with the placement as initial layout, and a
+    circuit with off-coupler gates gains two-qubit gates.
+    """
+    from .qiskit_bridge import transpile_on_placement
+
+    problems = []
+    for placement in placements:
+        report = audit_placement(device, patch, placement)
+        for c in report.circuits:
+            if patch.circuits[c.circuit].qasm is None:
+                continue
+            after = transpile_on_placement(device, patch, c.circuit, placement,
+                                           seed=seed)["two_qubit_gates"]
+            if c.swap_free and after != c.two_qubit_gates:
+                problems.append(f"{patch.name} on {device.name}, circuit {c.circuit}: our audit "
+                                f"finds it swap-free with {c.two_qubit_gates} two-qubit gates, "
+                                f"qiskit's transpiler gives {after}")
+            elif not c.swap_free and after <= c.two_qubit_gates:
+                problems.append(f"{patch.name} on {device.name}, circuit {c.circuit}: our audit "
+                                f"finds {len(c.off_coupler)} off-coupler gates, qiskit's "
+                                f"transpiler adds none")
+    return problems
+
