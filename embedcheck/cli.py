@@ -74,6 +74,9 @@ def _parser() -> argparse.ArgumentParser:
     audit.add_argument("--seed", type=int, default=11, help="router seed (default 11)")
     audit.add_argument("--strict", action="store_true",
                        help="exit 1 when any circuit needs routing")
+    audit.add_argument("--write-qasm", metavar="FOLDER",
+                       help="write each swap-free circuit, placed on physical qubits in the "
+                            "chip's native gates, as FOLDER/<circuit>.qasm (OpenQASM 3)")
     audit.set_defaults(run=_run_audit)
 
     check = sub.add_parser("validate", help="check chip and patch files and say what is wrong")
@@ -171,6 +174,7 @@ def _run_audit(args) -> int:
         placement = vetting.ranking.placements[args.pick - 1]
     report = audit_placement(device, patch, placement, router_estimate=args.router_estimate,
                              seed=args.seed)
+    written = _write_placed(args.write_qasm, device, patch, report) if args.write_qasm else None
     ranking = rank_placements(device, patch, [placement])
     score = report_data.placement_rows(patch, ranking, _zeros(patch), 1)[0]
     payload = {"tool": "embedcheck", "version": __version__, "command": "audit",
@@ -178,9 +182,32 @@ def _run_audit(args) -> int:
                "audit": report_data.audit_dict(patch, report),
                "score": {k: score[k] for k in ("figure", "success", "log_success", "terms",
                                                "unscored_gates")},
-               "caution": CAUTION}
+               "caution": CAUTION, "written": written}
     _emit(args, payload, render_audit(payload))
     return 1 if args.strict and not report.swap_free else 0
+
+
+def _write_placed(folder, device, patch, report) -> dict:
+    """Write each swap-free circuit as placed OpenQASM 3; say why any other is not written."""
+    from pathlib import Path
+
+    from .qiskit_bridge import placed_qasm3
+
+    target = Path(folder)
+    if not target.is_dir():
+        raise InputError(f"--write-qasm: folder '{folder}' does not exist")
+    texts, skipped = {}, {}
+    for c in report.circuits:
+        if c.swap_free:
+            texts[c.circuit] = placed_qasm3(device, patch, c.circuit, report.placement)
+        else:
+            skipped[c.circuit] = f"needs routing ({len(c.off_coupler)} off-coupler gates)"
+    files = {}
+    for name, text in texts.items():
+        path = target / f"{name}.qasm"
+        write_atomic(path, text)
+        files[name] = str(path)
+    return {"files": files, "not_written": skipped}
 
 
 def _zeros(patch):

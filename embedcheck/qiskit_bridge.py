@@ -161,12 +161,51 @@ def transpile_on_placement(device: Device, patch: Patch, circuit: str, placement
     from qiskit import transpile
 
     qc, names = qiskit_circuit(patch, circuit)
-    where = placement.as_dict(patch)
-    spare = iter(q for q in sorted(set(device.live_qubits) - set(placement.physical)))
-    layout = [where[n] if n in where else next(spare) for n in names]
+    layout = _layout_list(device, patch, names, placement)
     out = transpile(qc, target=device_target(device), initial_layout=layout,
                     optimization_level=0, seed_transpiler=seed)
     return {"two_qubit_gates": _count_two_qubit(out), "circuit": out}
+
+
+def initial_layout(device: Device, patch: Patch, circuit: str, placement: Placement) -> list[int]:
+    """The placement as qiskit's `initial_layout` list for the named circuit.
+
+    Entry i is the physical qubit of the circuit's i-th qubit (as qiskit's importer
+    orders them); pass it to `transpile(..., initial_layout=...)`.
+    """
+    _, names = qiskit_circuit(patch, circuit)
+    return _layout_list(device, patch, names, placement)
+
+
+def qiskit_layout(device: Device, patch: Patch, circuit: str, placement: Placement):
+    """The placement as a qiskit `Layout` over the named circuit's qubits."""
+    from qiskit.transpiler import Layout
+
+    qc, names = qiskit_circuit(patch, circuit)
+    physical = _layout_list(device, patch, names, placement)
+    return Layout({bit: p for bit, p in zip(qc.qubits, physical)})
+
+
+def placed_qasm3(device: Device, patch: Patch, circuit: str, placement: Placement) -> str:
+    """The circuit on the placement's physical qubits ($n) in the chip's native gates.
+
+    Translated by qiskit at optimization_level=0 with the placement as initial layout;
+    meant for swap-free circuits (the caller checks with the audit first).
+    """
+    from qiskit import qasm3
+
+    out = transpile_on_placement(device, patch, circuit, placement)["circuit"]
+    where = " ".join(f"{q}=${p}" for q, p in placement.as_dict(patch).items())
+    head = (f"// Placed by embedcheck: circuit '{circuit}' of patch '{patch.name}' on chip "
+            f"'{device.name}'\n// placement {where}\n// native gates from qiskit's transpiler "
+            "at optimization_level=0\n")
+    return head + qasm3.dumps(out)
+
+
+def _layout_list(device, patch, names, placement):
+    where = placement.as_dict(patch)
+    spare = iter(q for q in sorted(set(device.live_qubits) - set(placement.physical)))
+    return [where[n] if n in where else next(spare) for n in names]
 
 
 def _count_two_qubit(qc) -> int:

@@ -122,6 +122,11 @@ def render_audit(d: dict) -> str:
                     f"{score['terms']['readout']:.4f}, 1q {score['terms']['single_qubit']:.4f})"]
         if not math.isclose(score["unscored_gates"], 0):
             out.append(f"  {score['unscored_gates']} off-coupler gate(s) are not in the score.")
+    written = d.get("written")
+    if written:
+        out.append("")
+        out += [f"Wrote {name}: {path}" for name, path in written["files"].items()]
+        out += [f"Not written {name}: {why}" for name, why in written["not_written"].items()]
     out += ["", d["caution"]]
     return "\n".join(out)
 
