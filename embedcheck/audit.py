@@ -105,7 +105,7 @@ def audit_placement(device: Device, patch: Patch, placement: Placement, *,
             elif not device.runs_natively(a, b):
                 flips += 1      # fixed by single-qubit gates (Hadamards round a CNOT): no SWAP
         estimate = None
-        if router_estimate and off:
+        if router_estimate:
             estimate = estimate_router_overhead(device, patch, name, placement, seed=seed)
         timing = schedule_circuit(device, patch, name, placement)
         audits.append(CircuitAudit(name, times.get(name, 0), len(circuit.two_qubit_gates),
@@ -152,8 +152,8 @@ def estimate_router_overhead(device: Device, patch: Patch, circuit: str, placeme
 
 
 def _why_off(device: Device, a: int, b: int) -> str:
+    if (min(a, b), max(a, b)) not in device._all_couplers:
+        return "no coupler"
     if a in device.dead_qubits or b in device.dead_qubits:
         return "dead qubit"
-    if (min(a, b), max(a, b)) in device.dead_couplers:
-        return "dead coupler"
-    return "no coupler"
+    return "dead coupler"

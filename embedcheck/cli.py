@@ -53,10 +53,7 @@ def _parser() -> argparse.ArgumentParser:
 
     find = sub.add_parser("find", help="find, audit and rank every swap-free placement")
     _common(find)
-    find.add_argument("--limit", type=_positive_int, default=10_000,
-                      help="stop after this many distinct placements (default 10000)")
-    find.add_argument("--budget-s", type=float, default=60.0,
-                      help="stop the search after this many seconds (default 60)")
+    _search_options(find)
     find.add_argument("--top", type=_positive_int, default=10,
                       help="placements to list (default 10)")
     find.add_argument("--strict", action="store_true",
@@ -69,6 +66,7 @@ def _parser() -> argparse.ArgumentParser:
     how.add_argument("--placement", help="patch qubit=physical qubit pairs, e.g. d0=53,d1=55,...")
     how.add_argument("--pick", type=_positive_int,
                      help="audit the placement ranked N by 'find' (1 = best)")
+    _search_options(audit)
     audit.add_argument("--router-estimate", action="store_true",
                        help="also ask qiskit's router how many gates it would add (an estimate)")
     audit.add_argument("--seed", type=int, default=11, help="router seed (default 11)")
@@ -115,6 +113,24 @@ def _parser() -> argparse.ArgumentParser:
     gen.add_argument("--output", "-o", help="file to write (default: standard output)")
     gen.set_defaults(run=_run_generate)
     return top
+
+
+def _search_options(p):
+    p.add_argument("--limit", type=_positive_int, default=100_000,
+                   help="stop after this many distinct placements (default 100000); the "
+                        "ranking covers only the placements found")
+    p.add_argument("--budget-s", type=_positive_float, default=60.0,
+                   help="stop the search after this many seconds (default 60)")
+
+
+def _positive_float(text):
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"'{text}' is not a number") from None
+    if not value > 0 or value == float("inf"):
+        raise argparse.ArgumentTypeError(f"'{text}' must be a positive number of seconds")
+    return value
 
 
 def _common(p):
@@ -164,10 +180,11 @@ def _run_find(args) -> int:
 
 def _run_audit(args) -> int:
     device, patch = load_device(args.chip), load_patch(args.patch)
-    if args.placement:
+    if args.placement is not None:
         placement = _parse_placement(args.placement, patch, device)
     else:
-        vetting = vet_patch(device, patch, limit=max(args.pick, 10_000))
+        vetting = vet_patch(device, patch, limit=max(args.pick, args.limit),
+                            budget_s=args.budget_s)
         if args.pick > len(vetting.ranking.placements):
             raise InputError(f"--pick {args.pick}: 'find' ranks only "
                              f"{len(vetting.ranking.placements)} placement(s)")
@@ -231,9 +248,13 @@ def _parse_placement(text: str, patch, device) -> Placement:
             raise InputError(f"--placement: '{phys}' is not a qubit number") from None
         if q not in set(device.qubits):
             raise InputError(f"--placement: chip '{device.name}' has no qubit {q}")
+        if q in device.dead_qubits:
+            raise InputError(f"--placement: qubit {q} of chip '{device.name}' is dead")
         if name in where:
             raise InputError(f"--placement: '{name}' is placed twice")
         where[name] = q
+    if not where:
+        raise InputError("--placement: give name=physical_qubit pairs, e.g. d0=53,d1=55")
     missing = [q for q in patch.qubits if q not in where]
     if missing:
         raise InputError(f"--placement: no physical qubit given for {', '.join(missing)}")
@@ -251,7 +272,8 @@ def _run_validate(args) -> int:
                         "qubits": obj.num_qubits, "valid": True})
     text = "\n".join(f"{r['file']}: valid {r['kind']} file '{r['name']}' ({r['qubits']} qubits)"
                      for r in results)
-    _emit(args, {"tool": "embedcheck", "command": "validate", "files": results}, text)
+    _emit(args, {"tool": "embedcheck", "version": __version__, "command": "validate",
+                 "files": results}, text)
     return 0
 
 

@@ -147,6 +147,14 @@ class Device:
             object.__setattr__(self, "_live_cache", cached)
         return cached
 
+    @property
+    def _all_couplers(self) -> frozenset[Pair]:
+        cached = self.__dict__.get("_all_cache")
+        if cached is None:
+            cached = frozenset(self.couplers)
+            object.__setattr__(self, "_all_cache", cached)
+        return cached
+
     def live_graph(self) -> rx.PyGraph:
         """The live coupling graph; node index i holds physical qubit `qubits[i]`."""
         graph = rx.PyGraph(multigraph=False)

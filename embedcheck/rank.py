@@ -8,9 +8,10 @@ the "product of fidelities" estimate):
       * prod_{1q gates g} (1 - e1[qubit(g)])              (where given)
 
 over prep, `rounds` check rounds and readout. We report log S and its three terms,
-so a user sees why one region wins. Missing calibration figures count as 0 (the
-report says how many are missing). Gates that land off-coupler have no coupler error
-to use; they are left out of S and counted in `unscored_gates`.
+so a user sees why one region wins. Missing calibration figures count as 0. Gates
+that land off-coupler have no coupler error to use; they are left out of S and
+counted in `unscored_gates`, and placements are ordered by fewest unscored gates
+first, then by S (a placement that needs routing never outranks one that does not).
 
 Everything is numpy over an index array of all placements at once (shape
 placements x patch qubits): no Python loop per placement.
@@ -83,16 +84,22 @@ def rank_placements(device: Device, patch: Patch, placements: Sequence[Placement
         weight = np.array(list(pairs.values()), dtype=float)
         err = two[grid[:, ab[:, 0]], grid[:, ab[:, 1]]]          # (placements, pairs)
         off = np.isnan(err)
-        log_two = (np.log1p(-np.where(off, 0.0, err)) * weight).sum(axis=1)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            log_two = (np.log1p(-np.where(off, 0.0, err)) * weight).sum(axis=1)
         unscored = (off * weight).sum(axis=1).astype(np.int64)
     else:
         log_two = np.zeros(len(placements))
         unscored = np.zeros(len(placements), dtype=np.int64)
-    log_read = (np.log1p(-readout[grid]) * measures).sum(axis=1) if len(placements) else log_two
-    log_single = (np.log1p(-single[grid]) * singles).sum(axis=1) if len(placements) else log_two
+    with np.errstate(divide="ignore"):       # an error of exactly 1 gives log 0 = -inf
+        log_read = (np.log1p(-readout[grid]) * measures).sum(axis=1) if len(placements) \
+            else log_two
+        log_single = (np.log1p(-single[grid]) * singles).sum(axis=1) if len(placements) \
+            else log_two
     total = log_two + log_read + log_single
-    # Best first; ties broken by the placement itself so the order is reproducible.
-    order = np.lexsort(tuple(grid[:, k] for k in range(grid.shape[1] - 1, -1, -1)) + (-total,))
+    # Fewest off-coupler (unscored) gates first, then best score; ties broken by the
+    # placement itself so the order is reproducible.
+    order = np.lexsort(tuple(grid[:, k] for k in range(grid.shape[1] - 1, -1, -1))
+                       + (-total, unscored))
     terms = {"two_qubit": log_two[order], "readout": log_read[order],
              "single_qubit": log_single[order]}
     return Ranking(FIGURE, tuple(placements[i] for i in order), total[order], terms,

@@ -57,6 +57,7 @@ class Vetting:
     ranking: Ranking
     off_coupler: np.ndarray      # (placements in ranked order, circuits in patch order)
     best_audit: AuditReport | None
+    unconstrained: tuple[str, ...] = ()   # patch qubits with no two-qubit gate in the core
 
     @property
     def all_swap_free(self) -> bool:
@@ -94,4 +95,7 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 10_000,
     names = list(patch.circuits)
     off = off_coupler_counts(device, patch, ranking.placements, names)
     best = audit_placement(device, patch, ranking.placements[0]) if ranking.placements else None
-    return Vetting(device, patch, tuple(fits), tuple(core), excluded, search, ranking, off, best)
+    used = {q for pair in patch.interaction_counts(core or list(patch.circuits)) for q in pair}
+    unconstrained = tuple(q for i, q in enumerate(patch.qubits) if i not in used)
+    return Vetting(device, patch, tuple(fits), tuple(core), excluded, search, ranking, off, best,
+                   unconstrained)

@@ -132,3 +132,53 @@ def test_console_entry_point_runs_as_a_module():
     proc = subprocess.run([sys.executable, "-m", "embedcheck", "find", str(DEMO_CHIP),
                            str(DEMO_PATCH), "--top", "1"], capture_output=True, text=True)
     assert proc.returncode == 0 and "NEEDS ROUTING" in proc.stdout
+
+
+def test_placement_edge_cases(capsys):
+    code, _, err = run(capsys, "audit", DEMO_CHIP, DEMO_PATCH, "--placement", "")
+    assert code == 2 and "give name=physical_qubit pairs" in err and "Traceback" not in err
+    assert run(capsys, "find", DEMO_CHIP, DEMO_PATCH, "--budget-s", "-1")[0] == 2
+
+
+def test_dead_qubit_placement_is_refused(tmp_path, capsys):
+    chip = tmp_path / "chip.yaml"
+    chip.write_text(GOOD_CHIP + "dead_qubits: [2]\n")
+    patch = tmp_path / "p.yaml"
+    patch.write_text(textwrap.dedent("""\
+        embedcheck_patch: 1
+        name: pair
+        qubits: {data: [q0, q1]}
+        circuits:
+          round:
+            qasm: |
+              OPENQASM 2.0;
+              include "qelib1.inc";
+              qreg q[2];
+              cx q[0], q[1];
+        """))
+    code, _, err = run(capsys, "audit", chip, patch, "--placement", "q0=1,q1=2")
+    assert code == 2 and "qubit 2 of chip 'tiny' is dead" in err
+    # Not adjacent at all: "no coupler", even though a dead qubit is nearby.
+    chip.write_text(GOOD_CHIP.replace("qubits: 3", "qubits: 4").replace("[1, 2]]", "[1, 2], [2, 3]]")
+                    + "dead_qubits: [3]\n")
+    code, out, _ = run(capsys, "audit", chip, patch, "--placement", "q0=0,q1=2", "--format", "json")
+    (gate,) = json.loads(out)["audit"]["circuits"][0]["off_coupler"]
+    assert code == 0 and gate["reason"] == "no coupler" and gate["line"] == 10
+
+
+@pytest.mark.parametrize("change,expected", [
+    (("readout_error: 0.01,", "readout_error: .nan,"), ":6: calibration.defaults.readout_error: "
+                                                       ".nan is not a finite number"),
+    (("embedcheck_chip: 1", "embedcheck_chip: '1'"), "(write the number 1, not a string)"),
+    (("qubits: 3", "qubits: 100000000"), ":3: qubits: 100000000 is not valid here"),
+])
+def test_more_bad_chip_values(tmp_path, capsys, change, expected):
+    err = _bad(tmp_path, capsys, GOOD_CHIP.replace(*change))
+    assert expected in err
+
+
+def test_near_miss_circuit_name(tmp_path, capsys):
+    text = DEMO_PATCH.read_text().replace("  round:\n", "  rounds:\n")
+    (tmp_path / "flagged_weight4_round.qasm").write_text("")
+    err = _bad(tmp_path, capsys, text, name="patch.yaml")
+    assert "circuit 'rounds' is not one of prep, round, readout (did you mean 'round'?)" in err

@@ -102,13 +102,46 @@ def test_inline_lines_are_lines_of_the_yaml_file():
 
 
 @pytest.mark.parametrize("text,expected", [
-    ("OPENQASM 2.0;\nqreg q[2];\ncx q[0] q[1];", "t.qasm:3: OpenQASM syntax error"),
-    ("OPENQASM 2.0;\nqreg q[2];\nfoo q[0], q[1];", "t.qasm:3: unknown gate 'foo'"),
-    ("OPENQASM 2.0;\nqreg q[2];\ncx q[0], q[2];", "t.qasm:3: index 2 is outside register 'q'"),
-    ("OPENQASM 2.0;\nqreg q[2];\ncx q[0], r[0];", "t.qasm:3: qubit register 'r' is not declared"),
-    ("OPENQASM 2.0;\nqreg q[2];\ncx q[0], q[0];", "t.qasm:3: 'cx' acts twice on qubit q0"),
+    ("OPENQASM 2.0; include \"qelib1.inc\";\nqreg q[2];\ncx q[0] q[1];", "t.qasm:3: OpenQASM syntax error"),
+    ("OPENQASM 2.0; include \"qelib1.inc\";\nqreg q[2];\nfoo q[0], q[1];", "t.qasm:3: unknown gate 'foo'"),
+    ("OPENQASM 2.0; include \"qelib1.inc\";\nqreg q[2];\ncx q[0], q[2];", "t.qasm:3: index 2 is outside register 'q'"),
+    ("OPENQASM 2.0; include \"qelib1.inc\";\nqreg q[2];\ncx q[0], r[0];", "t.qasm:3: qubit register 'r' is not declared"),
+    ("OPENQASM 2.0; include \"qelib1.inc\";\nqreg q[2];\ncx q[0], q[0];", "t.qasm:3: 'cx' acts twice on qubit q0"),
 ])
 def test_bad_qasm_names_file_and_line(text, expected):
     with pytest.raises(InputError) as err:
         read_qasm(text, file="t.qasm")
     assert str(err.value).startswith(expected)
+
+
+@pytest.mark.parametrize("text,expected", [
+    ('OPENQASM 2.0;\ninclude "qelib1.inc";\nqreg q[2];\ncnot q[0], q[1];', ":4: unknown gate 'cnot'"),
+    ('OPENQASM 2.0;\ninclude "mine.inc";\nqreg q[2];', ':2: include "mine.inc" is not supported'),
+    ("OPENQASM 2.0;\nqreg q[2];\nh q[0];", ":3: gate 'h' is not defined: include the standard"),
+    ("OPENQASM 4.0;\nqreg q[2];", ":1: OPENQASM 4.0 is not supported"),
+    ('OPENQASM 2.0;\ninclude "qelib1.inc";\nqreg q[2];\nqreg q[3];', ":4: register 'q' is declared twice"),
+    ('OPENQASM 2.0;\ninclude "qelib1.inc";\nqreg q[2];\nmeasure q[0] -> x[0];',
+     ":4: classical register 'x' is not declared"),
+    ('OPENQASM 2.0;\ninclude "qelib1.inc";\nqreg q[2];\nu3(1, 2) q[0];',
+     ":4: gate 'u3' takes 3 parameter(s), got 2"),
+    ('OPENQASM 2.0;\ninclude "qelib1.inc";\nqreg q[3];\ncx q[0], q[1], q[2];',
+     ":4: gate 'cx' acts on 2 qubit(s), got 3"),
+    ('OPENQASM 2.0;\ninclude "qelib1.inc";\nqreg q[3];\nccx q[0], q[1];',
+     ":4: gate 'ccx' acts on 3 qubit(s), got 2"),
+    ('OPENQASM 2.0;\ninclude "qelib1.inc";\nopaque magic a, b;\nqreg q[2];',
+     ":3: opaque gates are not supported"),
+    ('OPENQASM 3.0;\ninclude "stdgates.inc";\nqubit[2] q;\nfor int i in [0:1] { x q[i]; }',
+     ":4: for loops are not supported yet"),
+])
+def test_more_bad_qasm(text, expected, capsys):
+    with pytest.raises(InputError) as err:
+        read_qasm(text, file="t.qasm")
+    assert expected in str(err.value)
+    assert capsys.readouterr().err == ""        # the parser's own chatter is not shown
+
+
+def test_plain_text_is_a_syntax_error_without_chatter(capsys):
+    with pytest.raises(InputError) as err:
+        read_qasm("hello: this is not a circuit", file="t.qasm")
+    assert "t.qasm:1: OpenQASM syntax error" in str(err.value)
+    assert capsys.readouterr().err == ""

@@ -9,7 +9,7 @@ from __future__ import annotations
 from pathlib import Path
 
 from ..patch import EXPERIMENT_ORDER, ROLES, Circuit, Patch
-from .errors import InputError
+from .errors import InputError, did_you_mean
 from .qasm import read_qasm
 from .yamlfile import Document, read_yaml
 
@@ -32,6 +32,12 @@ def patch_from_document(doc: Document) -> Patch:
     if not roles:
         raise doc.error(("qubits",), "the patch declares no qubits")
     circuits = {}
+    for name in data["circuits"]:
+        close = did_you_mean(name, [n for n in EXPERIMENT_ORDER if n not in data["circuits"]])
+        if close and name not in EXPERIMENT_ORDER:
+            raise doc.error(("circuits", name), f"circuit '{name}' is not one of "
+                            f"{', '.join(EXPERIMENT_ORDER)}{close}; other names are audited but "
+                            "not run in the experiment, so a near miss is refused")
     for name, spec in data["circuits"].items():
         circuits[name] = _circuit(doc, name, spec, roles)
     if not any(name in circuits for name in EXPERIMENT_ORDER):

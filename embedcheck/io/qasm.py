@@ -16,6 +16,8 @@ in place. Gates inside `if` blocks count (they may run) and are marked condition
 """
 from __future__ import annotations
 
+import contextlib
+import io
 import re
 from functools import lru_cache
 
@@ -27,7 +29,11 @@ from .errors import InputError
 
 _ONE_QUBIT = {"id", "x", "y", "z", "h", "s", "sdg", "t", "tdg", "sx", "sxdg", "rx", "ry",
               "rz", "p", "u", "u1", "u2", "u3", "U", "r", "phase", "gphase"}
-_KEEP = {"cx", "CX", "cnot"}   # already one CNOT; everything else goes through qiskit
+_KEEP = {"cx", "CX"}   # already one CNOT; everything else goes through qiskit
+_BUILTIN = {"U", "CX", "gphase"}          # gates that need no include
+_LIBRARIES = {"qelib1.inc": 2, "stdgates.inc": 3}
+_UNSUPPORTED = {"ForInLoop": "for loops", "WhileLoop": "while loops",
+                "SubroutineDefinition": "subroutine definitions (def)", "Box": "box blocks"}
 
 
 def qasm_version(text: str) -> int:
@@ -38,11 +44,21 @@ def qasm_version(text: str) -> int:
 
 def read_qasm(text: str, *, file: str | None = None, first_line: int = 1) -> list[Operation]:
     """Operations of an OpenQASM 2/3 program; lines are `first_line`-based in `file`."""
+    m = re.search(r"^\s*OPENQASM\s+([0-9.]+)", text, re.M)
+    if m and m.group(1).split(".")[0] not in ("2", "3"):
+        line = text[:m.start(1)].count("\n") + first_line
+        raise InputError(f"OPENQASM {m.group(1)} is not supported (versions 2 and 3 are)",
+                         file=file, line=line)
     try:
-        program = openqasm3.parse(text)
+        with contextlib.redirect_stderr(io.StringIO()):     # the parser's lexer prints
+            program = openqasm3.parse(text)
     except Exception as exc:  # the parser raises its own error types
         line = _error_line(exc)
-        raise InputError(f"OpenQASM syntax error: {_first_line(exc)}", file=file,
+        message = f"OpenQASM syntax error: {_first_line(exc)}"
+        lines = text.splitlines()
+        if line and line <= len(lines) and lines[line - 1].lstrip().startswith("opaque"):
+            message = "opaque gates are not supported: give the gate a definition"
+        raise InputError(message, file=file,
                          line=line + first_line - 1 if line else first_line) from None
     walker = _Walker(text.splitlines(), file, first_line)
     walker.block(program.statements, conditional=False)
@@ -53,7 +69,9 @@ class _Walker:
     def __init__(self, lines, file, first_line):
         self.lines, self.file, self.offset = lines, file, first_line - 1
         self.registers: dict[str, int | None] = {}
+        self.classical: set[str] = set()
         self.definitions: dict[str, ast.QuantumGateDefinition] = {}
+        self.library = False
         self.ops: list[Operation] = []
 
     def fail(self, node, message):
@@ -65,17 +83,36 @@ class _Walker:
             self.statement(stmt, conditional)
 
     def statement(self, stmt, conditional):
-        if isinstance(stmt, ast.QubitDeclaration):
+        if isinstance(stmt, ast.Include):
+            if stmt.filename not in _LIBRARIES:
+                raise self.fail(stmt, f"include \"{stmt.filename}\" is not supported: only the "
+                                      "standard libraries qelib1.inc and stdgates.inc (write other "
+                                      "gate definitions in the file)")
+            self.library = True
+        elif isinstance(stmt, ast.QubitDeclaration):
             size = None if stmt.size is None else _integer(stmt.size)
+            if stmt.qubit.name in self.registers or stmt.qubit.name in self.classical:
+                raise self.fail(stmt, f"register '{stmt.qubit.name}' is declared twice")
             self.registers[stmt.qubit.name] = size
+        elif isinstance(stmt, (ast.ClassicalDeclaration, getattr(ast, "IODeclaration", ()))):
+            name = stmt.identifier.name
+            if name in self.registers or name in self.classical:
+                raise self.fail(stmt, f"register '{name}' is declared twice")
+            self.classical.add(name)
         elif isinstance(stmt, ast.QuantumGateDefinition):
             self.definitions[stmt.name.name] = stmt
         elif isinstance(stmt, ast.QuantumGate):
             if stmt.modifiers:
                 raise self.fail(stmt, "gate modifiers (ctrl @, inv @, pow @) are not supported")
+            self.check_gate_call(stmt)
             self.gate(stmt, stmt.name.name, [self.operand(q, stmt) for q in stmt.qubits],
                       conditional, stmt.name.name)
         elif isinstance(stmt, ast.QuantumMeasurementStatement):
+            if stmt.target is not None:
+                target = stmt.target.name if isinstance(stmt.target, ast.Identifier) \
+                    else stmt.target.name.name
+                if target not in self.classical:
+                    raise self.fail(stmt, f"classical register '{target}' is not declared")
             for q in self.operand(stmt.measure.qubit, stmt):
                 self.emit(stmt, "measure", (q,), "measure", conditional, "measure")
         elif isinstance(stmt, ast.QuantumReset):
@@ -87,11 +124,29 @@ class _Walker:
         elif isinstance(stmt, ast.BranchingStatement):
             self.block(stmt.if_block, True)
             self.block(stmt.else_block, True)
-        elif isinstance(stmt, (ast.ForInLoop, ast.WhileLoop, ast.SubroutineDefinition,
-                               ast.Box)):
-            raise self.fail(stmt, f"{type(stmt).__name__} is not supported yet: "
-                                  "write the circuit out without it")
+        elif type(stmt).__name__ in _UNSUPPORTED:
+            raise self.fail(stmt, f"{_UNSUPPORTED[type(stmt).__name__]} are not supported yet: "
+                                  "write the circuit out without them")
         # Includes, classical declarations and assignments carry no quantum operation.
+
+    def check_gate_call(self, stmt):
+        """The gate exists (defined, built in, or from an included library) with its parameters."""
+        name = stmt.name.name
+        if name in self.definitions:
+            want = len(self.definitions[name].arguments)
+        elif name in _BUILTIN:
+            want = {"U": 3, "CX": 0, "gphase": 1}[name]
+        else:
+            if not self.library:
+                raise self.fail(stmt, f"gate '{name}' is not defined: include the standard library "
+                                      "(include \"qelib1.inc\"; for OpenQASM 2, include "
+                                      "\"stdgates.inc\"; for OpenQASM 3)")
+            want = _standard_parameters(name)
+            if want is None:
+                raise self.fail(stmt, f"unknown gate '{name}'")
+        if len(stmt.arguments) != want:
+            raise self.fail(stmt, f"gate '{name}' takes {want} parameter(s), got "
+                                  f"{len(stmt.arguments)}")
 
     def operand(self, node, stmt) -> list[str]:
         """Patch qubit names an operand stands for (a whole register broadcasts)."""
@@ -143,9 +198,13 @@ class _Walker:
                     names = [[bind[q.name]] for q in inner.qubits]
                     self.gate(stmt, inner.name.name, names, conditional, written, depth + 1)
             return
+        if name in _ONE_QUBIT or name in _KEEP:
+            width = 1 if name in _ONE_QUBIT else 2
+            if len(qubits) != width:
+                raise self.fail(stmt, f"gate '{name}' acts on {width} qubit(s), got {len(qubits)}")
         if len(qubits) == 1:
             if name not in _ONE_QUBIT:
-                raise self.fail(stmt, f"unknown gate '{name}'")
+                raise self.fail(stmt, f"unknown gate '{name}' on 1 qubit")
             self.emit(stmt, name, qubits, "1q", conditional, written)
         elif name in _KEEP:
             self.emit(stmt, "cx", qubits, "2q", conditional, written)
@@ -167,7 +226,25 @@ def _unrolled(name, width, stmt, walker):
     try:
         return _decomposition(name, width)
     except KeyError:
+        gate = _standard_gate(name)
+        if gate is not None:
+            raise walker.fail(stmt, f"gate '{name}' acts on {gate.num_qubits} qubit(s), "
+                                    f"got {width}") from None
         raise walker.fail(stmt, f"unknown gate '{name}' on {width} qubits") from None
+
+
+def _standard_gate(name: str):
+    from qiskit.circuit.library import get_standard_gate_name_mapping
+    return get_standard_gate_name_mapping().get(name)
+
+
+@lru_cache(maxsize=None)
+def _standard_parameters(name: str) -> int | None:
+    """Parameters of a standard-library gate, or None when qiskit has no such gate."""
+    if name in ("u", "u3"):
+        return 3
+    gate = _standard_gate(name)
+    return None if gate is None else len(gate.params)
 
 
 @lru_cache(maxsize=None)

@@ -8,6 +8,7 @@ schema cannot express (a coupler naming a missing qubit, say). Schemas live in
 from __future__ import annotations
 
 import json
+import math
 from dataclasses import dataclass
 from functools import lru_cache
 from importlib import resources
@@ -96,9 +97,11 @@ def _check_kind(doc: Document, schema_name: str) -> None:
                          f"{type(doc.data).__name__}", file=doc.file, line=1)
     key = f"embedcheck_{schema_name}"
     if key in doc.data:
-        if doc.data[key] != 1:
-            raise doc.error((key,), f"format version {doc.data[key]!r} is not supported "
-                                    f"(this embedcheck reads version 1)")
+        if doc.data[key] != 1 or isinstance(doc.data[key], bool):
+            got = doc.data[key]
+            hint = " (write the number 1, not a string)" if got == "1" else \
+                " (this embedcheck reads version 1)"
+            raise doc.error((key,), f"format version {got!r} is not supported{hint}")
         return
     other = [k for k in doc.data if k.startswith("embedcheck_")]
     if other:
@@ -145,6 +148,9 @@ def _to_python(node, path, lines, file, budget):
         return [_to_python(item, path + (i,), lines, file, budget)
                 for i, item in enumerate(node.value)]
     value = node.value if node.tag.endswith(":timestamp") else _scalar(node)
+    if isinstance(value, float) and not math.isfinite(value):
+        raise InputError(f"{node.value} is not a finite number", file=file,
+                         line=node.start_mark.line + 1, key=key_name(path))
     if isinstance(value, str) and node.style in ("|", ">"):
         # Block scalars start on the line after their indicator; remember that offset
         # so OpenQASM written inline can report lines of the YAML file.

