@@ -69,6 +69,8 @@ def _parser() -> argparse.ArgumentParser:
     _search_options(audit)
     audit.add_argument("--router-estimate", action="store_true",
                        help="also ask qiskit's router how many gates it would add (an estimate)")
+    audit.add_argument("--cross-check", action="store_true",
+                       help="re-check the audit with qiskit's transpiler (exit 3 if they disagree)")
     audit.add_argument("--seed", type=int, default=11, help="router seed (default 11)")
     audit.add_argument("--strict", action="store_true",
                        help="exit 1 when any circuit needs routing")
@@ -200,7 +202,16 @@ def _run_audit(args) -> int:
                "score": {k: score[k] for k in ("figure", "success", "log_success", "terms",
                                                "unscored_gates")},
                "caution": CAUTION, "written": written}
+    if args.cross_check:
+        from .checks import cross_check
+        payload["cross_check"] = {"method": "qiskit transpile, optimization_level=0",
+                                  "disagreements": cross_check(device, patch, [placement],
+                                                               seed=args.seed)}
     _emit(args, payload, render_audit(payload))
+    if args.cross_check and payload["cross_check"]["disagreements"]:
+        print("embedcheck: internal error: the exact audit and qiskit's transpiler disagree: "
+              + payload["cross_check"]["disagreements"][0], file=sys.stderr)
+        return 3
     return 1 if args.strict and not report.swap_free else 0
 
 

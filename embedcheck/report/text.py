@@ -50,10 +50,9 @@ def render_find(d: dict) -> str:
         elif c["off_coupler_max"] == 0:
             verdict = "swap-free"
         elif c["off_coupler_min"] == c["off_coupler_max"]:
-            verdict = f"NEEDS ROUTING: {c['off_coupler_min']} off-coupler gate(s) on every one"
+            verdict = f"NEEDS ROUTING ({c['off_coupler_min']} off-coupler)"
         else:
-            verdict = (f"NEEDS ROUTING: {c['off_coupler_min']} to {c['off_coupler_max']} "
-                       f"off-coupler gate(s)")
+            verdict = f"NEEDS ROUTING ({c['off_coupler_min']}-{c['off_coupler_max']} off-coupler)"
         out.append(f"  {c['circuit']:<12} {c['times_run']:>4} {c['two_qubit_gates']:>8} "
                    f"{c['measurements']:>8}  {'yes' if c['fits_alone'] else 'no':<10}  {verdict}")
         for reason in c["reasons"]:
@@ -89,13 +88,13 @@ def render_find(d: dict) -> str:
         out.append(f"No placement makes every circuit swap-free: {', '.join(excluded)} "
                    f"need(s) routing on all of them (see the gates below).")
     out += ["", f"  {'rank':>4} {'est. success':>12} {'log 2q':>8} {'log read':>8} {'log 1q':>8} "
-                f"{'off-coupler':>11}  placement (patch qubit=physical qubit)"]
+                f"{'off-coupler':>11}", "       placement (patch qubit=physical qubit)"]
     for row in d["placements"]:
         off = sum(row["off_coupler_gates"].values())
         t = row["terms"]
         out.append(f"  {row['rank']:>4} {row['success']:>12.4f} {t['two_qubit']:>8.4f} "
-                   f"{t['readout']:>8.4f} {t['single_qubit']:>8.4f} {off:>11}  "
-                   f"{_placement(row['qubits'])}")
+                   f"{t['readout']:>8.4f} {t['single_qubit']:>8.4f} {off:>11}")
+        out.append(f"       {_placement(row['qubits'])}")
     if s["distinct_placements"] > len(d["placements"]):
         out.append(f"  ... {s['distinct_placements'] - len(d['placements'])} more (use --top)")
     best = d["best_audit"]
@@ -106,7 +105,7 @@ def render_find(d: dict) -> str:
     out += ["", f"Score: {d['figure']} = product of (1 - error) over every gate and measurement "
                 "of the experiment (README, 'Cost model'); off-coupler gates are not scored.",
             d["caution"]]
-    return "\n".join(out)
+    return "\n".join(_fold(line) for line in out)
 
 
 def render_audit(d: dict) -> str:
@@ -141,8 +140,13 @@ def render_audit(d: dict) -> str:
         out.append("")
         out += [f"Wrote {name}: {path}" for name, path in written["files"].items()]
         out += [f"Not written {name}: {why}" for name, why in written["not_written"].items()]
+    cross = d.get("cross_check")
+    if cross is not None:
+        out.append("")
+        out.append("Cross-check with qiskit's transpiler: " + (
+            "agrees" if not cross["disagreements"] else "DISAGREES: " + cross["disagreements"][0]))
     out += ["", d["caution"]]
-    return "\n".join(out)
+    return "\n".join(_fold(line) for line in out)
 
 
 def _figure(value: float) -> str:
@@ -188,7 +192,7 @@ def render_patch(d: dict) -> str:
     degrees = ", ".join(f"{q}:{k}" for q, k in d["interaction_degrees"].items())
     cycle = d["shortest_cycle"] if d["shortest_cycle"] is not None else "none (a tree)"
     out += ["", f"Interaction graph (all circuits): degrees {degrees}; shortest cycle {cycle}"]
-    return "\n".join(out)
+    return "\n".join(_fold(line) for line in out)
 
 
 def render_check(d: dict) -> str:
