@@ -31,7 +31,7 @@ def test_demo_find_reports_the_lesson(capsys):
     code, out, err = run(capsys, "find", DEMO_CHIP, DEMO_PATCH)
     assert code == 0 and err == ""
     assert "prep" in out and "NEEDS ROUTING (3 off-coupler)" in out
-    round_line = next(line for line in out.splitlines() if line.strip().startswith("round"))
+    round_line = next(line for line in out.splitlines() if line.split()[:1] == ["round"])
     assert "swap-free" in round_line
     assert f"{DEMO_PATCH}:23: cx d[0], d[1];" in out
     assert "model estimates" in out and "search complete" in out
