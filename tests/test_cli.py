@@ -33,7 +33,7 @@ def test_demo_find_reports_the_lesson(capsys):
     assert "prep" in out and "NEEDS ROUTING (3 off-coupler)" in out
     round_line = next(line for line in out.splitlines() if line.split()[:1] == ["round"])
     assert "swap-free" in round_line
-    assert f"{DEMO_PATCH}:23: cx d[0], d[1];" in out
+    assert f"prep, two-qubit gate 1: {DEMO_PATCH}:23\n      cx d[0], d[1];" in out
     assert "model estimates" in out and "search complete" in out
 
 

@@ -21,8 +21,8 @@ def _off_gates(audit: dict, indent: str = "  ") -> list[str]:
             a, b = g["patch_qubits"]
             p, q = g["physical_qubits"]
             written = f" (part of '{g['written']}')" if g["written"] not in ("cx", "") else ""
-            lines.append(f"{indent}{c['circuit']}: two-qubit gate {g['gate_index'] + 1} at "
-                         f"{_where(g)}: {g['text']}{written}")
+            lines.append(f"{indent}{c['circuit']}, two-qubit gate {g['gate_index'] + 1}: {_where(g)}")
+            lines.append(f"{indent}    {g['text']}{written}")
             lines.append(f"{indent}    needs {a}-{b} = physical {p}-{q}: {g['reason']}")
         est = c.get("router_estimate")
         if est:
