@@ -43,6 +43,7 @@ class Operation:
     file: str | None = None
     written: str = ""
     conditional: bool = False
+    clbit: str | None = None     # for a measurement: the classical bit written, e.g. 'm[2]'
 
 
 @dataclass(frozen=True)
@@ -64,8 +65,23 @@ class Circuit:
 
 
 @dataclass(frozen=True)
+class Detector:
+    """A set of measurements (indices into the experiment's measurement record, from 0)
+    whose parity is deterministic without noise."""
+
+    name: str
+    measurements: tuple[int, ...]
+    line: int | None = None
+
+
+@dataclass(frozen=True)
 class Patch:
-    """Qubit names, their roles, circuits by name, and how many check rounds run."""
+    """Qubit names, their roles, circuits by name, and how many check rounds run.
+
+    `detectors` and `observable` index the experiment's measurement record (prep,
+    then each round, then readout, measurements in order). `roles_inferred` says the
+    roles were worked out from the circuits (see `infer_roles`), not given.
+    """
 
     name: str
     qubits: tuple[str, ...]
@@ -74,6 +90,9 @@ class Patch:
     rounds: int = 1
     description: str = ""
     source: str | None = None
+    detectors: tuple[Detector, ...] = ()
+    observable: tuple[int, ...] = ()
+    roles_inferred: bool = False
     index: Mapping[str, int] = field(init=False, repr=False, compare=False)
 
     def __post_init__(self) -> None:
@@ -114,3 +133,69 @@ class Patch:
 
     def qubits_with_role(self, role: str) -> tuple[str, ...]:
         return tuple(q for q in self.qubits if self.roles[q] == role)
+
+    def measurement_record(self) -> list[tuple[str, int, Operation]]:
+        """(circuit, repetition, measurement) for every measurement of the experiment, in order."""
+        out = []
+        for name, times in self.experiment():
+            measures = self.circuits[name].measurements
+            for rep in range(times):
+                out += [(name, rep, op) for op in measures]
+        return out
+
+
+def experiment_order(circuits: Mapping[str, Circuit], rounds: int) -> list[tuple[str, int]]:
+    """(circuit, times run) in experiment order for the circuits present."""
+    times = {"prep": 1, "round": rounds, "readout": 1}
+    return [(n, times[n]) for n in EXPERIMENT_ORDER if n in circuits]
+
+
+def infer_roles(circuits: Mapping[str, Circuit], rounds: int = 1) -> dict[str, str]:
+    """Roles from what the circuits do to each qubit (used when a patch gives none).
+
+    A qubit that is measured and then acted on again later in the experiment (reset,
+    reused, or measured in a round that repeats) is a measured helper; the rest are
+    data. A helper that shares gates with data and with other helpers is a `flag`;
+    any other helper is an `ancilla`. Qubits touched only by barriers are left out.
+
+    >>> from embedcheck.io.qasm import read_qasm
+    >>> text = 'OPENQASM 2.0; include "qelib1.inc"; qreg q[3]; creg c[1]; '
+    >>> text += 'cx q[0], q[1]; cx q[2], q[1]; measure q[1] -> c[0]; reset q[1];'
+    >>> infer_roles({"round": Circuit("round", tuple(read_qasm(text)))})
+    {'q0': 'data', 'q1': 'ancilla', 'q2': 'data'}
+    """
+    sequence = []
+    for name, times in experiment_order(circuits, rounds) or [(n, 1) for n in circuits]:
+        sequence += list(circuits[name].operations) * min(times, 2)
+    order: list[str] = []
+    measured, helper = set(), set()
+    for op in sequence:
+        if op.kind == "barrier":
+            continue
+        for q in op.qubits:
+            if q not in order:
+                order.append(q)
+            if q in measured:
+                helper.add(q)
+        if op.kind == "measure":
+            measured.add(op.qubits[0])
+    partners: dict[str, set] = {q: set() for q in order}
+    for op in sequence:
+        if op.kind == "2q":
+            a, b = op.qubits
+            partners[a].add(b)
+            partners[b].add(a)
+    roles = {}
+    for q in sorted(order, key=_natural):
+        if q not in helper:
+            roles[q] = "data"
+        else:
+            kinds = {p in helper for p in partners[q]}
+            roles[q] = "flag" if kinds == {True, False} else "ancilla"
+    return roles
+
+
+def _natural(name: str):
+    """Sort q2 before q10."""
+    import re
+    return [int(t) if t.isdigit() else t for t in re.split(r"(\d+)", name)]

@@ -144,7 +144,7 @@ def necessary_conditions(device: Device, patch: Patch, circuits: Sequence[str]) 
         chip_degree[b] = chip_degree.get(b, 0) + 1
     top = max(chip_degree.values(), default=0)
     for k in sorted(set(degree.values()), reverse=True):
-        need = sorted(patch.qubits[i] for i, d in degree.items() if d >= k)
+        need = [patch.qubits[i] for i in sorted(i for i, d in degree.items() if d >= k)]
         have = sum(1 for d in chip_degree.values() if d >= k)
         if have < len(need):
             reasons.append(

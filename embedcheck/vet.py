@@ -76,21 +76,26 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 10_000,
         alone = find_placements(device, patch, circuits=[name], limit=1, budget_s=budget_s)
         fits.append(CircuitFit(name, len(circuit.two_qubit_gates), bool(alone.placements),
                                alone.reasons))
-    core: list[str] = []
+    # The core: circuits with two-qubit gates that fit together, check round first.
+    # Circuits without two-qubit gates are swap-free anywhere and join any core.
     order = sorted(patch.circuits, key=lambda n: (_CORE_ORDER.index(n)
                                                   if n in _CORE_ORDER else len(_CORE_ORDER)))
+    gated = [n for n in order if patch.circuits[n].two_qubit_gates]
     fitting = {f.circuit for f in fits if f.fits_alone}
-    for name in order:
+    core: list[str] = []
+    for name in gated:
         if name in fitting and (not core or find_placements(
                 device, patch, circuits=core + [name], limit=1, budget_s=budget_s).placements):
             core.append(name)
-    excluded = tuple(n for n in patch.circuits if n not in core)
-    if core:
+    if core or not gated:
+        core += [n for n in order if n not in gated]
         search = find_placements(device, patch, circuits=core, limit=limit, budget_s=budget_s,
                                  progress=progress)
     else:
-        search = find_placements(device, patch, circuits=list(patch.circuits), limit=1,
-                                 budget_s=budget_s)
+        reasons = tuple(dict.fromkeys(r for f in fits for r in f.reasons)) or (
+            "no circuit with two-qubit gates has a swap-free placement",)
+        search = SearchResult(tuple(gated), (), 0, 1, "complete", reasons, 0.0)
+    excluded = tuple(n for n in patch.circuits if n not in core)
     ranking = rank_placements(device, patch, search.placements)
     names = list(patch.circuits)
     off = off_coupler_counts(device, patch, ranking.placements, names)

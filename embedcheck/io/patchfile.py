@@ -1,72 +1,255 @@
-"""Load a patch file (YAML, schema `patch.schema.json`) into a `Patch`.
+"""Load a patch: a YAML patch file, a bare OpenQASM or stim file, or qiskit circuits.
 
-Circuits are OpenQASM 2 or 3, inline (`qasm: |`) or in a file (`file:`, relative to
-the patch file). Lines reported for inline circuits are lines of the YAML file.
-Every qubit a circuit uses must be declared under `qubits` with a role.
+YAML circuits are OpenQASM 2 or 3, inline (`qasm: |`) or in a file (`file:`), or a
+stim file (`stim:`), paths relative to the patch file. Lines reported for inline
+circuits are lines of the YAML file. Roles come from `qubits` (explicit lists), from
+`role_registers` (register name -> role), or, when neither is given, are inferred
+from the circuits (`embedcheck.patch.infer_roles`) and the report says so.
+
+A bare `.qasm` file is a patch with one circuit, `round`, run once; a `.stim` file is
+split at its top-level REPEAT block into prep, round and readout (see `stimfile`),
+with stim's detectors and observable.
 """
 from __future__ import annotations
 
+import re
 from pathlib import Path
+from typing import Mapping
 
-from ..patch import EXPERIMENT_ORDER, ROLES, Circuit, Patch
+from ..patch import (EXPERIMENT_ORDER, ROLES, Circuit, Detector, Operation, Patch, _natural,
+                     experiment_order, infer_roles)
 from .errors import InputError, did_you_mean
 from .qasm import read_qasm
+from .stimfile import load_stim, read_stim
 from .yamlfile import Document, read_yaml
 
 
 def load_patch(path: str | Path) -> Patch:
-    """Read a patch file; raise `InputError` (file, line, key) on any problem."""
+    """Read a patch from YAML, OpenQASM (.qasm) or stim (.stim); raise `InputError`."""
+    suffix = Path(path).suffix.lower()
+    if suffix == ".stim":
+        return patch_from_stim_experiment(load_stim(path), name=Path(path).stem, source=str(path))
+    if suffix in (".qasm", ".qasm3", ".qasm2"):
+        try:
+            text = Path(path).read_text(encoding="utf-8")
+        except FileNotFoundError:
+            raise InputError("file not found", file=str(path)) from None
+        ops = read_qasm(text, file=str(path))
+        return _with_roles(Path(path).stem, {"round": Circuit("round", tuple(ops), text, str(path))},
+                           rounds=1, source=str(path))
     return patch_from_document(read_yaml(path, "patch"))
+
+
+def patch_from_qiskit(circuits, *, name: str = "patch", rounds: int = 1,
+                      roles: Mapping[str, str] | None = None,
+                      role_registers: Mapping[str, list] | None = None) -> Patch:
+    """A patch from qiskit `QuantumCircuit`s: one (taken as `round`) or a {name: circuit} map.
+
+    Each circuit goes through qiskit's OpenQASM 3 exporter and our reader, so its
+    operations are exactly what the exporter writes; register qubit `d[2]` is `d2`.
+    """
+    from qiskit import QuantumCircuit, qasm3
+
+    if isinstance(circuits, QuantumCircuit):
+        circuits = {"round": circuits}
+    built = {}
+    for cname, qc in circuits.items():
+        text = qasm3.dumps(qc)
+        built[cname] = Circuit(cname, tuple(read_qasm(text, file=f"<{cname}: QuantumCircuit>")),
+                               text, None)
+    return _with_roles(name, built, rounds=rounds, roles=roles, role_registers=role_registers)
+
+
+def patch_from_stim(circuit, *, name: str = "patch") -> Patch:
+    """A patch from a `stim.Circuit` (split at its REPEAT block; detectors as stim gives)."""
+    return patch_from_stim_experiment(read_stim(circuit), name=name, source=None)
+
+
+def patch_from_stim_experiment(exp, *, name: str, source: str | None) -> Patch:
+    circuits = {k: Circuit(k, v, None, source) for k, v in exp.circuits.items()}
+    patch = _with_roles(name, circuits, rounds=exp.rounds, source=source)
+    detectors = tuple(Detector(f"D{i}", m, line) for i, (m, line)
+                      in enumerate(zip(exp.detectors, exp.detector_lines)))
+    return _replace(patch, detectors=detectors, observable=exp.observable)
 
 
 def patch_from_document(doc: Document) -> Patch:
     """Build a `Patch` from a validated patch document."""
     data = doc.data
-    roles: dict[str, str] = {}
-    for role in ROLES:
-        for i, name in enumerate(data["qubits"].get(role, [])):
-            if name in roles:
-                raise doc.error(("qubits", role, i),
-                                f"qubit '{name}' is declared twice ({roles[name]} and {role})")
-            roles[name] = role
-    if not roles:
-        raise doc.error(("qubits",), "the patch declares no qubits")
-    circuits = {}
+    explicit = _explicit_roles(doc) if "qubits" in data else None
+    if explicit is not None and "role_registers" in data:
+        raise doc.error(("role_registers",), "give either 'qubits' or 'role_registers', not both")
     for name in data["circuits"]:
         close = did_you_mean(name, [n for n in EXPERIMENT_ORDER if n not in data["circuits"]])
         if close and name not in EXPERIMENT_ORDER:
             raise doc.error(("circuits", name), f"circuit '{name}' is not one of "
                             f"{', '.join(EXPERIMENT_ORDER)}{close}; other names are audited but "
                             "not run in the experiment, so a near miss is refused")
-    for name, spec in data["circuits"].items():
-        circuits[name] = _circuit(doc, name, spec, roles)
+    circuits = {name: _circuit(doc, name, spec) for name, spec in data["circuits"].items()}
     if not any(name in circuits for name in EXPERIMENT_ORDER):
         raise doc.error(("circuits",), "the patch needs at least one of the circuits "
                                        + ", ".join(EXPERIMENT_ORDER))
-    return Patch(name=data["name"], qubits=tuple(roles), roles=roles, circuits=circuits,
-                 rounds=data.get("rounds", 1), description=data.get("description", ""),
-                 source=doc.file)
+    used = _used_qubits(circuits)
+    if explicit is not None:
+        for cname, c in circuits.items():
+            for op in c.operations:
+                for q in (op.qubits if op.kind != "barrier" else ()):
+                    if q not in explicit:
+                        raise InputError(f"circuit '{cname}' uses qubit '{q}', which the patch "
+                                         f"does not declare under 'qubits'"
+                                         f"{did_you_mean(q, explicit)}", file=op.file, line=op.line)
+    registers = None
+    if "role_registers" in data:
+        registers = {}
+        for role, names in data["role_registers"].items():
+            for i, reg in enumerate(names):
+                if not any(_register_of(q) == reg for q in used):
+                    raise doc.error(("role_registers", role, i),
+                                    f"register '{reg}' is not used by any circuit of the patch")
+                registers[reg] = role
+    patch = _with_roles(data["name"], circuits, rounds=data.get("rounds", 1), roles=explicit,
+                        role_registers=registers, source=doc.file,
+                        description=data.get("description", ""), doc=doc)
+    detectors = tuple(Detector(d.get("name", f"D{i}"),
+                               tuple(_resolve(doc, patch, ("detectors", i, "measurements", k), ref)
+                                     for k, ref in enumerate(d["measurements"])),
+                               doc.line(("detectors", i)))
+                      for i, d in enumerate(data.get("detectors", [])))
+    observable = tuple(_resolve(doc, patch, ("observable", k), ref)
+                       for k, ref in enumerate(data.get("observable", [])))
+    return _replace(patch, detectors=detectors, observable=observable)
 
 
-def _circuit(doc: Document, name: str, spec: dict, roles: dict) -> Circuit:
+def _explicit_roles(doc: Document) -> dict[str, str]:
+    roles: dict[str, str] = {}
+    for role in ROLES:
+        for i, name in enumerate(doc.data["qubits"].get(role, [])):
+            if name in roles:
+                raise doc.error(("qubits", role, i),
+                                f"qubit '{name}' is declared twice ({roles[name]} and {role})")
+            roles[name] = role
+    if not roles:
+        raise doc.error(("qubits",), "the patch declares no qubits")
+    return roles
+
+
+def _with_roles(name, circuits, *, rounds, roles=None, role_registers=None, source=None,
+                description="", doc=None) -> Patch:
+    inferred = roles is None and role_registers is None
+    if roles is None:
+        used = _used_qubits(circuits)
+        if role_registers is not None:
+            roles = {}
+            for q in used:
+                reg = _register_of(q)
+                if reg not in role_registers:
+                    where = dict(file=doc.file, line=doc.line(("role_registers",))) if doc else {}
+                    raise InputError(f"qubit '{q}' (register '{reg}') has no role: add its "
+                                     "register to 'role_registers'", **where)
+                roles[q] = role_registers[reg]
+        else:
+            roles = infer_roles(circuits, rounds)
+        roles = {q: roles[q] for q in sorted(roles, key=_natural)}
+    circuits = {n: _trim_barriers(c, roles) for n, c in circuits.items()}
+    return Patch(name=name, qubits=tuple(roles), roles=roles, circuits=circuits, rounds=rounds,
+                 description=description, source=source, roles_inferred=inferred)
+
+
+def _trim_barriers(circuit: Circuit, qubits) -> Circuit:
+    """Barriers keep only patch qubits (a barrier over a whole register may name others)."""
+    ops = []
+    for op in circuit.operations:
+        if op.kind == "barrier":
+            kept = tuple(q for q in op.qubits if q in qubits)
+            if not kept:
+                continue
+            if kept != op.qubits:
+                op = Operation(op.name, kept, op.kind, op.line, op.text, op.file, op.written,
+                               op.conditional, op.clbit)
+        ops.append(op)
+    return Circuit(circuit.name, tuple(ops), circuit.qasm, circuit.file)
+
+
+def _replace(patch: Patch, **changes) -> Patch:
+    fields = dict(name=patch.name, qubits=patch.qubits, roles=dict(patch.roles),
+                  circuits=dict(patch.circuits), rounds=patch.rounds,
+                  description=patch.description, source=patch.source,
+                  detectors=patch.detectors, observable=patch.observable,
+                  roles_inferred=patch.roles_inferred)
+    fields.update(changes)
+    return Patch(**fields)
+
+
+def _used_qubits(circuits) -> list[str]:
+    """Qubits some non-barrier operation acts on."""
+    seen: dict[str, None] = {}
+    for c in circuits.values():
+        for op in c.operations:
+            if op.kind != "barrier":
+                seen.update(dict.fromkeys(op.qubits))
+    return sorted(seen, key=_natural)
+
+
+def _register_of(qubit: str) -> str:
+    """'d12' -> 'd' (register names ending in a digit cannot be told apart this way)."""
+    return re.sub(r"\d+$", "", qubit) or qubit
+
+
+def _circuit(doc: Document, name: str, spec: dict) -> Circuit:
     path = ("circuits", name)
-    if ("qasm" in spec) == ("file" in spec):
-        raise doc.error(path, "give exactly one of 'qasm' (inline text) or 'file'")
+    given = [k for k in ("qasm", "file", "stim") if k in spec]
+    if len(given) != 1:
+        raise doc.error(path, "give exactly one of 'qasm' (inline text), 'file' (OpenQASM) or "
+                              "'stim' (a stim file)")
     if "qasm" in spec:
         text, file = spec["qasm"], doc.file
         first = doc.lines.get(path + ("qasm", "<text>"), doc.line(path + ("qasm",)))
-    else:
-        target = Path(doc.file).parent / spec["file"]
-        try:
-            text = target.read_text(encoding="utf-8")
-        except OSError:
-            raise doc.error(path + ("file",), f"circuit file '{spec['file']}' not found "
-                                              f"(looked for {target})") from None
-        file, first = str(target), 1
-    ops = read_qasm(text, file=file, first_line=first)
-    for op in ops:
-        for q in op.qubits:
-            if q not in roles:
-                raise InputError(f"circuit '{name}' uses qubit '{q}', which the patch does not "
-                                 f"declare under 'qubits'", file=op.file, line=op.line)
-    return Circuit(name, tuple(ops), qasm=text, file=file)
+        return Circuit(name, tuple(read_qasm(text, file=file, first_line=first)), text, file)
+    key = given[0]
+    target = Path(doc.file).parent / spec[key]
+    if not target.is_file():
+        raise doc.error(path + (key,), f"circuit file '{spec[key]}' not found (looked for {target})")
+    if key == "stim":
+        exp = load_stim(target)
+        ops: list[Operation] = []
+        for part, times in experiment_order(exp.circuits, exp.rounds):
+            ops += list(exp.circuits[part]) * times
+        return Circuit(name, tuple(ops), None, str(target))
+    text = target.read_text(encoding="utf-8")
+    return Circuit(name, tuple(read_qasm(text, file=str(target))), text, str(target))
+
+
+_REF = re.compile(r"^(?P<circuit>[A-Za-z_][A-Za-z0-9_-]*)(\[(?P<rep>[0-9]+)\])?"
+                  r"(:(?P<bit>.+)|#(?P<k>[0-9]+))$")
+
+
+def _resolve(doc: Document, patch: Patch, path, ref: str) -> int:
+    """A measurement reference -> its index in the experiment's measurement record."""
+    m = _REF.match(ref)
+    circuit, rep = m.group("circuit"), int(m.group("rep") or 0)
+    times = dict(patch.experiment())
+    if circuit not in patch.circuits:
+        raise doc.error(path, f"'{ref}': the patch has no circuit '{circuit}'"
+                              f"{did_you_mean(circuit, patch.circuits)}")
+    if circuit not in times:
+        raise doc.error(path, f"'{ref}': circuit '{circuit}' is not run in the experiment")
+    if rep >= times[circuit]:
+        raise doc.error(path, f"'{ref}': circuit '{circuit}' runs {times[circuit]} time(s); "
+                              f"repetitions count from 0")
+    record = patch.measurement_record()
+    mine = [i for i, (c, r, _) in enumerate(record) if c == circuit and r == rep]
+    if m.group("k") is not None:
+        k = int(m.group("k"))
+        if k >= len(mine):
+            raise doc.error(path, f"'{ref}': circuit '{circuit}' has only {len(mine)} measurement(s)")
+        return mine[k]
+    bit = m.group("bit")
+    hits = [i for i in mine if record[i][2].clbit == bit]
+    if not hits:
+        bits = [record[i][2].clbit for i in mine if record[i][2].clbit]
+        raise doc.error(path, f"'{ref}': no measurement of circuit '{circuit}' writes bit '{bit}'"
+                              f"{did_you_mean(bit, bits)}")
+    if len(hits) > 1:
+        raise doc.error(path, f"'{ref}': {len(hits)} measurements write bit '{bit}'; refer to one "
+                              f"as '{circuit}[{rep}]#k'")
+    return hits[0]

@@ -32,8 +32,7 @@ _ONE_QUBIT = {"id", "x", "y", "z", "h", "s", "sdg", "t", "tdg", "sx", "sxdg", "r
 _KEEP = {"cx", "CX"}   # already one CNOT; everything else goes through qiskit
 _BUILTIN = {"U", "CX", "gphase"}          # gates that need no include
 _LIBRARIES = {"qelib1.inc": 2, "stdgates.inc": 3}
-_UNSUPPORTED = {"ForInLoop": "for loops", "WhileLoop": "while loops",
-                "SubroutineDefinition": "subroutine definitions (def)", "Box": "box blocks"}
+_UNSUPPORTED = {"ForInLoop": "for loops", "WhileLoop": "while loops", "Box": "box blocks"}
 
 
 def qasm_version(text: str) -> int:
@@ -69,8 +68,12 @@ class _Walker:
     def __init__(self, lines, file, first_line):
         self.lines, self.file, self.offset = lines, file, first_line - 1
         self.registers: dict[str, int | None] = {}
-        self.classical: set[str] = set()
+        self.classical: dict[str, int | None] = {}
         self.definitions: dict[str, ast.QuantumGateDefinition] = {}
+        self.subroutines: dict[str, ast.SubroutineDefinition] = {}
+        self.bind: dict[str, str] = {}           # subroutine qubit parameter -> patch qubit
+        self.call_stmt = None                    # the call being inlined, for lines
+        self.call_clbit: str | None = None
         self.library = False
         self.ops: list[Operation] = []
 
@@ -96,9 +99,20 @@ class _Walker:
             self.registers[stmt.qubit.name] = size
         elif isinstance(stmt, (ast.ClassicalDeclaration, getattr(ast, "IODeclaration", ()))):
             name = stmt.identifier.name
+            if self.call_stmt is not None:          # a local inside an inlined subroutine
+                return
             if name in self.registers or name in self.classical:
                 raise self.fail(stmt, f"register '{name}' is declared twice")
-            self.classical.add(name)
+            size = getattr(getattr(stmt, "type", None), "size", None)
+            self.classical[name] = _integer(size) if size is not None else None
+        elif isinstance(stmt, ast.SubroutineDefinition):
+            self.subroutines[stmt.name.name] = stmt
+        elif isinstance(stmt, ast.ClassicalAssignment) and \
+                isinstance(stmt.rvalue, ast.FunctionCall):
+            self.call(stmt, stmt.rvalue, conditional, _bit_name(stmt.lvalue))
+        elif isinstance(stmt, ast.ExpressionStatement) and \
+                isinstance(stmt.expression, ast.FunctionCall):
+            self.call(stmt, stmt.expression, conditional, None)
         elif isinstance(stmt, ast.QuantumGateDefinition):
             self.definitions[stmt.name.name] = stmt
         elif isinstance(stmt, ast.QuantumGate):
@@ -108,13 +122,21 @@ class _Walker:
             self.gate(stmt, stmt.name.name, [self.operand(q, stmt) for q in stmt.qubits],
                       conditional, stmt.name.name)
         elif isinstance(stmt, ast.QuantumMeasurementStatement):
-            if stmt.target is not None:
+            qubits = self.operand(stmt.measure.qubit, stmt)
+            bits: list = [None] * len(qubits)
+            if self.call_stmt is not None:
+                bits = [self.call_clbit] * len(qubits)
+            elif stmt.target is not None:
                 target = stmt.target.name if isinstance(stmt.target, ast.Identifier) \
                     else stmt.target.name.name
                 if target not in self.classical:
                     raise self.fail(stmt, f"classical register '{target}' is not declared")
-            for q in self.operand(stmt.measure.qubit, stmt):
-                self.emit(stmt, "measure", (q,), "measure", conditional, "measure")
+                if isinstance(stmt.target, ast.Identifier) and self.classical[target]:
+                    bits = [f"{target}[{k}]" for k in range(len(qubits))]
+                else:
+                    bits = [_bit_name(stmt.target)] * len(qubits)
+            for q, bit in zip(qubits, bits):
+                self.emit(stmt, "measure", (q,), "measure", conditional, "measure", clbit=bit)
         elif isinstance(stmt, ast.QuantumReset):
             for q in self.operand(stmt.qubits, stmt):
                 self.emit(stmt, "reset", (q,), "reset", conditional, "reset")
@@ -148,8 +170,36 @@ class _Walker:
             raise self.fail(stmt, f"gate '{name}' takes {want} parameter(s), got "
                                   f"{len(stmt.arguments)}")
 
+    def call(self, stmt, call, conditional, clbit):
+        """Inline a subroutine call (such as the `mr` measure-and-reset stim writes)."""
+        name = call.name.name
+        if name not in self.subroutines:
+            raise self.fail(stmt, f"subroutine '{name}' is not defined")
+        if self.call_stmt is not None:
+            raise self.fail(stmt, "nested subroutine calls are not supported")
+        definition = self.subroutines[name]
+        if len(call.arguments) != len(definition.arguments):
+            raise self.fail(stmt, f"subroutine '{name}' takes {len(definition.arguments)} "
+                                  f"argument(s), got {len(call.arguments)}")
+        bind = {}
+        for formal, actual in zip(definition.arguments, call.arguments):
+            if isinstance(formal, ast.QuantumArgument):
+                names = self.operand(actual, stmt)
+                if len(names) != 1:
+                    raise self.fail(stmt, f"subroutine '{name}' needs one qubit per argument")
+                bind[formal.name.name] = names[0]
+        self.bind, self.call_stmt, self.call_clbit = bind, stmt, clbit
+        try:
+            self.block(definition.body, conditional)
+        finally:
+            self.bind, self.call_stmt, self.call_clbit = {}, None, None
+
     def operand(self, node, stmt) -> list[str]:
         """Patch qubit names an operand stands for (a whole register broadcasts)."""
+        if isinstance(node, ast.IndexExpression) and isinstance(node.collection, ast.Identifier):
+            node = ast.IndexedIdentifier(name=node.collection, indices=[node.index])
+        if isinstance(node, ast.Identifier) and node.name in self.bind:
+            return [self.bind[node.name]]
         if isinstance(node, ast.Identifier):
             name = node.name
             if name not in self.registers:
@@ -213,13 +263,14 @@ class _Walker:
                 self.emit(stmt, "cx" if kind == "2q" else "u",
                           tuple(qubits[i] for i in local), kind, conditional, written)
 
-    def emit(self, stmt, name, qubits, kind, conditional, written):
+    def emit(self, stmt, name, qubits, kind, conditional, written, clbit=None):
+        stmt = self.call_stmt or stmt          # inside a subroutine: the line of the call
         start = stmt.span.start_line if stmt.span else None
         end = stmt.span.end_line if stmt.span else start
         text = " ".join(self.lines[i - 1].strip() for i in range(start, end + 1)) if start else ""
         self.ops.append(Operation(name, qubits, kind, line=start + self.offset if start else None,
                                   text=text, file=self.file, written=written,
-                                  conditional=conditional))
+                                  conditional=conditional, clbit=clbit))
 
 
 def _unrolled(name, width, stmt, walker):
@@ -263,6 +314,19 @@ def _decomposition(name: str, width: int) -> tuple[tuple[str, tuple[int, ...]], 
     out = transpile(qc, basis_gates=["cx", "u"], optimization_level=0)
     return tuple(("2q" if len(ins.qubits) == 2 else "1q",
                   tuple(out.find_bit(q).index for q in ins.qubits)) for ins in out.data)
+
+
+def _bit_name(node) -> str | None:
+    """'m[2]' for m[2], 'b' for a scalar bit b."""
+    if isinstance(node, ast.Identifier):
+        return node.name
+    if isinstance(node, ast.IndexedIdentifier):
+        parts = []
+        for group in node.indices:
+            for expr in (group if isinstance(group, list) else [group]):
+                parts.append(str(_integer(expr)))
+        return f"{node.name.name}[{']['.join(parts)}]"
+    return None
 
 
 def _integer(expr):

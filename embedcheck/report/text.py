@@ -60,11 +60,11 @@ def render_find(d: dict) -> str:
     s = d["search"]
     out.append("")
     if not s["distinct_placements"]:
-        out.append("No placement is swap-free for any circuit set that includes the check round.")
+        out.append("No placement makes any circuit with two-qubit gates swap-free on this chip.")
         for reason in s["reasons"]:
             out.append(f"  why: {reason}")
         out += ["", d["caution"]]
-        return "\n".join(out)
+        return "\n".join(_fold(line) for line in out)
     if s["complete"]:
         out.append(f"Swap-free for {', '.join(s['circuits'])}: {s['distinct_placements']} distinct "
                    f"placement(s) ({s['raw_maps']} maps / patch symmetry of order "
