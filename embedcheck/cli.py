@@ -386,8 +386,11 @@ def _run_generate(args) -> int:
 
 
 def _kind_of(path: str) -> str:
-    """'chip' or 'patch', from the file's top-level version key."""
+    """'chip' or 'patch', from the file's top-level version key (or a circuit file's suffix)."""
     import re
+    from pathlib import Path
+    if Path(path).suffix.lower() in (".stim", ".qasm", ".qasm2", ".qasm3"):
+        return "patch"
     try:
         text = open(path, encoding="utf-8").read()
     except FileNotFoundError:

@@ -32,6 +32,15 @@ _ONE_QUBIT = {"id", "x", "y", "z", "h", "s", "sdg", "t", "tdg", "sx", "sxdg", "r
 _KEEP = {"cx", "CX"}   # already one CNOT; everything else goes through qiskit
 _BUILTIN = {"U", "CX", "gphase"}          # gates that need no include
 _LIBRARIES = {"qelib1.inc": 2, "stdgates.inc": 3}
+# Gate names the two standard libraries define (OpenQASM 2 qelib1.inc as qiskit reads
+# it; OpenQASM 3 stdgates.inc from the language specification).
+_LIBRARY_GATES = {
+    "qelib1.inc": set("u3 u2 u1 cx id u0 u p x y z h s sdg t tdg rx ry rz sx sxdg cz cy swap ch "
+                      "ccx cswap crx cry crz cu1 cp cu3 csx cu rxx rzz rccx rc3x c3x c3sqrtx "
+                      "c4x".split()),
+    "stdgates.inc": set("p x y z h s sdg t tdg sx rx ry rz cx cy cz cp crx cry crz ch swap ccx "
+                        "cswap cu CX phase cphase id u1 u2 u3".split()),
+}
 _UNSUPPORTED = {"ForInLoop": "for loops", "WhileLoop": "while loops", "Box": "box blocks"}
 
 
@@ -75,6 +84,7 @@ class _Walker:
         self.call_stmt = None                    # the call being inlined, for lines
         self.call_clbit: str | None = None
         self.library = False
+        self.library_gates: set[str] = set()
         self.ops: list[Operation] = []
 
     def fail(self, node, message):
@@ -92,10 +102,12 @@ class _Walker:
                                       "standard libraries qelib1.inc and stdgates.inc (write other "
                                       "gate definitions in the file)")
             self.library = True
+            self.library_gates |= _LIBRARY_GATES[stmt.filename]
         elif isinstance(stmt, ast.QubitDeclaration):
             size = None if stmt.size is None else _integer(stmt.size)
             if stmt.qubit.name in self.registers or stmt.qubit.name in self.classical:
                 raise self.fail(stmt, f"register '{stmt.qubit.name}' is declared twice")
+            self.check_register_name(stmt, stmt.qubit.name)
             self.registers[stmt.qubit.name] = size
         elif isinstance(stmt, (ast.ClassicalDeclaration, getattr(ast, "IODeclaration", ()))):
             name = stmt.identifier.name
@@ -103,6 +115,7 @@ class _Walker:
                 return
             if name in self.registers or name in self.classical:
                 raise self.fail(stmt, f"register '{name}' is declared twice")
+            self.check_register_name(stmt, name)
             size = getattr(getattr(stmt, "type", None), "size", None)
             self.classical[name] = _integer(size) if size is not None else None
         elif isinstance(stmt, ast.SubroutineDefinition):
@@ -150,6 +163,11 @@ class _Walker:
             raise self.fail(stmt, f"{_UNSUPPORTED[type(stmt).__name__]} are not supported yet: "
                                   "write the circuit out without them")
         # Includes, classical declarations and assignments carry no quantum operation.
+
+    def check_register_name(self, stmt, name):
+        """A register may not take a gate's name (qiskit's importers refuse it too)."""
+        if name in self.definitions or name in self.library_gates:
+            raise self.fail(stmt, f"register '{name}' has the name of a gate; rename it")
 
     def check_gate_call(self, stmt):
         """The gate exists (defined, built in, or from an included library) with its parameters."""

@@ -179,6 +179,8 @@ def patch_details(patch: Patch) -> dict:
         "interacting_pairs": [{"qubits": [patch.qubits[a], patch.qubits[b]], "gates": n}
                               for (a, b), n in counts.items()],
         "shortest_cycle": shortest_cycle(range(patch.num_qubits), list(counts)),
+        "roles_inferred": patch.roles_inferred,
+        "detectors": len(patch.detectors), "observable_size": len(patch.observable),
     }
 
 

@@ -182,6 +182,9 @@ def render_chip(d: dict) -> str:
 
 def render_patch(d: dict) -> str:
     out = [f"Patch '{d['name']}' ({d['file']}): {d['qubits']} qubits, {d['rounds']} round(s)"]
+    if d.get("roles_inferred"):
+        out.append("  roles inferred from the circuits (measured and then reused: helper; "
+                   "helper beside data and helpers: flag)")
     for role, names in d["roles"].items():
         if names:
             out.append(f"  {role:<8} {', '.join(names)}")
@@ -192,6 +195,8 @@ def render_patch(d: dict) -> str:
     degrees = ", ".join(f"{q}:{k}" for q, k in d["interaction_degrees"].items())
     cycle = d["shortest_cycle"] if d["shortest_cycle"] is not None else "none (a tree)"
     out += ["", f"Interaction graph (all circuits): degrees {degrees}; shortest cycle {cycle}"]
+    if d.get("detectors"):
+        out.append(f"Detectors: {d['detectors']}; observable: {d['observable_size']} measurement(s)")
     return "\n".join(_fold(line) for line in out)
 
 

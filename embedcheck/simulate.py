@@ -1,0 +1,94 @@
+"""The experiment as a stim circuit, and the noiseless sanity check of its detectors.
+
+`to_stim(patch)` writes prep, `rounds` x round and readout as one stim circuit with the
+patch's detectors and observable (`rec[-k]` lookbacks computed from the measurement
+record). Only Clifford operations convert: h, s, sdg, x, y, z, sx, sxdg, id, cx, cz,
+cy, swap, measure, reset; a gate inside an `if` block has no stim equivalent here
+and is refused, as are non-Clifford gates.
+
+`check_detectors(patch)` asks stim whether every declared detector and the
+observable are deterministic without noise: stim refuses to build a detector error
+model when one is not (stim's `Circuit.detector_error_model`, Gidney, "Stim: a fast
+stabilizer circuit simulator", Quantum 5, 497 (2021)). A detector that fails is a
+bug in the circuit or its declaration, not a layout problem.
+
+    >>> from embedcheck.io.patchfile import load_patch          # doctest: +SKIP
+    >>> check_detectors(load_patch("samples/flagged_weight4.yaml"))   # doctest: +SKIP
+    []
+"""
+from __future__ import annotations
+
+from .io.errors import InputError
+from .patch import Patch
+
+_STIM = {"h": "H", "s": "S", "sdg": "S_DAG", "x": "X", "y": "Y", "z": "Z", "sx": "SQRT_X",
+         "sxdg": "SQRT_X_DAG", "id": "I", "cx": "CX", "cz": "CZ", "cy": "CY", "swap": "SWAP"}
+
+
+def to_stim(patch: Patch, *, detectors: bool = True):
+    """The whole experiment as a noiseless `stim.Circuit` (patch qubit i is stim qubit i)."""
+    import stim
+
+    circuit = stim.Circuit()
+    measured = 0
+    index = patch.index
+    for name, times in patch.experiment():
+        for _ in range(times):
+            for op in patch.circuits[name].operations:
+                if op.kind == "barrier":
+                    circuit.append("TICK")
+                    continue
+                if op.conditional:
+                    raise InputError(f"circuit '{name}': a gate inside an 'if' block cannot be "
+                                     "simulated here", file=op.file, line=op.line)
+                targets = [index[q] for q in op.qubits]
+                if op.kind == "measure":       # keep the basis of stim's MX/MY/MRX/MRY
+                    basis = op.written[-1].upper() if op.written in ("mx", "my", "mrx", "mry") \
+                        else ""
+                    circuit.append("M" + basis, targets)
+                    measured += 1
+                elif op.kind == "reset":
+                    basis = op.written[-1].upper() if op.written in ("rx", "ry", "mrx", "mry") \
+                        else ""
+                    circuit.append("R" + basis, targets)
+                else:
+                    gate = _STIM.get(op.written if op.written in _STIM and op.kind == "2q"
+                                     and op.written != "swap" else op.name)
+                    if gate is None:
+                        raise InputError(f"circuit '{name}': '{op.written or op.name}' is not a "
+                                         "Clifford gate stim can simulate", file=op.file,
+                                         line=op.line)
+                    circuit.append(gate, targets)
+    if detectors:
+        for det in patch.detectors:
+            circuit.append("DETECTOR", [stim.target_rec(m - measured) for m in det.measurements])
+        if patch.observable:
+            circuit.append("OBSERVABLE_INCLUDE",
+                           [stim.target_rec(m - measured) for m in patch.observable], 0)
+    return circuit
+
+
+def check_detectors(patch: Patch) -> list[str]:
+    """Plain-word problems with the declared detectors and observable (empty when sound)."""
+    circuit = to_stim(patch)
+    problems = []
+    for i, det in enumerate(patch.detectors):
+        single = to_stim(_only(patch, det))
+        try:
+            single.detector_error_model()
+        except ValueError:
+            record = patch.measurement_record()
+            which = ", ".join(f"{record[m][0]}[{record[m][1]}]:{record[m][2].clbit or m}"
+                              for m in det.measurements)
+            problems.append(f"detector '{det.name}' ({which}) is random without noise")
+    if not problems:
+        try:
+            circuit.detector_error_model()
+        except ValueError:
+            problems.append("the logical observable is random without noise")
+    return problems
+
+
+def _only(patch: Patch, detector) -> Patch:
+    from dataclasses import replace
+    return replace(patch, detectors=(detector,), observable=())
