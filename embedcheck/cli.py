@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import re
 import sys
 
 from . import __version__
@@ -32,7 +33,7 @@ def main(argv: list[str] | None = None) -> int:
     try:
         args = _parser().parse_args(argv)
         if not getattr(args, "command", None):
-            raise InputError("give a command: find, audit, check, validate, show or generate "
+            raise InputError("give a command: find, audit, check, draw, validate, show or generate "
                              "(see 'embedcheck --help')")
         return args.run(args)
     except InputError as err:
@@ -58,7 +59,29 @@ def _parser() -> argparse.ArgumentParser:
                       help="placements to list (default 10)")
     find.add_argument("--strict", action="store_true",
                       help="exit 1 unless every circuit is swap-free on the best placement")
+    find.add_argument("--over-snapshots", default="worst", metavar="HOW",
+                      help="with several calibration snapshots, rank by 'worst' (default), "
+                           "'mean' or a quantile such as 'q0.25' of the per-snapshot score")
+    find.add_argument("--draw", metavar="FILE", help="draw the best placement on the chip "
+                      "(.png or .svg)")
+    find.add_argument("--score-map", metavar="FILE", help="draw every qubit shaded by the best "
+                      "score of any placement that uses it (.png or .svg)")
+    find.add_argument("--compare-sdk", action="store_true",
+                      help="also run qiskit's VF2Layout on the whole experiment and say where "
+                           "its choice ranks under our model")
     find.set_defaults(run=_run_find)
+
+    draw = sub.add_parser("draw", help="draw a chip, optionally with a placement of a patch")
+    draw.add_argument("chip", help="chip file (YAML)")
+    draw.add_argument("patch", nargs="?", help="patch file (optional)")
+    draw.add_argument("--output", "-o", required=True, help="picture file (.png or .svg)")
+    pick = draw.add_mutually_exclusive_group()
+    pick.add_argument("--placement", help="patch qubit=physical qubit pairs")
+    pick.add_argument("--pick", type=_positive_int, help="the placement ranked N by 'find'")
+    pick.add_argument("--score-map", action="store_true",
+                      help="shade qubits by the best score of any placement that uses them")
+    draw.add_argument("--format", choices=("text", "json"), default="text")
+    draw.set_defaults(run=_run_draw)
 
     audit = sub.add_parser("audit", help="audit every circuit of one placement, gate by gate")
     _common(audit)
@@ -169,15 +192,85 @@ def _progress():
 
 
 def _run_find(args) -> int:
-    device, patch = load_device(args.chip), load_patch(args.patch)
+    snapshots, patch = load_snapshots(args.chip), load_patch(args.patch)
+    device = snapshots[-1]
+    by = args.over_snapshots
+    if by not in ("worst", "mean") and not re.fullmatch(r"q(0(\.\d+)?|1(\.0*)?)", by):
+        raise InputError(f"--over-snapshots: '{by}' should be worst, mean or q<fraction> "
+                         "such as q0.25")
+    for target in (args.draw, args.score_map):
+        if target:
+            _check_picture_path(target)
     progress = _progress()
     vetting = vet_patch(device, patch, limit=args.limit, budget_s=args.budget_s,
                         progress=progress)
     if progress:
         print("\r" + " " * 40 + "\r", end="", file=sys.stderr)
     payload = report_data.find_dict(vetting, top=args.top)
+    if len(snapshots) > 1 and vetting.ranking.placements:
+        from .rank import rank_across_snapshots
+        payload["snapshots"] = report_data.snapshot_dict(
+            patch, rank_across_snapshots(snapshots, patch, vetting.ranking.placements, by=by),
+            top=min(args.top, 5))
+    if args.compare_sdk:
+        payload["sdk_choice"] = report_data.sdk_dict(device, patch, vetting)
+    from .report.picture import draw_placement, draw_score_map
+    if args.draw and vetting.ranking.placements:
+        draw_placement(device, args.draw, patch=patch, placement=vetting.ranking.placements[0],
+                       title=f"{patch.name} on {device.name}: best placement")
+        payload["pictures"] = {**payload.get("pictures", {}), "placement": args.draw}
+    if args.score_map and vetting.ranking.placements:
+        draw_score_map(device, patch, vetting.ranking.placements, vetting.ranking.success,
+                       args.score_map)
+        payload["pictures"] = {**payload.get("pictures", {}), "score_map": args.score_map}
     _emit(args, payload, render_find(payload))
     return 1 if args.strict and not vetting.all_swap_free else 0
+
+
+def _check_picture_path(target: str) -> None:
+    from pathlib import Path
+    path = Path(target)
+    if path.suffix.lower() not in (".png", ".svg"):
+        raise InputError(f"pictures are written as .png or .svg, not '{path.suffix or path.name}'",
+                         file=target)
+    if not path.resolve().parent.is_dir():
+        raise InputError(f"folder '{path.parent}' does not exist", file=target)
+
+
+def _run_draw(args) -> int:
+    from .report.picture import draw_placement, draw_score_map
+    _check_picture_path(args.output)
+    device = load_device(args.chip)
+    if args.patch is None:
+        if args.placement or args.pick or args.score_map:
+            raise InputError("--placement, --pick and --score-map need a patch file")
+        draw_placement(device, args.output)
+        text = f"wrote {args.output}: chip '{device.name}'"
+    else:
+        patch = load_patch(args.patch)
+        if args.placement is not None:
+            placement = _parse_placement(args.placement, patch, device)
+        else:
+            vetting = vet_patch(device, patch)
+            if not vetting.ranking.placements:
+                raise InputError(f"patch '{patch.name}' has no placement on chip "
+                                 f"'{device.name}' to draw (see 'embedcheck find')")
+            if args.score_map:
+                draw_score_map(device, patch, vetting.ranking.placements,
+                               vetting.ranking.success, args.output)
+                _emit(args, {"tool": "embedcheck", "command": "draw", "file": args.output},
+                      f"wrote {args.output}: where '{patch.name}' does best on '{device.name}'")
+                return 0
+            k = args.pick or 1
+            if k > len(vetting.ranking.placements):
+                raise InputError(f"--pick {k}: 'find' ranks only "
+                                 f"{len(vetting.ranking.placements)} placement(s)")
+            placement = vetting.ranking.placements[k - 1]
+        draw_placement(device, args.output, patch=patch, placement=placement)
+        text = f"wrote {args.output}: '{patch.name}' on '{device.name}'"
+    _emit(args, {"tool": "embedcheck", "version": __version__, "command": "draw",
+                 "file": args.output}, text)
+    return 0
 
 
 def _run_audit(args) -> int:

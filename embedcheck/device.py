@@ -48,6 +48,22 @@ class CouplerCalibration:
 
 
 @dataclass(frozen=True)
+class CalibrationArrays:
+    """Dense numpy views of one calibration snapshot (see `Device.calibration_arrays`)."""
+
+    two_qubit_error: np.ndarray      # (n, n), NaN where not coupled
+    two_qubit_ns: np.ndarray         # (n, n), NaN where not coupled
+    readout_error: np.ndarray
+    single_qubit_error: np.ndarray
+    reset_error: np.ndarray
+    single_qubit_ns: np.ndarray
+    measurement_ns: np.ndarray
+    t1_us: np.ndarray                # inf where not given
+    t2_us: np.ndarray
+    median_two_qubit_ns: float       # stands in for off-coupler gates
+
+
+@dataclass(frozen=True)
 class Device:
     """A chip with fixed couplers and one calibration snapshot.
 
@@ -163,6 +179,35 @@ class Device:
             [(index[a], index[b]) for a, b in self.live_couplers])
         # Dead qubits stay as isolated nodes so node indices match `qubits`.
         return graph
+
+    def calibration_arrays(self) -> "CalibrationArrays":
+        """Every calibration figure as a dense array indexed by physical qubit number.
+
+        Missing errors are 0 and missing durations 0; missing T1/T2 are infinite (no
+        idle error); uncoupled pairs are NaN in the coupler arrays so using one shows.
+        """
+        n = max(self.qubits) + 1 if self.qubits else 0
+        two, readout, single = self.error_arrays()
+        two_ns = np.full((n, n), np.nan)
+        for a, b in self.live_couplers:
+            cal = self.coupler_calibration.get((a, b))
+            two_ns[a, b] = two_ns[b, a] = cal.duration_ns if cal and cal.duration_ns else 0.0
+        def qubit_array(field, missing):
+            out = np.full(n, missing, dtype=float)
+            for q, cal in self.qubit_calibration.items():
+                value = getattr(cal, field)
+                if value is not None:
+                    out[q] = value
+            return out
+        known = two_ns[~np.isnan(two_ns)]
+        known = known[known > 0]
+        return CalibrationArrays(
+            two_qubit_error=two, two_qubit_ns=two_ns, readout_error=readout,
+            single_qubit_error=single, reset_error=qubit_array("reset_error", 0.0),
+            single_qubit_ns=qubit_array("single_qubit_duration_ns", 0.0),
+            measurement_ns=qubit_array("measurement_duration_ns", 0.0),
+            t1_us=qubit_array("t1_us", np.inf), t2_us=qubit_array("t2_us", np.inf),
+            median_two_qubit_ns=float(np.median(known)) if known.size else 0.0)
 
     def error_arrays(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """Dense calibration arrays indexed by physical qubit number.

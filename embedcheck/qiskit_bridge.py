@@ -217,3 +217,52 @@ def _count_two_qubit(qc) -> int:
         elif len(ins.qubits) == 2 and ins.operation.name != "barrier":
             total += 1
     return total
+
+
+def experiment_circuit(patch: Patch):
+    """The whole experiment (prep, rounds x round, readout) as one qiskit circuit on the
+    patch's qubits (qubit i is patch qubit i), or None when a circuit has no OpenQASM."""
+    from qiskit import QuantumCircuit
+
+    parts = []
+    for name, times in patch.experiment():
+        if patch.circuits[name].qasm is None:
+            return None
+        qc, names = qiskit_circuit(patch, name)
+        parts += [(qc, names)] * times
+    clbits = sum(qc.num_clbits for qc, _ in parts)
+    whole = QuantumCircuit(patch.num_qubits, clbits)
+    offset = 0
+    for qc, names in parts:
+        qubits = [patch.index[n] if n in patch.index else None for n in names]
+        if None in qubits:       # a declared qubit the patch does not use: leave it out
+            keep = [i for i, q in enumerate(qubits) if q is not None]
+            if len(keep) != len(qubits):
+                return None
+        whole.compose(qc, qubits=qubits, clbits=list(range(offset, offset + qc.num_clbits)),
+                      inplace=True)
+        offset += qc.num_clbits
+    return whole
+
+
+def sdk_layout(device: Device, patch: Patch, *, seed: int = 11, call_limit: int = 10_000_000):
+    """The placement qiskit's own VF2Layout pass picks for the whole experiment, or None.
+
+    VF2Layout searches layouts that need no routing on the chip's `Target` and keeps
+    the one its own error model likes best; it finds none when the experiment needs
+    routing everywhere.
+    """
+    from qiskit.converters import circuit_to_dag
+    from qiskit.transpiler.passes import VF2Layout
+
+    circuit = experiment_circuit(patch)
+    if circuit is None:
+        return None, "a circuit has no OpenQASM text for qiskit"
+    layout_pass = VF2Layout(target=device_target(device), seed=seed, call_limit=call_limit)
+    layout_pass.run(circuit_to_dag(circuit))
+    layout = layout_pass.property_set["layout"]
+    reason = layout_pass.property_set["VF2Layout_stop_reason"]
+    if layout is None:
+        return None, f"VF2Layout found no layout ({getattr(reason, 'value', reason)})"
+    physical = tuple(layout[circuit.qubits[i]] for i in range(patch.num_qubits))
+    return Placement(physical), "found"

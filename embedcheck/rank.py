@@ -1,20 +1,36 @@
 """Rank placements by the estimated success probability of the whole experiment.
 
-Cost model (independent errors; each error event spoils the shot; common practice,
-the "product of fidelities" estimate):
+Cost model (independent errors; any error event spoils the shot; the "product of
+fidelities" estimate, common practice):
 
-    S = prod_{2q gates g} (1 - e2[coupler(g)])
+    S = prod_{2q gates g}     (1 - e2[coupler(g)])
       * prod_{measurements m} (1 - r[qubit(m)])          (mid-circuit ones included)
-      * prod_{1q gates g} (1 - e1[qubit(g)])              (where given)
+      * prod_{1q gates g}     (1 - e1[qubit(g)])          (where given)
+      * prod_{resets}         (1 - e_reset[qubit])        (where given)
+      * prod_{circuit runs c, qubits q} (1 - p_idle(t_idle[c, q]; T1[q], T2[q]))
 
-over prep, `rounds` check rounds and readout. We report log S and its three terms,
-so a user sees why one region wins. Missing calibration figures count as 0. Gates
-that land off-coupler have no coupler error to use; they are left out of S and
-counted in `unscored_gates`, and placements are ordered by fewest unscored gates
-first, then by S (a placement that needs routing never outranks one that does not).
+over prep, `rounds` check rounds and readout. Idle times come from an
+as-soon-as-possible schedule of each circuit with the chip's durations (see
+`schedule.py`): a qubit idles from its first operation in a circuit to the circuit's
+end, whenever it is not busy. The idle error is the Pauli-twirled amplitude and
+phase damping channel (the Pauli twirling approximation, Ghosh, Fowler & Geller,
+Phys. Rev. A 86, 062318 (2012); the closed form is derived here and the tests check
+it against qiskit's Kraus operators twirled numerically):
+
+    p_x = p_y = (1 - exp(-t/T1)) / 4
+    p_z       = (1 - exp(-t/T2)) / 2 - (1 - exp(-t/T1)) / 4
+    p_idle    = p_x + p_y + p_z = (1 - exp(-t/T1)) / 4 + (1 - exp(-t/T2)) / 2
+
+(p_z >= 0 needs T2 <= 2 T1, which the chip loader enforces). We report log S and its
+terms, so a user sees why one region wins. Missing calibration figures count as 0
+(missing T1/T2: no idle error). Gates that land off-coupler have no coupler error to
+use; they are left out of S and counted in `unscored_gates`, and placements are
+ordered by fewest unscored gates first, then by S (a placement that needs routing
+never outranks one that does not).
 
 Everything is numpy over an index array of all placements at once (shape
-placements x patch qubits): no Python loop per placement.
+placements x patch qubits); the schedule loops over a circuit's operations, never
+over placements.
 
     >>> import numpy as np
     >>> from embedcheck.device import Device, CouplerCalibration
@@ -35,11 +51,12 @@ from typing import Sequence
 
 import numpy as np
 
-from .device import Device
+from .device import CalibrationArrays, Device
 from .patch import Patch
 from .search import Placement, placement_grid
 
 FIGURE = "fidelity_product"
+TERMS = ("two_qubit", "readout", "single_qubit", "reset", "idle")
 CAUTION = ("Scores are model estimates from the calibration you supplied, which drifts; "
            "confirm on hardware with the provider's own validation before relying on them.")
 
@@ -59,48 +76,218 @@ class Ranking:
         return np.exp(self.log_success)
 
 
+def idle_error(t_ns, t1_us, t2_us):
+    """Pauli-twirled amplitude and phase damping error after idling t_ns (see module doc)."""
+    t_us = np.asarray(t_ns, dtype=float) / 1000.0
+    with np.errstate(divide="ignore", invalid="ignore"):
+        decay1 = -np.expm1(-t_us / t1_us)
+        decay2 = -np.expm1(-t_us / t2_us)
+    return decay1 / 4 + decay2 / 2
+
+
 def experiment_counts(patch: Patch):
-    """Per-experiment counts: 2q gates per patch pair, measurements and 1q gates per qubit."""
+    """Per-experiment counts: 2q gates per patch pair; measurements, 1q gates, resets per qubit."""
     n = patch.num_qubits
-    measures = np.zeros(n)
-    singles = np.zeros(n)
+    counts = {kind: np.zeros(n) for kind in ("measure", "1q", "reset")}
     for name, times in patch.experiment():
         for op in patch.circuits[name].operations:
-            if op.kind == "measure":
-                measures[patch.index[op.qubits[0]]] += times
-            elif op.kind == "1q":
-                singles[patch.index[op.qubits[0]]] += times
+            if op.kind in counts:
+                counts[op.kind][patch.index[op.qubits[0]]] += times
     pairs = patch.interaction_counts([n for n, _ in patch.experiment()], weighted=True)
-    return pairs, measures, singles
+    return pairs, counts["measure"], counts["1q"], counts["reset"]
+
+
+def scores(device: Device, patch: Patch, grid: np.ndarray,
+           arrays: CalibrationArrays | None = None) -> tuple[dict, np.ndarray]:
+    """Log terms (each an array over the placements in `grid`) and unscored gate counts."""
+    cal = device.calibration_arrays() if arrays is None else arrays
+    pairs, measures, singles, resets = experiment_counts(patch)
+    count = grid.shape[0]
+    terms = {}
+    with np.errstate(divide="ignore", invalid="ignore"):   # an error of 1 gives log 0 = -inf
+        if pairs and count:
+            ab = np.array(list(pairs), dtype=np.int64)
+            weight = np.array(list(pairs.values()), dtype=float)
+            err = cal.two_qubit_error[grid[:, ab[:, 0]], grid[:, ab[:, 1]]]
+            off = np.isnan(err)
+            terms["two_qubit"] = (np.log1p(-np.where(off, 0.0, err)) * weight).sum(axis=1)
+            unscored = (off * weight).sum(axis=1).astype(np.int64)
+        else:
+            terms["two_qubit"] = np.zeros(count)
+            unscored = np.zeros(count, dtype=np.int64)
+        terms["readout"] = (np.log1p(-cal.readout_error[grid]) * measures).sum(axis=1)
+        terms["single_qubit"] = (np.log1p(-cal.single_qubit_error[grid]) * singles).sum(axis=1)
+        terms["reset"] = (np.log1p(-cal.reset_error[grid]) * resets).sum(axis=1)
+        idle = np.zeros(count)
+        for name, times in patch.experiment():
+            t_idle = idle_times(patch, name, grid, cal)
+            p = idle_error(t_idle, cal.t1_us[grid], cal.t2_us[grid])
+            idle += times * np.log1p(-p).sum(axis=1)
+        terms["idle"] = idle
+    return terms, unscored
+
+
+def idle_times(patch: Patch, circuit: str, grid: np.ndarray, cal: CalibrationArrays) -> np.ndarray:
+    """Idle ns of each patch qubit in one run of `circuit`, for every placement at once.
+
+    As-soon-as-possible schedule (same rules as `schedule.schedule_circuit`), looping
+    over the circuit's operations with numpy arrays over the placements.
+    """
+    count, n = grid.shape
+    free = np.zeros((count, n))
+    busy = np.zeros((count, n))
+    first = np.full((count, n), np.nan)
+    idx = patch.index
+    for op in patch.circuits[circuit].operations:
+        cols = [idx[q] for q in op.qubits]
+        if op.kind == "barrier":
+            free[:, cols] = free[:, cols].max(axis=1, keepdims=True)
+            continue
+        if op.kind == "2q":
+            a, b = cols
+            length = cal.two_qubit_ns[grid[:, a], grid[:, b]]
+            length = np.where(np.isnan(length), cal.median_two_qubit_ns, length)
+        elif op.kind == "1q":
+            length = cal.single_qubit_ns[grid[:, cols[0]]]
+        else:                     # measure, and reset (timed as one measurement)
+            length = cal.measurement_ns[grid[:, cols[0]]]
+        start = free[:, cols].max(axis=1)
+        for c in cols:
+            first[:, c] = np.where(np.isnan(first[:, c]), start, first[:, c])
+            free[:, c] = start + length
+            busy[:, c] += length
+    end = free.max(axis=1, keepdims=True) if n else free
+    idle = np.where(np.isnan(first), 0.0, end - np.nan_to_num(first) - busy)
+    return np.maximum(idle, 0.0)
 
 
 def rank_placements(device: Device, patch: Patch, placements: Sequence[Placement]) -> Ranking:
     """Score every placement with the cost model above and sort best first."""
-    pairs, measures, singles = experiment_counts(patch)
-    two, readout, single = device.error_arrays()
     grid = placement_grid(placements, patch.num_qubits)
-    if pairs and len(placements):
-        ab = np.array(list(pairs), dtype=np.int64)
-        weight = np.array(list(pairs.values()), dtype=float)
-        err = two[grid[:, ab[:, 0]], grid[:, ab[:, 1]]]          # (placements, pairs)
-        off = np.isnan(err)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            log_two = (np.log1p(-np.where(off, 0.0, err)) * weight).sum(axis=1)
-        unscored = (off * weight).sum(axis=1).astype(np.int64)
-    else:
-        log_two = np.zeros(len(placements))
-        unscored = np.zeros(len(placements), dtype=np.int64)
-    with np.errstate(divide="ignore"):       # an error of exactly 1 gives log 0 = -inf
-        log_read = (np.log1p(-readout[grid]) * measures).sum(axis=1) if len(placements) \
-            else log_two
-        log_single = (np.log1p(-single[grid]) * singles).sum(axis=1) if len(placements) \
-            else log_two
-    total = log_two + log_read + log_single
+    terms, unscored = scores(device, patch, grid)
+    total = sum(terms.values()) if terms else np.zeros(len(placements))
     # Fewest off-coupler (unscored) gates first, then best score; ties broken by the
     # placement itself so the order is reproducible.
     order = np.lexsort(tuple(grid[:, k] for k in range(grid.shape[1] - 1, -1, -1))
                        + (-total, unscored))
-    terms = {"two_qubit": log_two[order], "readout": log_read[order],
-             "single_qubit": log_single[order]}
-    return Ranking(FIGURE, tuple(placements[i] for i in order), total[order], terms,
-                   unscored[order])
+    return Ranking(FIGURE, tuple(placements[i] for i in order), total[order],
+                   {k: v[order] for k, v in terms.items()}, unscored[order])
+
+
+@dataclass(frozen=True)
+class SnapshotRanking:
+    """Placements ranked over several calibration snapshots.
+
+    `per_snapshot[s, i]` is log S of placement i (in ranked order) under snapshot s;
+    `aggregate` is what they are ranked by (mean, worst or a quantile of log S);
+    `winner_ranks[s]` is the winner's rank (1 = best) within snapshot s alone, and
+    `stability` the fraction of snapshots in which the winner is within the top `top_k`.
+    """
+
+    figure: str
+    by: str
+    placements: tuple[Placement, ...]
+    aggregate: np.ndarray
+    per_snapshot: np.ndarray
+    timestamps: tuple[str | None, ...]
+    winner_ranks: tuple[int, ...]
+    top_k: int
+    stability: float
+    newest_winner_rank: int       # where the newest snapshot's own winner ranks overall
+
+
+def rank_across_snapshots(snapshots: Sequence[Device], patch: Patch,
+                          placements: Sequence[Placement], *, by: str = "worst",
+                          top_k: int = 5) -> SnapshotRanking:
+    """Rank by the mean, the worst, or a quantile ('q0.25') of the per-snapshot log score."""
+    grid = placement_grid(placements, patch.num_qubits)
+    logs, unscored = [], []
+    for device in snapshots:
+        terms, off = scores(device, patch, grid)
+        logs.append(sum(terms.values()))
+        unscored.append(off)
+    logs = np.array(logs).reshape(len(snapshots), len(placements))
+    worst_off = np.max(np.array(unscored).reshape(len(snapshots), -1), axis=0) \
+        if len(placements) else np.zeros(0, dtype=np.int64)
+    if by == "mean":
+        agg = logs.mean(axis=0)
+    elif by == "worst":
+        agg = logs.min(axis=0)
+    elif by.startswith("q"):
+        agg = np.quantile(logs, float(by[1:]), axis=0)
+    else:
+        raise ValueError(f"rank by 'mean', 'worst' or 'q<fraction>', not {by!r}")
+    order = np.lexsort(tuple(grid[:, k] for k in range(grid.shape[1] - 1, -1, -1))
+                       + (-agg, worst_off))
+    logs = logs[:, order]
+    ranks = []
+    for s in range(len(snapshots)):
+        own = np.lexsort((-logs[s], worst_off[order]))
+        ranks.append(int(np.nonzero(own == 0)[0][0]) + 1 if len(placements) else 0)
+    stable = float(np.mean([r <= top_k for r in ranks])) if ranks else 0.0
+    newest = int(np.lexsort((-logs[-1], worst_off[order]))[0]) + 1 if len(placements) else 0
+    return SnapshotRanking(FIGURE, by, tuple(placements[i] for i in order), agg[order], logs,
+                           tuple(d.calibration_timestamp for d in snapshots), tuple(ranks),
+                           top_k, stable, newest)
+
+
+@dataclass(frozen=True)
+class Sensitivity:
+    """One calibration figure of the best placement and how much the score depends on it."""
+
+    item: str                 # e.g. 'coupler 53-54' or 'qubit 67'
+    figure: str               # e.g. 'two_qubit_error', 'readout_error', 't2_us'
+    value: float
+    log_contribution: float   # its share of log S (0 if the figure were perfect)
+    derivative: float         # d log S / d figure (analytic)
+
+
+def sensitivity(device: Device, patch: Patch, placement: Placement,
+                top: int = 8) -> list[Sensitivity]:
+    """The calibration figures that move this placement's log S most (analytic derivatives).
+
+    For an error e used n times, log S holds n log(1 - e), so d log S / d e = -n / (1 - e);
+    for idling, d log(1 - p) / dT = -(dp/dT) / (1 - p) with p from `idle_error`.
+    """
+    pairs, measures, singles, resets = experiment_counts(patch)
+    where = placement.physical
+    out = []
+    for (a, b), n in pairs.items():
+        p, q = sorted((where[a], where[b]))
+        cal = device.coupler_calibration.get((p, q))
+        if not device.is_coupled(p, q) or cal is None or cal.two_qubit_error is None:
+            continue
+        e = cal.two_qubit_error
+        out.append(Sensitivity(f"coupler {p}-{q}", "two_qubit_error", e, n * np.log1p(-e),
+                               -n / (1 - e)))
+    for i, phys in enumerate(where):
+        cal = device.qubit_calibration.get(phys)
+        if cal is None:
+            continue
+        for field, count in (("readout_error", measures[i]), ("single_qubit_error", singles[i]),
+                             ("reset_error", resets[i])):
+            e = getattr(cal, field)
+            if count and e is not None:
+                out.append(Sensitivity(f"qubit {phys}", field, e, count * np.log1p(-e),
+                                       -count / (1 - e)))
+        if cal.t1_us and cal.t2_us:
+            grid = placement_grid([placement], patch.num_qubits)
+            arrays = device.calibration_arrays()
+            part1 = part2 = d_t1 = d_t2 = 0.0
+            for name, times in patch.experiment():
+                t = idle_times(patch, name, grid, arrays)[0, i] / 1000.0
+                p1 = -np.expm1(-t / cal.t1_us) / 4          # the T1 part of p_idle
+                p2 = -np.expm1(-t / cal.t2_us) / 2          # the T2 part
+                p_idle = p1 + p2
+                if p_idle <= 0:
+                    continue
+                log_term = times * np.log1p(-p_idle)        # split in proportion to p1, p2
+                part1 += log_term * p1 / p_idle
+                part2 += log_term * p2 / p_idle
+                d_t1 += times * (t / cal.t1_us ** 2) * np.exp(-t / cal.t1_us) / 4 / (1 - p_idle)
+                d_t2 += times * (t / cal.t2_us ** 2) * np.exp(-t / cal.t2_us) / 2 / (1 - p_idle)
+            if part1 or part2:
+                out.append(Sensitivity(f"qubit {phys}", "t1_us", cal.t1_us, part1, d_t1))
+                out.append(Sensitivity(f"qubit {phys}", "t2_us", cal.t2_us, part2, d_t2))
+    out.sort(key=lambda s: s.log_contribution)
+    return out[:top]

@@ -8,8 +8,9 @@ common practice). A barrier makes its qubits wait for each other. A two-qubit ga
 off-coupler has no coupler duration: the chip's median coupler duration stands in and
 the schedule says so. Missing durations count as 0 and are listed in `missing`.
 
-Idle time of a qubit is the span from its first to its last operation that it spends
-waiting (the ranking's idle-error term uses it).
+Idle time of a qubit is the time from its first operation to the end of the circuit
+that it is not busy (the ranking's idle-error term uses it): a data qubit waits while
+the ancillas are measured.
 
     >>> from embedcheck.device import Device, QubitCalibration, CouplerCalibration
     >>> from embedcheck.lattices import line
@@ -72,13 +73,14 @@ def schedule_circuit(device: Device, patch: Patch, circuit: str, placement: Plac
             free[q], layer[q] = start + length, depth
             busy[q] += length
     end = max(free.values(), default=0.0)
-    idle = {q: (free[q] - first[q] - busy[q]) if q in first else 0.0 for q in patch.qubits}
+    idle = {q: (end - first[q] - busy[q]) if q in first else 0.0 for q in patch.qubits}
     return Schedule(circuit, max(layer.values(), default=0), float(end),
                     {q: float(max(v, 0.0)) for q, v in idle.items()}, tuple(sorted(missing)))
 
 
 def _median_coupler_duration(device: Device) -> float | None:
-    values = [c.duration_ns for c in device.coupler_calibration.values() if c.duration_ns]
+    values = [device.coupler_calibration[c].duration_ns for c in device.live_couplers
+              if c in device.coupler_calibration and device.coupler_calibration[c].duration_ns]
     return float(np.median(values)) if values else None
 
 
@@ -86,9 +88,10 @@ def _duration(device, op, physical, median, missing) -> float:
     cal = device.qubit_calibration
     if op.kind == "2q":
         c = device.coupler_calibration.get(pair(*physical))
-        if c is not None and c.duration_ns is not None:
+        coupled = device.is_coupled(*physical)
+        if coupled and c is not None and c.duration_ns is not None:
             return float(c.duration_ns)
-        if c is None and median is not None:
+        if not coupled and median is not None:
             missing.add("off-coupler gates timed at the median coupler duration")
             return median
         missing.add("two-qubit gate duration")

@@ -6,16 +6,23 @@ import numpy as np
 import pytest
 
 from embedcheck import load_device, load_patch, rank_placements, vet_patch
+from embedcheck.rank import idle_error
+from embedcheck.schedule import schedule_circuit
 from embedcheck.search import Placement
 from helpers import DEMO_CHIP, DEMO_PATCH, FIXED_PATCH
 
 
 def _product_by_hand(device, patch, placement):
-    """prod (1 - e) over every operation the experiment runs, one gate at a time."""
+    """prod (1 - e) over every operation the experiment runs, one gate at a time, times
+    the idle factor from the per-placement schedule (schedule.py, not the vectorised one)."""
     where = placement.as_dict(patch)
     s = 1.0
     for name, times in patch.experiment():
+        idle = schedule_circuit(device, patch, name, placement).idle_ns
         for _ in range(times):
+            for q, t in idle.items():
+                cal = device.qubit_calibration[where[q]]
+                s *= 1 - float(idle_error(t, cal.t1_us, cal.t2_us))
             for op in patch.circuits[name].operations:
                 if op.kind == "2q":
                     a, b = (where[q] for q in op.qubits)
@@ -25,6 +32,8 @@ def _product_by_hand(device, patch, placement):
                     s *= 1 - device.qubit_calibration[where[op.qubits[0]]].readout_error
                 elif op.kind == "1q":
                     s *= 1 - device.qubit_calibration[where[op.qubits[0]]].single_qubit_error
+                elif op.kind == "reset":
+                    s *= 1 - (device.qubit_calibration[where[op.qubits[0]]].reset_error or 0)
     return s
 
 

@@ -15,14 +15,19 @@ PLACEHOLDER = {"readout_error": 0.02, "single_qubit_error": 0.0005, "t1_us": 100
 
 def write_atomic(path: str | Path, text: str) -> None:
     """Write `text` to `path` through a temporary file in the same folder and a rename."""
+    write_atomic_bytes(path, text.encode("utf-8"))
+
+
+def write_atomic_bytes(path: str | Path, data: bytes) -> None:
+    """Write `data` to `path` through a temporary file in the same folder and a rename."""
     path = Path(path)
     folder = path.parent if str(path.parent) else Path(".")
     if not folder.is_dir():
         raise InputError(f"folder '{folder}' does not exist", file=str(path))
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", dir=folder)
     try:
-        with os.fdopen(fd, "w", encoding="utf-8") as out:
-            out.write(text)
+        with os.fdopen(fd, "wb") as out:
+            out.write(data)
         os.replace(tmp, path)
     except BaseException:
         if os.path.exists(tmp):

@@ -98,6 +98,8 @@ def find_dict(v: Vetting, top: int | None = 10) -> dict:
         "figure": v.ranking.figure,
         "placements": placement_rows(v.patch, v.ranking, v.off_coupler, top),
         "best_audit": audit_dict(v.patch, v.best_audit) if v.best_audit else None,
+        "sensitivity": sensitivity_rows(v.device, v.patch, v.ranking.placements[0])
+        if v.ranking.placements else [],
         "caution": CAUTION,
         "circuit_order": names,
     }
@@ -268,3 +270,43 @@ def compare_to_baseline(current: dict, baseline: dict) -> dict:
         elif not before["passed"] and e["passed"]:
             better.append(f"{where}: failed before, passes now")
     return {"worse": worse, "better": better}
+
+
+def sensitivity_rows(device, patch, placement, top: int = 5) -> list[dict]:
+    from ..rank import sensitivity
+    return [{"item": s.item, "figure": s.figure, "value": float(s.value),
+             "log_contribution": float(s.log_contribution), "derivative": float(s.derivative)}
+            for s in sensitivity(device, patch, placement, top=top)]
+
+
+def snapshot_dict(patch, robust, top: int = 5) -> dict:
+    """Ranking over calibration snapshots: the top placements, the winner's stability."""
+    rows = []
+    for i in range(min(top, len(robust.placements))):
+        logs = robust.per_snapshot[:, i]
+        rows.append({"rank": i + 1, "qubits": robust.placements[i].as_dict(patch),
+                     "aggregate_log": float(robust.aggregate[i]),
+                     "per_snapshot_success": [float(np.exp(x)) for x in logs]})
+    return {"figure": robust.figure, "by": robust.by, "count": len(robust.timestamps),
+            "timestamps": list(robust.timestamps), "top": rows,
+            "winner_ranks": list(robust.winner_ranks), "top_k": robust.top_k,
+            "stability": robust.stability, "newest_winner_rank": robust.newest_winner_rank}
+
+
+def sdk_dict(device, patch, vetting) -> dict:
+    """qiskit's VF2Layout choice and where it ranks under our model."""
+    from ..qiskit_bridge import sdk_layout
+    from ..rank import scores
+    from ..search import placement_grid
+
+    placement, status = sdk_layout(device, patch)
+    if placement is None:
+        return {"found": False, "status": status}
+    terms, off = scores(device, patch, placement_grid([placement], patch.num_qubits))
+    log_s = float(sum(t[0] for t in terms.values()))
+    better = int(np.sum((vetting.ranking.unscored_gates < off[0]) |
+                        ((vetting.ranking.unscored_gates == off[0]) &
+                         (vetting.ranking.log_success > log_s + 1e-12))))
+    return {"found": True, "status": status, "qubits": placement.as_dict(patch),
+            "success": float(np.exp(log_s)), "our_rank": better + 1,
+            "of": len(vetting.ranking.placements), "figure": vetting.ranking.figure}

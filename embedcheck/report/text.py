@@ -87,13 +87,15 @@ def render_find(d: dict) -> str:
     else:
         out.append(f"No placement makes every circuit swap-free: {', '.join(excluded)} "
                    f"need(s) routing on all of them (see the gates below).")
-    out += ["", f"  {'rank':>4} {'est. success':>12} {'log 2q':>8} {'log read':>8} {'log 1q':>8} "
-                f"{'off-coupler':>11}", "       placement (patch qubit=physical qubit)"]
+    out += ["", f"  {'rank':>4} {'success':>8}  {'log: 2q':>8} {'read':>7} {'1q':>7} "
+                f"{'reset':>7} {'idle':>7} {'off-cpl':>7}",
+            "       placement (patch qubit=physical qubit)"]
     for row in d["placements"]:
         off = sum(row["off_coupler_gates"].values())
         t = row["terms"]
-        out.append(f"  {row['rank']:>4} {row['success']:>12.4f} {t['two_qubit']:>8.4f} "
-                   f"{t['readout']:>8.4f} {t['single_qubit']:>8.4f} {off:>11}")
+        out.append(f"  {row['rank']:>4} {row['success']:>8.4f}  {t['two_qubit']:>8.4f} "
+                   f"{t['readout']:>7.4f} {t['single_qubit']:>7.4f} {t['reset']:>7.4f} "
+                   f"{t['idle']:>7.4f} {off:>7}")
         out.append(f"       {_placement(row['qubits'])}")
     if s["distinct_placements"] > len(d["placements"]):
         out.append(f"  ... {s['distinct_placements'] - len(d['placements'])} more (use --top)")
@@ -102,9 +104,40 @@ def render_find(d: dict) -> str:
         out += ["", "On the best placement, these gates land on uncoupled qubits "
                     "(exact; a router would add SWAPs, 3 two-qubit gates each):"]
         out += _off_gates(best)
-    out += ["", f"Score: {d['figure']} = product of (1 - error) over every gate and measurement "
-                "of the experiment (README, 'Cost model'); off-coupler gates are not scored.",
-            d["caution"]]
+    if d.get("sensitivity"):
+        out += ["", "What moves the best placement's score most (log contribution; d log S / d "
+                    "figure):"]
+        for r in d["sensitivity"]:
+            out.append(f"  {r['item']:<14} {r['figure']:<19} {r['value']:>9.4g}  "
+                       f"{r['log_contribution']:>8.4f}  {r['derivative']:>10.4g}")
+    snap = d.get("snapshots")
+    if snap:
+        out += ["", f"Across {snap['count']} calibration snapshots, ranked by the {snap['by']} "
+                    f"{snap['figure']}:"]
+        for r in snap["top"]:
+            each = " ".join(f"{x:.4f}" for x in r["per_snapshot_success"])
+            out.append(f"  {r['rank']:>4}  per snapshot {each}  {_placement(r['qubits'])}")
+        kept = round(snap["stability"] * snap["count"])
+        out.append(f"  The winner is in the top {snap['top_k']} of {kept} of {snap['count']} "
+                   f"snapshots (its rank in each: {', '.join(map(str, snap['winner_ranks']))}); "
+                   f"the newest snapshot's own winner ranks {snap['newest_winner_rank']} here.")
+        if snap["newest_winner_rank"] != 1:
+            out.append(f"  The robust choice differs from the newest snapshot's best: prefer it "
+                       f"if the calibration drifts as it has.")
+    sdk = d.get("sdk_choice")
+    if sdk:
+        out.append("")
+        if sdk["found"]:
+            out.append(f"qiskit's VF2Layout picks {_placement(sdk['qubits'])}: est. success "
+                       f"{sdk['success']:.4f}, rank {sdk['our_rank']} of {sdk['of']} under our "
+                       f"{sdk['figure']}.")
+        else:
+            out.append(f"qiskit's VF2Layout: {sdk['status']}.")
+    for kind, path in d.get("pictures", {}).items():
+        out.append(f"Wrote the {kind.replace('_', ' ')} picture: {path}")
+    out += ["", f"Score: {d['figure']} = product of (1 - error) over every gate, measurement, "
+                "reset and idle period of the experiment (README, 'Cost model'); off-coupler "
+                "gates are not scored.", d["caution"]]
     return "\n".join(_fold(line) for line in out)
 
 
@@ -130,9 +163,9 @@ def render_audit(d: dict) -> str:
         out += ["", "Off-coupler gates (exact):"] + lines
     score = d.get("score")
     if score:
+        terms = ", ".join(f"{k.replace('_', ' ')} {v:.4f}" for k, v in score["terms"].items())
         out += ["", f"Estimated success ({score['figure']}): {score['success']:.4f} "
-                    f"(log: 2q {score['terms']['two_qubit']:.4f}, readout "
-                    f"{score['terms']['readout']:.4f}, 1q {score['terms']['single_qubit']:.4f})"]
+                    f"(log terms: {terms})"]
         if not math.isclose(score["unscored_gates"], 0):
             out.append(f"  {score['unscored_gates']} off-coupler gate(s) are not in the score.")
     written = d.get("written")

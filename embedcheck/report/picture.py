@@ -1,0 +1,165 @@
+"""Pictures of a chip: couplers shaded by error, dead parts marked, a placement on top,
+or every qubit shaded by the best score of any placement that uses it.
+
+Colours: couplers and the score map use matplotlib's `cividis` colour map (designed
+to read the same with colour-vision deficiency: Nunez, Anderton & Renslow, PLoS ONE
+13, e0199239 (2018)); roles use three colours from the Okabe-Ito palette (Okabe & Ito,
+"Color Universal Design", 2008) *and* three marker shapes, so they differ even in grey.
+Written as PNG or SVG by the file suffix, with matplotlib's Agg backend (no screen).
+"""
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+
+from ..device import Device
+from ..patch import Patch
+from ..search import Placement
+
+ROLE_STYLE = {"data": ("o", "#0072B2"), "flag": ("^", "#E69F00"), "ancilla": ("s", "#009E73")}
+DEAD = "#D55E00"
+
+
+def _figure(device: Device):
+    import matplotlib
+    matplotlib.use("Agg", force=True)
+    import matplotlib.pyplot as plt
+
+    xs = [xy[0] for xy in device.positions.values()] or [0]
+    ys = [xy[1] for xy in device.positions.values()] or [0]
+    width = max(5.0, min(18.0, (max(xs) - min(xs) + 2) * 0.45))
+    height = max(3.5, min(18.0, (max(ys) - min(ys) + 2) * 0.45 + 1.0))
+    fig, ax = plt.subplots(figsize=(width, height), dpi=100)
+    ax.set_aspect("equal")
+    ax.invert_yaxis()                       # row 0 at the top, as the qubits are numbered
+    ax.axis("off")
+    return plt, fig, ax
+
+
+def _positions(device: Device) -> dict:
+    if len(device.positions) == device.num_qubits:
+        return dict(device.positions)
+    # No drawing positions: a spring layout of the coupling graph (networkx), seeded.
+    import networkx as nx
+    g = nx.Graph()
+    g.add_nodes_from(device.qubits)
+    g.add_edges_from(device.couplers)
+    pos = nx.spring_layout(g, seed=7)
+    scale = max(4.0, np.sqrt(device.num_qubits))
+    return {q: (float(x) * scale, float(y) * scale) for q, (x, y) in pos.items()}
+
+
+def _draw_couplers(ax, device: Device, pos, highlight=frozenset()):
+    import matplotlib as mpl
+    from matplotlib.collections import LineCollection
+
+    errors = [device.coupler_calibration[c].two_qubit_error for c in device.live_couplers
+              if c in device.coupler_calibration
+              and device.coupler_calibration[c].two_qubit_error is not None]
+    lo, hi = (min(errors), max(errors)) if errors else (0.0, 1.0)
+    norm = mpl.colors.Normalize(vmin=lo, vmax=hi if hi > lo else lo + 1e-9)
+    cmap = mpl.colormaps["cividis_r"]
+    live, colours, widths = [], [], []
+    for c in device.live_couplers:
+        cal = device.coupler_calibration.get(c)
+        err = cal.two_qubit_error if cal and cal.two_qubit_error is not None else lo
+        live.append([pos[c[0]], pos[c[1]]])
+        colours.append(cmap(norm(err)))
+        widths.append(4.5 if c in highlight else 2.0)
+    ax.add_collection(LineCollection(live, colors=colours, linewidths=widths, zorder=1,
+                                     gid="couplers"))
+    dead = [[pos[a], pos[b]] for a, b in device.couplers if (a, b) not in set(device.live_couplers)]
+    if dead:
+        ax.add_collection(LineCollection(dead, colors=DEAD, linewidths=1.5, linestyles="dotted",
+                                         zorder=1, gid="dead couplers"))
+    sm = mpl.cm.ScalarMappable(norm=norm, cmap=cmap)
+    return sm
+
+
+def draw_placement(device: Device, path: str | Path | None = None, *, patch: Patch | None = None,
+                   placement: Placement | None = None, title: str | None = None):
+    """Draw the chip, and the placement on top when given; write `path` (PNG/SVG); return the figure."""
+    plt, fig, ax = _figure(device)
+    pos = _positions(device)
+    where = placement.as_dict(patch) if placement is not None else {}
+    edges = set()
+    if placement is not None:
+        for (a, b) in patch.interaction_counts():
+            p, q = where[patch.qubits[a]], where[patch.qubits[b]]
+            edges.add((min(p, q), max(p, q)))
+    sm = _draw_couplers(ax, device, pos, frozenset(edges))
+    used = set(where.values())
+    live = [q for q in device.live_qubits if q not in used]
+    ax.scatter([pos[q][0] for q in live], [pos[q][1] for q in live], s=30, c="#BBBBBB",
+               edgecolors="#666666", linewidths=0.5, zorder=2, label="free qubit", gid="free")
+    dead = sorted(device.dead_qubits)
+    if dead:
+        ax.scatter([pos[q][0] for q in dead], [pos[q][1] for q in dead], s=60, marker="x",
+                   c=DEAD, zorder=2, label="dead qubit", gid="dead qubits")
+    if any(c not in set(device.live_couplers) for c in device.couplers):
+        ax.plot([], [], color=DEAD, linestyle="dotted", label="dead coupler")
+    for role, (marker, colour) in ROLE_STYLE.items():
+        qs = [where[q] for q in patch.qubits_with_role(role)] if patch and where else []
+        if qs:
+            ax.scatter([pos[q][0] for q in qs], [pos[q][1] for q in qs], s=150, marker=marker,
+                       c=colour, edgecolors="black", linewidths=1.0, zorder=3, label=role, gid=role)
+            if len(qs) <= 60:
+                for name in patch.qubits_with_role(role):
+                    x, y = pos[where[name]]
+                    ax.annotate(name, (x, y), textcoords="offset points", xytext=(0, 9),
+                                ha="center", fontsize=7, zorder=4)
+    fig.colorbar(sm, ax=ax, shrink=0.7, pad=0.02, label="two-qubit error (light: low)")
+    ax.legend(loc="upper center", bbox_to_anchor=(0.5, 0.0), ncol=6, fontsize=8, frameon=False,
+              markerscale=0.7)
+    ax.set_title(title or f"{device.name}" + (f" with {patch.name}" if patch else ""), fontsize=10)
+    ax.autoscale_view()
+    return _save(plt, fig, path)
+
+
+def draw_score_map(device: Device, patch: Patch, placements, success, path=None, *, title=None):
+    """Shade each qubit by the best estimated success of any placement that uses it."""
+    import matplotlib as mpl
+
+    plt, fig, ax = _figure(device)
+    pos = _positions(device)
+    _draw_couplers(ax, device, pos)
+    grid = np.array([p.physical for p in placements], dtype=np.int64).reshape(len(placements), -1)
+    top = np.full(max(device.qubits) + 1, -np.inf)
+    for col in range(grid.shape[1]):                 # per patch qubit, not per placement
+        np.maximum.at(top, grid[:, col], np.asarray(success, dtype=float))
+    best = {int(q): float(top[q]) for q in np.nonzero(np.isfinite(top))[0]}
+    shaded = sorted(best)
+    other = [q for q in device.live_qubits if q not in best]
+    ax.scatter([pos[q][0] for q in other], [pos[q][1] for q in other], s=30, c="#DDDDDD",
+               edgecolors="#888888", linewidths=0.5, zorder=2, label="in no placement", gid="unused")
+    if shaded:
+        values = [best[q] for q in shaded]
+        points = ax.scatter([pos[q][0] for q in shaded], [pos[q][1] for q in shaded], s=90,
+                            c=values, cmap=mpl.colormaps["cividis"], edgecolors="black",
+                            linewidths=0.5, zorder=3, gid="scored")
+        fig.colorbar(points, ax=ax, shrink=0.7, pad=0.02, label="best est. success using it")
+    dead = sorted(device.dead_qubits)
+    if dead:
+        ax.scatter([pos[q][0] for q in dead], [pos[q][1] for q in dead], s=60, marker="x",
+                   c=DEAD, zorder=2, label="dead qubit", gid="dead qubits")
+    ax.legend(loc="upper center", bbox_to_anchor=(0.5, 0.0), ncol=6, fontsize=8, frameon=False,
+              markerscale=0.7)
+    ax.set_title(title or f"Where {patch.name} does best on {device.name}", fontsize=10)
+    ax.autoscale_view()
+    return _save(plt, fig, path)
+
+
+def _save(plt, fig, path):
+    if path is not None:
+        from ..io.writers import write_atomic_bytes
+        import io
+        suffix = Path(path).suffix.lower().lstrip(".") or "png"
+        if suffix not in ("png", "svg"):
+            from ..io.errors import InputError
+            raise InputError(f"pictures are written as .png or .svg, not .{suffix}", file=str(path))
+        buffer = io.BytesIO()
+        fig.savefig(buffer, format=suffix, bbox_inches="tight")
+        write_atomic_bytes(path, buffer.getvalue())
+        plt.close(fig)
+    return fig
