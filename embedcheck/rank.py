@@ -131,34 +131,48 @@ def idle_times(patch: Patch, circuit: str, grid: np.ndarray, cal: CalibrationArr
     """Idle ns of each patch qubit in one run of `circuit`, for every placement at once.
 
     As-soon-as-possible schedule (same rules as `schedule.schedule_circuit`), looping
-    over the circuit's operations with numpy arrays over the placements.
+    over the circuit's operations with numpy arrays over the placements. Durations
+    are gathered once per qubit and per interacting pair; the working arrays are
+    (qubits x placements) so that each qubit's row is contiguous in memory.
     """
     count, n = grid.shape
-    free = np.zeros((count, n))
-    busy = np.zeros((count, n))
-    first = np.full((count, n), np.nan)
+    ops = patch.circuits[circuit].operations
     idx = patch.index
-    for op in patch.circuits[circuit].operations:
+    rows = np.ascontiguousarray(grid.T)                     # (qubits, placements)
+    single_ns = cal.single_qubit_ns[rows]
+    measure_ns = cal.measurement_ns[rows]
+    pairs = sorted({tuple(idx[q] for q in op.qubits) for op in ops if op.kind == "2q"})
+    column = {p: k for k, p in enumerate(pairs)}
+    if pairs:
+        ab = np.array(pairs, dtype=np.int64)
+        two_ns = cal.two_qubit_ns[rows[ab[:, 0]], rows[ab[:, 1]]]     # (pairs, placements)
+        two_ns = np.where(np.isnan(two_ns), cal.median_two_qubit_ns, two_ns)
+    free = np.zeros((n, count))
+    busy = np.zeros((n, count))
+    first = np.zeros((n, count))
+    started = np.zeros(n, dtype=bool)
+    for op in ops:
         cols = [idx[q] for q in op.qubits]
         if op.kind == "barrier":
-            free[:, cols] = free[:, cols].max(axis=1, keepdims=True)
+            free[cols] = free[cols].max(axis=0)
             continue
         if op.kind == "2q":
             a, b = cols
-            length = cal.two_qubit_ns[grid[:, a], grid[:, b]]
-            length = np.where(np.isnan(length), cal.median_two_qubit_ns, length)
-        elif op.kind == "1q":
-            length = cal.single_qubit_ns[grid[:, cols[0]]]
-        else:                     # measure, and reset (timed as one measurement)
-            length = cal.measurement_ns[grid[:, cols[0]]]
-        start = free[:, cols].max(axis=1)
+            length = two_ns[column[(a, b)]]
+            start = np.maximum(free[a], free[b])
+        else:
+            (a,) = cols
+            length = single_ns[a] if op.kind == "1q" else measure_ns[a]
+            start = free[a].copy()
         for c in cols:
-            first[:, c] = np.where(np.isnan(first[:, c]), start, first[:, c])
-            free[:, c] = start + length
-            busy[:, c] += length
-    end = free.max(axis=1, keepdims=True) if n else free
-    idle = np.where(np.isnan(first), 0.0, end - np.nan_to_num(first) - busy)
-    return np.maximum(idle, 0.0)
+            if not started[c]:
+                started[c] = True
+                first[c] = start
+            np.add(start, length, out=free[c])
+            busy[c] += length
+    finish = free.max(axis=0) if n else free
+    idle = np.where(started[:, None], finish - first - busy, 0.0)
+    return np.maximum(idle, 0.0).T
 
 
 def rank_placements(device: Device, patch: Patch, placements: Sequence[Placement]) -> Ranking:

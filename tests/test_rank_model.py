@@ -1,0 +1,258 @@
+"""The cost model by hand, against qiskit's Kraus channels, over snapshots, and in pictures."""
+import math
+import random
+import struct
+
+import numpy as np
+import pytest
+
+from embedcheck import Device, load_device, load_patch, rank_placements, vet_patch
+from embedcheck.cli import main
+from embedcheck.device import CouplerCalibration, QubitCalibration
+from embedcheck.lattices import heavy_hex, line
+from embedcheck.patch import Circuit, Operation, Patch
+from embedcheck.rank import idle_error, rank_across_snapshots, scores, sensitivity
+from embedcheck.report.picture import draw_placement, draw_score_map
+from embedcheck.search import Placement, find_placements, placement_grid
+from embedcheck.schedule import schedule_circuit
+from helpers import DEMO_CHIP, FIXED_PATCH
+
+
+def test_worked_example_by_hand():
+    # Chip: a line 0-1-2. Patch: a, b; round = h a; cx a b; measure b (run twice);
+    # readout = measure a, measure b.
+    cal = {0: QubitCalibration(readout_error=0.02, single_qubit_error=0.001, t1_us=100.0,
+                               t2_us=50.0, single_qubit_duration_ns=50.0,
+                               measurement_duration_ns=1000.0),
+           1: QubitCalibration(readout_error=0.05, single_qubit_error=0.002, t1_us=100.0,
+                               t2_us=100.0, single_qubit_duration_ns=50.0,
+                               measurement_duration_ns=1000.0)}
+    dev = Device.from_lattice(line(2), name="pair", qubit_calibration=cal,
+                              coupler_calibration={(0, 1): CouplerCalibration(0.01, 300.0)})
+    round_ops = (Operation("h", ("a",), "1q"), Operation("cx", ("a", "b"), "2q"),
+                 Operation("measure", ("b",), "measure"))
+    readout = (Operation("measure", ("a",), "measure"), Operation("measure", ("b",), "measure"))
+    patch = Patch("toy", ("a", "b"), {"a": "data", "b": "ancilla"},
+                  {"round": Circuit("round", round_ops), "readout": Circuit("readout", readout)},
+                  rounds=2)
+    (ranked,) = rank_placements(dev, patch, [Placement((0, 1))]).success
+    # Per round: h on a (0..50 ns), cx (50..350), measure b (350..1350): the round ends at
+    # 1350 ns; a is busy 350 ns from its start at 0, so idles 1000 ns; b starts at 50,
+    # is busy 1300 ns, idles 0. Readout: both measured at once, no idling.
+    p_idle_a = (1 - math.exp(-1.0 / 100)) / 4 + (1 - math.exp(-1.0 / 50)) / 2
+    by_hand = ((1 - 0.001) * (1 - 0.01) * (1 - 0.05) * (1 - p_idle_a)) ** 2 \
+        * (1 - 0.02) * (1 - 0.05)
+    assert ranked == pytest.approx(by_hand, rel=1e-12)
+    s = schedule_circuit(dev, patch, "round", Placement((0, 1)))
+    assert s.duration_ns == 1350 and s.idle_ns == {"a": 1000.0, "b": 0.0}
+
+
+def _kraus_twirled_error(t_us, t1_us, t2_us):
+    """1 - p_I of the Pauli twirl of amplitude damping composed with phase damping,
+    built as qiskit quantum_info Kraus channels and read off their Pauli transfer matrix."""
+    from qiskit.quantum_info import PTM, Kraus
+
+    gamma = 1 - math.exp(-t_us / t1_us)
+    amp = Kraus([np.array([[1, 0], [0, math.sqrt(1 - gamma)]]),
+                 np.array([[0, math.sqrt(gamma)], [0, 0]])])
+    # Pure dephasing so that coherences decay as exp(-t/T2) in all: 1/T_phi = 1/T2 - 1/(2 T1).
+    rate = 1 / t2_us - 1 / (2 * t1_us)
+    lam = 1 - math.exp(-2 * t_us * rate)
+    phase = Kraus([np.array([[1, 0], [0, math.sqrt(1 - lam)]]),
+                   np.array([[0, 0], [0, math.sqrt(lam)]])])
+    ptm = np.real(PTM(amp.compose(phase)).data)
+    p_identity = (1 + ptm[1, 1] + ptm[2, 2] + ptm[3, 3]) / 4
+    return 1 - p_identity
+
+
+@pytest.mark.parametrize("t_us,t1,t2", [(0.5, 100, 80), (2.0, 60, 30), (10.0, 50, 100),
+                                        (1.0, 200, 399), (30.0, 40, 10)])
+def test_idle_error_matches_twirled_kraus_channel(t_us, t1, t2):
+    # Reference: qiskit.quantum_info Kraus operators of amplitude and phase damping,
+    # Pauli-twirled numerically through the Pauli transfer matrix.
+    assert float(idle_error(t_us * 1000, t1, t2)) == pytest.approx(
+        _kraus_twirled_error(t_us, t1, t2), rel=1e-9)
+
+
+def test_no_decoherence_means_no_idle_error():
+    assert float(idle_error(5000.0, np.inf, np.inf)) == 0.0
+    assert float(idle_error(0.0, 50.0, 40.0)) == 0.0
+
+
+def test_vectorised_scores_equal_a_per_placement_reference_on_random_calibrations():
+    rng = random.Random(4)
+    lat = heavy_hex(2, 3)
+    patch = load_patch(FIXED_PATCH)
+    for trial in range(3):
+        qcal = {q: QubitCalibration(readout_error=rng.uniform(0, 0.05),
+                                    single_qubit_error=rng.uniform(0, 1e-3),
+                                    reset_error=rng.uniform(0, 0.01), t1_us=rng.uniform(30, 200),
+                                    t2_us=rng.uniform(10, 60),
+                                    single_qubit_duration_ns=rng.uniform(20, 60),
+                                    measurement_duration_ns=rng.uniform(300, 1500))
+                for q in lat.qubits}
+        ccal = {c: CouplerCalibration(rng.uniform(0.001, 0.05), rng.uniform(150, 600))
+                for c in lat.couplers}
+        dev = Device.from_lattice(lat, name="r", qubit_calibration=qcal, coupler_calibration=ccal)
+        placements = list(find_placements(dev, patch, limit=None).placements)
+        terms, _ = scores(dev, patch, placement_grid(placements, patch.num_qubits))
+        total = sum(terms.values())
+        for i, placement in enumerate(placements):
+            assert total[i] == pytest.approx(_reference_log(dev, patch, placement), rel=1e-10)
+
+
+def _reference_log(dev, patch, placement):
+    """log S one operation at a time, with the per-placement schedule of schedule.py."""
+    where = placement.as_dict(patch)
+    log = 0.0
+    for name, times in patch.experiment():
+        s = schedule_circuit(dev, patch, name, placement)
+        one = 0.0
+        for op in patch.circuits[name].operations:
+            q = dev.qubit_calibration[where[op.qubits[0]]]
+            if op.kind == "2q":
+                a, b = sorted(where[x] for x in op.qubits)
+                one += math.log1p(-dev.coupler_calibration[(a, b)].two_qubit_error)
+            elif op.kind == "measure":
+                one += math.log1p(-q.readout_error)
+            elif op.kind == "1q":
+                one += math.log1p(-q.single_qubit_error)
+            elif op.kind == "reset":
+                one += math.log1p(-q.reset_error)
+        for name_q, t in s.idle_ns.items():
+            c = dev.qubit_calibration[where[name_q]]
+            one += math.log1p(-float(idle_error(t, c.t1_us, c.t2_us)))
+        log += times * one
+    return log
+
+
+def _two_region_snapshots():
+    """A chip with two regions; A is a hair better on day 1 and much worse on day 2."""
+    lat = line(8)
+    patch = Patch("pair", ("a", "b"), {"a": "data", "b": "ancilla"},
+                  {"round": Circuit("round", (Operation("cx", ("a", "b"), "2q"),))})
+    def day(err_a, err_b, stamp):
+        ccal = {c: CouplerCalibration(0.2) for c in lat.couplers}
+        ccal[(1, 2)] = CouplerCalibration(err_a)         # region A
+        ccal[(5, 6)] = CouplerCalibration(err_b)         # region B
+        return Device.from_lattice(lat, name="two-regions", coupler_calibration=ccal,
+                                   calibration_timestamp=stamp)
+    return [day(0.0099, 0.0100, "2026-11-29T06:00:00Z"),
+            day(0.0900, 0.0100, "2026-11-30T06:00:00Z")], patch
+
+
+def test_robust_ranking_prefers_the_region_that_stays_good():
+    snapshots, patch = _two_region_snapshots()
+    placements = list(find_placements(snapshots[0], patch, limit=None).placements)
+    day1 = rank_placements(snapshots[0], patch, placements)
+    assert set(day1.placements[0].physical) == {1, 2}            # A wins day 1 by a hair
+    robust = rank_across_snapshots(snapshots, patch, placements, by="worst", top_k=1)
+    assert set(robust.placements[0].physical) == {5, 6}          # B is the robust choice
+    mean = rank_across_snapshots(snapshots, patch, placements, by="mean")
+    assert set(mean.placements[0].physical) == {5, 6}
+    # (1,2) and (2,1) are distinct placements (a and b have different roles): B is 3rd on day 1.
+    assert robust.winner_ranks[0] == 3 and robust.winner_ranks[1] <= 2 and robust.stability == 0.5
+
+
+def test_robust_ranking_in_the_report(tmp_path, capsys):
+    text = """embedcheck_chip: 1
+name: two-regions
+family: {kind: line, size: 8}
+snapshots:
+  - timestamp: '2026-11-29T06:00:00Z'
+    defaults: {two_qubit_error: 0.2}
+    couplers: [{coupler: [1, 2], two_qubit_error: 0.0099}, {coupler: [5, 6], two_qubit_error: 0.01}]
+  - timestamp: '2026-11-30T06:00:00Z'
+    defaults: {two_qubit_error: 0.2}
+    couplers: [{coupler: [1, 2], two_qubit_error: 0.09}, {coupler: [5, 6], two_qubit_error: 0.01}]
+"""
+    (tmp_path / "chip.yaml").write_text(text)
+    (tmp_path / "pair.qasm").write_text('OPENQASM 2.0;\ninclude "qelib1.inc";\nqreg q[2];\n'
+                                        'creg c[1];\ncx q[0], q[1];\nmeasure q[1] -> c[0];\n'
+                                        'reset q[1];\ncx q[0], q[1];\n')
+    assert main(["find", str(tmp_path / "chip.yaml"), str(tmp_path / "pair.qasm"),
+                 "--format", "json"]) == 0
+    import json
+    data = json.loads(capsys.readouterr().out)
+    top = data["snapshots"]["top"][0]["qubits"]
+    assert set(top.values()) == {5, 6}
+    assert data["snapshots"]["newest_winner_rank"] == 1          # day 2's winner is B too
+    assert main(["find", str(tmp_path / "chip.yaml"), str(tmp_path / "pair.qasm")]) == 0
+    assert "Across 2 calibration snapshots, ranked by the worst" in capsys.readouterr().out
+
+
+def test_sensitivity_derivatives_match_finite_differences():
+    dev, patch = load_device(DEMO_CHIP), load_patch(FIXED_PATCH)
+    best = vet_patch(dev, patch).ranking.placements[0]
+    base = rank_placements(dev, patch, [best]).log_success[0]
+    rows = sensitivity(dev, patch, best, top=12)
+    assert rows and rows == sorted(rows, key=lambda r: r.log_contribution)
+    from dataclasses import replace
+    for row in rows:
+        h = 1e-7 * max(1.0, row.value)
+        if row.item.startswith("coupler"):
+            c = tuple(int(x) for x in row.item.split()[1].split("-"))
+            cal = dict(dev.coupler_calibration)
+            cal[c] = replace(cal[c], **{row.figure: row.value + h})
+            moved = replace(dev, coupler_calibration=cal)
+        else:
+            q = int(row.item.split()[1])
+            cal = dict(dev.qubit_calibration)
+            cal[q] = replace(cal[q], **{row.figure: row.value + h})
+            moved = replace(dev, qubit_calibration=cal)
+        slope = (rank_placements(moved, patch, [best]).log_success[0] - base) / h
+        assert slope == pytest.approx(row.derivative, rel=1e-3, abs=1e-9), row
+
+
+def _png_size(path):
+    head = path.read_bytes()[:24]
+    assert head[:8] == b"\x89PNG\r\n\x1a\n"
+    return struct.unpack(">II", head[16:24])
+
+
+def test_pictures_show_the_placement(tmp_path):
+    dev, patch = load_device(DEMO_CHIP), load_patch(FIXED_PATCH)
+    vetting = vet_patch(dev, patch)
+    out = tmp_path / "best.png"
+    fig = draw_placement(dev, out, patch=patch, placement=vetting.ranking.placements[0])
+    width, height = _png_size(out)
+    assert out.stat().st_size > 10_000 and 500 < width < 3000 and 200 < height < 3000
+    ax = fig.axes[0]
+    drawn = {c.get_gid(): len(c.get_offsets()) for c in ax.collections if c.get_gid()}
+    assert drawn["data"] == 4 and drawn["flag"] == 2 and drawn["ancilla"] == 1
+    assert drawn["free"] == dev.num_qubits - 7
+    assert {"data", "flag", "ancilla", "free qubit", "dead coupler"} <= {
+        t.get_text() for t in ax.get_legend().get_texts()}
+    svg = tmp_path / "best.svg"
+    draw_placement(dev, svg, patch=patch, placement=vetting.ranking.placements[0])
+    assert svg.read_text().lstrip().startswith("<?xml")
+    heat = tmp_path / "map.png"
+    fig = draw_score_map(dev, patch, vetting.ranking.placements, vetting.ranking.success, heat)
+    scored = next(c for c in fig.axes[0].collections if c.get_gid() == "scored")
+    used = {q for p in vetting.ranking.placements for q in p.physical}
+    assert len(scored.get_offsets()) == len(used)
+    assert max(scored.get_array()) == pytest.approx(vetting.ranking.success[0])
+
+
+def test_draw_command_and_find_options(tmp_path, capsys):
+    assert main(["draw", str(DEMO_CHIP), str(FIXED_PATCH), "--pick", "2",
+                 "-o", str(tmp_path / "p.png")]) == 0
+    assert main(["draw", str(DEMO_CHIP), "-o", str(tmp_path / "chip.svg")]) == 0
+    assert main(["draw", str(DEMO_CHIP), "-o", str(tmp_path / "chip.jpg")]) == 2
+    assert main(["find", str(DEMO_CHIP), str(FIXED_PATCH), "--draw", str(tmp_path / "f.png"),
+                 "--score-map", str(tmp_path / "m.svg"), "--compare-sdk"]) == 0
+    out = capsys.readouterr().out
+    assert (tmp_path / "f.png").stat().st_size > 0 and (tmp_path / "m.svg").stat().st_size > 0
+    assert "qiskit's VF2Layout picks" in out and "under our fidelity_product" in out
+
+
+def test_sdk_choice_is_swap_free_and_ranked():
+    # Reference: qiskit's VF2Layout pass on the chip's Target.
+    from embedcheck import audit_placement
+    from embedcheck.qiskit_bridge import sdk_layout
+    dev, patch = load_device(DEMO_CHIP), load_patch(FIXED_PATCH)
+    placement, status = sdk_layout(dev, patch)
+    assert status == "found" and audit_placement(dev, patch, placement).swap_free
+    from embedcheck.io.patchfile import load_patch as lp
+    naive, status = sdk_layout(dev, lp(FIXED_PATCH.parent / "flagged_weight4.yaml"))
+    assert naive is None and "no layout" in status
