@@ -10,6 +10,8 @@ import json
 import re
 import sys
 
+import numpy as np
+
 from . import __version__
 from .audit import audit_placement
 from .io.chipfile import load_device, load_snapshots
@@ -66,6 +68,20 @@ def _parser() -> argparse.ArgumentParser:
                       "(.png or .svg)")
     find.add_argument("--score-map", metavar="FILE", help="draw every qubit shaded by the best "
                       "score of any placement that uses it (.png or .svg)")
+    find.add_argument("--figure", choices=("auto", "undetected", "kept", "fidelity_product"),
+                      default="auto",
+                      help="what ranks the placements: 'undetected' (lowest-order rate of "
+                           "logical errors no detector sees, from stim's detector error model), "
+                           "'kept' (fraction of shots kept by post-selection) or "
+                           "'fidelity_product'; 'auto' (default) takes 'undetected' when the "
+                           "patch declares detectors and an observable and every circuit is "
+                           "swap-free, else 'fidelity_product'")
+    find.add_argument("--monte-carlo", type=_positive_int, metavar="SHOTS",
+                      help="also sample SHOTS noisy shots of each listed placement with stim")
+    find.add_argument("--decode", action="store_true",
+                      help="with --monte-carlo, also decode by matching (pymatching)")
+    find.add_argument("--processes", type=_positive_int, default=1,
+                      help="worker processes for the logical scores (default 1)")
     find.add_argument("--compare-sdk", action="store_true",
                       help="also run qiskit's VF2Layout on the whole experiment and say where "
                            "its choice ranks under our model")
@@ -207,6 +223,13 @@ def _run_find(args) -> int:
     if progress:
         print("\r" + " " * 40 + "\r", end="", file=sys.stderr)
     payload = report_data.find_dict(vetting, top=args.top)
+    logical = _logical_ranking(args, device, patch, vetting)
+    if logical is not None:
+        payload["logical"] = report_data.logical_dict(patch, logical, args.top)
+        payload["figure"] = logical.figure
+    elif args.figure in ("undetected", "kept"):
+        raise InputError(f"--figure {args.figure}: no placement makes every circuit swap-free, "
+                         "so there is no noisy circuit to score; use fidelity_product")
     if len(snapshots) > 1 and vetting.ranking.placements:
         from .rank import rank_across_snapshots
         payload["snapshots"] = report_data.snapshot_dict(
@@ -216,15 +239,51 @@ def _run_find(args) -> int:
         payload["sdk_choice"] = report_data.sdk_dict(device, patch, vetting)
     from .report.picture import draw_placement, draw_score_map
     if args.draw and vetting.ranking.placements:
-        draw_placement(device, args.draw, patch=patch, placement=vetting.ranking.placements[0],
+        best = logical.placements[0] if logical is not None else vetting.ranking.placements[0]
+        draw_placement(device, args.draw, patch=patch, placement=best,
                        title=f"{patch.name} on {device.name}: best placement")
         payload["pictures"] = {**payload.get("pictures", {}), "placement": args.draw}
     if args.score_map and vetting.ranking.placements:
-        draw_score_map(device, patch, vetting.ranking.placements, vetting.ranking.success,
-                       args.score_map)
+        if logical is not None:
+            values = -np.log10(np.maximum(logical.undetected, 1e-12)) \
+                if logical.figure == "undetected" else logical.kept
+            label = "-log10 undetected rate" if logical.figure == "undetected" else \
+                "kept fraction"
+            draw_score_map(device, patch, logical.placements, values, args.score_map,
+                           label=f"best {label} using it (higher is better)")
+        else:
+            draw_score_map(device, patch, vetting.ranking.placements, vetting.ranking.success,
+                           args.score_map)
         payload["pictures"] = {**payload.get("pictures", {}), "score_map": args.score_map}
     _emit(args, payload, render_find(payload))
     return 1 if args.strict and not vetting.all_swap_free else 0
+
+
+def _logical_ranking(args, device, patch, vetting):
+    """Rank by a logical figure when asked (or by 'auto' when it applies)."""
+    from .logical import rank_by_logical, require_detectors
+    figure = args.figure
+    swap_free = [p for p, off in zip(vetting.ranking.placements, vetting.ranking.unscored_gates)
+                 if off == 0] if vetting.all_swap_free else []
+    if figure == "fidelity_product":
+        return None
+    if figure == "auto":
+        if not swap_free or not patch.detectors or not patch.observable:
+            return None
+        figure = "undetected"
+    if not swap_free:
+        return None
+    require_detectors(patch)
+    progress = _progress()
+    out = rank_by_logical(device, patch, swap_free, figure=figure,
+                          monte_carlo_shots=args.monte_carlo or 0, top=args.top,
+                          decode=args.decode, processes=args.processes,
+                          progress=(lambda n: print(f"\r  scoring: {n} placements ...", end="",
+                                                    file=sys.stderr, flush=True))
+                          if progress else None)
+    if progress:
+        print("\r" + " " * 40 + "\r", end="", file=sys.stderr)
+    return out
 
 
 def _check_picture_path(target: str) -> None:

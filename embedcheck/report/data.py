@@ -310,3 +310,28 @@ def sdk_dict(device, patch, vetting) -> dict:
     return {"found": True, "status": status, "qubits": placement.as_dict(patch),
             "success": float(np.exp(log_s)), "our_rank": better + 1,
             "of": len(vetting.ranking.placements), "figure": vetting.ranking.figure}
+
+
+def logical_dict(patch, logical, top: int = 10) -> dict:
+    """The ranking by a logical figure, with Monte Carlo results where sampled."""
+    rows = []
+    for i in range(min(top, len(logical.placements))):
+        row = {"rank": i + 1, "qubits": logical.placements[i].as_dict(patch),
+               "undetected": float(logical.undetected[i]), "kept": float(logical.kept[i])}
+        mc = logical.monte_carlo[i]
+        if mc is not None:
+            row["monte_carlo"] = {
+                "shots": mc.shots, "kept_fraction": mc.kept_fraction,
+                "kept_fraction_interval": list(mc.interval("kept")),
+                "raw_logical_error": mc.raw_error,
+                "raw_logical_error_interval": list(mc.interval("raw")),
+                "post_selected_logical_error": mc.post_selected_error,
+                "post_selected_interval": list(mc.interval("post_selected")),
+                "decoded_logical_error": None if mc.decoded_errors is None
+                else mc.decoded_errors / mc.shots,
+                "decoded_interval": None if mc.decoded_errors is None
+                else list(mc.interval("decoded"))}
+        rows.append(row)
+    return {"figure": logical.figure, "placements": len(logical.placements), "top": rows,
+            "method": "stim detector error model, lowest order; Monte Carlo with Wilson 95% "
+                      "intervals"}

@@ -117,8 +117,9 @@ def draw_placement(device: Device, path: str | Path | None = None, *, patch: Pat
     return _save(plt, fig, path)
 
 
-def draw_score_map(device: Device, patch: Patch, placements, success, path=None, *, title=None):
-    """Shade each qubit by the best estimated success of any placement that uses it."""
+def draw_score_map(device: Device, patch: Patch, placements, success, path=None, *, title=None,
+                   label="best est. success using it"):
+    """Shade each qubit by the best value (higher is better) of any placement that uses it."""
     import matplotlib as mpl
 
     plt, fig, ax = _figure(device)
@@ -138,7 +139,7 @@ def draw_score_map(device: Device, patch: Patch, placements, success, path=None,
         points = ax.scatter([pos[q][0] for q in shaded], [pos[q][1] for q in shaded], s=90,
                             c=values, cmap=mpl.colormaps["cividis"], edgecolors="black",
                             linewidths=0.5, zorder=3, gid="scored")
-        fig.colorbar(points, ax=ax, shrink=0.7, pad=0.02, label="best est. success using it")
+        fig.colorbar(points, ax=ax, shrink=0.7, pad=0.02, label=label)
     dead = sorted(device.dead_qubits)
     if dead:
         ax.scatter([pos[q][0] for q in dead], [pos[q][1] for q in dead], s=60, marker="x",

@@ -104,6 +104,23 @@ def render_find(d: dict) -> str:
         out += ["", "On the best placement, these gates land on uncoupled qubits "
                     "(exact; a router would add SWAPs, 3 two-qubit gates each):"]
         out += _off_gates(best)
+    logical = d.get("logical")
+    if logical:
+        out += ["", f"Ranked by {logical['figure']} ({logical['method']}; "
+                    f"{logical['placements']} swap-free placements):",
+                f"  {'rank':>4} {'undetected':>11} {'kept':>7}  placement"]
+        for r in logical["top"]:
+            out.append(f"  {r['rank']:>4} {r['undetected']:>11.3e} {r['kept']:>7.4f}  "
+                       f"{_placement(r['qubits'])}")
+            mc = r.get("monte_carlo")
+            if mc:
+                lo, hi = mc["post_selected_interval"]
+                line = (f"         Monte Carlo {mc['shots']} shots: post-selected "
+                        f"{mc['post_selected_logical_error']:.3e} [{lo:.2e}, {hi:.2e}], kept "
+                        f"{mc['kept_fraction']:.4f}, raw {mc['raw_logical_error']:.3e}")
+                if mc["decoded_logical_error"] is not None:
+                    line += f", decoded {mc['decoded_logical_error']:.3e}"
+                out.append(line)
     if d.get("sensitivity"):
         out += ["", "What moves the best placement's score most (log contribution; d log S / d "
                     "figure):"]

@@ -1,0 +1,170 @@
+"""Noise conversions, the fast logical score against Monte Carlo, and stim's own generator."""
+import math
+import random
+import re
+import shutil
+from dataclasses import replace
+
+import pytest
+import stim
+
+from embedcheck import Device, InputError, load_device, load_patch, vet_patch
+from embedcheck.device import CouplerCalibration, QubitCalibration
+from embedcheck.io.patchfile import patch_from_stim
+from embedcheck.lattices import line
+from embedcheck.logical import fast_score, fast_scores, monte_carlo, rank_by_logical, wilson
+from embedcheck.noise import (idle_pauli, noisy_circuit, single_qubit_depolarizing,
+                              two_qubit_depolarizing)
+from embedcheck.search import Placement
+from helpers import DEMO_CHIP, FIXED_PATCH
+
+
+def test_depolarizing_conversions():
+    # Nielsen, Phys. Lett. A 303, 249 (2002): average infidelity r = p d / (d + 1).
+    assert two_qubit_depolarizing(0.008) == pytest.approx(0.01)        # d = 4: p = 5r/4
+    assert single_qubit_depolarizing(0.0004) == pytest.approx(0.0006)  # d = 2: p = 3r/2
+    assert two_qubit_depolarizing(0.9) == pytest.approx(15 / 16)       # capped at full
+
+
+def test_idle_channel_at_hand_points():
+    # Ghosh, Fowler & Geller, Phys. Rev. A 86, 062318 (2012): Pauli twirling approximation.
+    px, py, pz = idle_pauli(1000.0, 100.0, 50.0)           # t = 1 us
+    assert px == py == pytest.approx((1 - math.exp(-0.01)) / 4)
+    assert pz == pytest.approx((1 - math.exp(-0.02)) / 2 - (1 - math.exp(-0.01)) / 4)
+    assert idle_pauli(1000.0, None, None) == (0.0, 0.0, 0.0)
+    assert idle_pauli(0.0, 50.0, 50.0) == (0.0, 0.0, 0.0)
+
+
+def test_readout_and_reset_flips_sit_around_the_operation():
+    lat = line(2)
+    dev = Device.from_lattice(lat, name="pair", coupler_calibration={(0, 1): CouplerCalibration(
+        0.008, 300.0)}, qubit_calibration={q: QubitCalibration(readout_error=0.02,
+                                                               reset_error=0.03) for q in (0, 1)})
+    patch = patch_from_stim(stim.Circuit("R 0 1\nCX 0 1\nMR 1\nM 0\nDETECTOR rec[-2]\n"
+                                         "OBSERVABLE_INCLUDE(0) rec[-1]"))
+    text = str(noisy_circuit(dev, patch, Placement((0, 1))))
+    assert "X_ERROR(0.03) 0\n" in text or "X_ERROR(0.03) 0 1" in text
+    assert re.search(r"CX 0 1\nDEPOLARIZE2\(0\.01\) 0 1", text)
+    assert re.search(r"X_ERROR\(0\.02\) 1\nM 1\nR 1\nX_ERROR\(0\.03\) 1", text)
+
+
+def _syndrome_detector_patch(tmp_path):
+    """The coupler-respecting demo patch with every syndrome bit of every round as its own
+    detector and the data parity as the observable (no final comparison)."""
+    text = FIXED_PATCH.read_text().split("detectors:")[0]
+    lines = ["detectors:"]
+    for r in range(2):
+        for bit in ("xcheck[0]", "xcheck[1]", "xcheck[2]", "zcheck[0]", "zcheck[1]"):
+            lines.append(f'  - {{measurements: ["round[{r}]:{bit}"]}}')
+    lines.append('observable: ["readout:m[0]", "readout:m[1]", "readout:m[2]", "readout:m[3]"]')
+    (tmp_path / "p.yaml").write_text(text + "\n".join(lines) + "\n")
+    shutil.copy(FIXED_PATCH.parent / "flagged_weight4_round.qasm", tmp_path)
+    return load_patch(tmp_path / "p.yaml")
+
+
+def _random_calibration(device, seed):
+    rng = random.Random(seed)
+    return replace(device, coupler_calibration={
+        c: CouplerCalibration(rng.uniform(0.002, 0.03), 300.0) for c in device.couplers},
+        qubit_calibration={q: QubitCalibration(
+            readout_error=rng.uniform(0.002, 0.03), single_qubit_error=rng.uniform(1e-4, 1e-3),
+            t1_us=rng.uniform(60, 200), t2_us=rng.uniform(40, 120),
+            single_qubit_duration_ns=36.0, measurement_duration_ns=900.0)
+            for q in device.qubits})
+
+
+def test_fast_score_ranks_like_monte_carlo(tmp_path):
+    from scipy.stats import spearmanr
+    patch = _syndrome_detector_patch(tmp_path)
+    device = _random_calibration(load_device(DEMO_CHIP), seed=3)
+    placements = list(vet_patch(device, patch).ranking.placements)[::4][:42]
+    assert len(placements) >= 40
+    fast = [s.undetected for s in fast_scores(device, patch, placements)]
+    sampled = [monte_carlo(device, patch, p, shots=200_000, seed=i).post_selected_error
+               for i, p in enumerate(placements)]
+    rho = spearmanr(fast, sampled).statistic
+    assert rho >= 0.9, rho
+
+
+def test_repetition_code_matches_stims_own_generator():
+    # Reference: stim's built-in generator with the same noise, both decoded by pymatching.
+    p2, pm, pr, d, rounds = 0.01, 0.02, 0.01, 5, 6
+    noiseless = stim.Circuit.generated("repetition_code:memory", distance=d, rounds=rounds)
+    reference = stim.Circuit.generated("repetition_code:memory", distance=d, rounds=rounds,
+                                       after_clifford_depolarization=p2,
+                                       before_measure_flip_probability=pm,
+                                       after_reset_flip_probability=pr)
+    patch = patch_from_stim(noiseless, name="rep5")
+    n = 2 * d - 1
+    device = Device.from_lattice(
+        line(n), name="line", coupler_calibration={(i, i + 1): CouplerCalibration(p2 * 4 / 5)
+                                                   for i in range(n - 1)},
+        qubit_calibration={q: QubitCalibration(readout_error=pm, reset_error=pr)
+                           for q in range(n)})
+    placement = Placement(tuple(int(q[1:]) for q in patch.qubits))
+    ours = monte_carlo(device, patch, placement, shots=100_000, seed=1, decode=True)
+
+    import pymatching
+    sampler = reference.compile_detector_sampler(seed=2)
+    dets, obs = sampler.sample(100_000, separate_observables=True)
+    matching = pymatching.Matching.from_detector_error_model(
+        reference.detector_error_model(decompose_errors=True))
+    theirs = int((matching.decode_batch(dets)[:, 0] != obs[:, 0]).sum())
+    lo1, hi1 = ours.interval("decoded")
+    lo2, hi2 = wilson(theirs, 100_000)
+    assert lo1 <= hi2 and lo2 <= hi1, (ours.decoded_errors, theirs)
+    assert ours.decoded_errors > 0
+
+
+def test_noiseless_calibration_gives_no_errors_and_keeps_every_shot():
+    device = load_device(DEMO_CHIP)
+    quiet = replace(device, coupler_calibration={c: CouplerCalibration(0.0, 300.0)
+                                                 for c in device.couplers},
+                    qubit_calibration={q: QubitCalibration(readout_error=0.0)
+                                       for q in device.qubits})
+    patch = load_patch(FIXED_PATCH)
+    best = vet_patch(quiet, patch).ranking.placements[0]
+    mc = monte_carlo(quiet, patch, best, shots=2000, seed=3)
+    assert mc.kept == 2000 and mc.raw_errors == 0 and mc.kept_errors == 0
+    fast = fast_score(quiet, patch, best)
+    assert fast.undetected == 0 and fast.kept == 1.0
+
+
+def test_a_patch_without_detectors_gets_told_what_to_declare(tmp_path):
+    text = FIXED_PATCH.read_text().split("# Detectors")[0]
+    (tmp_path / "p.yaml").write_text(text)
+    shutil.copy(FIXED_PATCH.parent / "flagged_weight4_round.qasm", tmp_path)
+    patch = load_patch(tmp_path / "p.yaml")
+    device = load_device(DEMO_CHIP)
+    with pytest.raises(InputError) as err:
+        rank_by_logical(device, patch, vet_patch(device, patch).ranking.placements[:3])
+    assert "declares no detectors and no logical observable" in str(err.value)
+    assert "add 'detectors:'" in str(err.value) and "'observable:'" in str(err.value)
+
+
+def test_matching_refusal_is_plain(monkeypatch):
+    import embedcheck.logical as logical
+
+    class Refusing:
+        def detector_error_model(self, **kwargs):
+            raise ValueError("Failed to decompose errors into graphlike components")
+    with pytest.raises(InputError) as err:
+        logical._decode(Refusing(), None)
+    assert "cannot be matched" in str(err.value)
+
+
+def test_find_ranks_by_the_logical_figure(tmp_path, capsys):
+    from embedcheck.cli import main
+    _syndrome_detector_patch(tmp_path)
+    code = main(["find", str(DEMO_CHIP), str(tmp_path / "p.yaml"), "--top", "2",
+                 "--monte-carlo", "5000", "--format", "json"])
+    import json
+    data = json.loads(capsys.readouterr().out)
+    assert code == 0 and data["figure"] == "undetected"
+    top = data["logical"]["top"]
+    assert top[0]["undetected"] <= top[1]["undetected"]
+    assert 0 < top[0]["monte_carlo"]["kept_fraction"] <= 1
+    # Not swap-free everywhere: the logical figures are refused in plain words.
+    naive = FIXED_PATCH.parent / "flagged_weight4.yaml"
+    assert main(["find", str(DEMO_CHIP), str(naive), "--figure", "undetected"]) == 2
+    assert "no placement makes every circuit swap-free" in capsys.readouterr().err
