@@ -57,6 +57,7 @@ def _parser() -> argparse.ArgumentParser:
     find = sub.add_parser("find", help="find, audit and rank every swap-free placement")
     _common(find)
     _search_options(find)
+    _constraint_options(find)
     find.add_argument("--top", type=_positive_int, default=10,
                       help="placements to list (default 10)")
     find.add_argument("--strict", action="store_true",
@@ -156,6 +157,74 @@ def _parser() -> argparse.ArgumentParser:
     return top
 
 
+def _constraint_options(p):
+    p.add_argument("--require", action="append", default=[], metavar="BOUND",
+                   help="a constraint such as 'ancilla: readout_error <= 0.03' or "
+                        "'coupler: two_qubit_error <= 0.02' (repeat for more)")
+    p.add_argument("--exclude-qubits", metavar="LIST", help="chip qubits not to use, e.g. 3,17")
+    p.add_argument("--exclude-couplers", metavar="LIST", help="couplers not to use, e.g. 3-4,17-18")
+    p.add_argument("--region", metavar="LIST", help="only these chip qubits, e.g. 0-40,52")
+    p.add_argument("--region-box", metavar="X0,Y0,X1,Y1",
+                   help="only chip qubits whose drawing position lies in this box")
+    p.add_argument("--forbid-direction-fixes", action="store_true",
+                   help="every CNOT must run in its coupler's native direction")
+
+
+def _constraints_from(args, patch):
+    """The patch's constraints merged with the command line's (the command line adds)."""
+    from dataclasses import replace
+    from .constraints import Constraints, build
+    given = build(args.require, exclude_qubits=_int_list(args.exclude_qubits, "--exclude-qubits"),
+                  exclude_couplers=_pair_list(args.exclude_couplers),
+                  region=_int_list(args.region, "--region") if args.region else None,
+                  region_box=_floats(args.region_box) if args.region_box else None,
+                  forbid_direction_fixes=args.forbid_direction_fixes)
+    base = patch.constraints or Constraints()
+    if given.empty:
+        return base if not base.empty else None
+    roles = {r: tuple(base.roles.get(r, ())) + tuple(given.roles.get(r, ()))
+             for r in set(base.roles) | set(given.roles)}
+    return replace(base, roles=roles, couplers=base.couplers + given.couplers,
+                   exclude_qubits=base.exclude_qubits | given.exclude_qubits,
+                   exclude_couplers=base.exclude_couplers | given.exclude_couplers,
+                   region=given.region if given.region is not None else base.region,
+                   region_box=given.region_box or base.region_box,
+                   forbid_direction_fixes=base.forbid_direction_fixes
+                   or given.forbid_direction_fixes)
+
+
+def _int_list(text, option):
+    out = []
+    for part in filter(None, (t.strip() for t in (text or "").split(","))):
+        lo, sep, hi = part.partition("-")
+        try:
+            out += list(range(int(lo), int(hi) + 1)) if sep else [int(part)]
+        except ValueError:
+            raise InputError(f"{option}: '{part}' is not a qubit number or range") from None
+    return out
+
+
+def _pair_list(text):
+    out = []
+    for part in filter(None, (t.strip() for t in (text or "").split(","))):
+        a, sep, b = part.partition("-")
+        try:
+            out.append((int(a), int(b)))
+        except ValueError:
+            raise InputError(f"--exclude-couplers: '{part}' should look like 3-4") from None
+    return out
+
+
+def _floats(text):
+    try:
+        values = [float(t) for t in text.split(",")]
+    except ValueError:
+        values = []
+    if len(values) != 4:
+        raise InputError(f"--region-box: '{text}' should be four numbers x0,y0,x1,y1")
+    return values
+
+
 def _search_options(p):
     p.add_argument("--limit", type=_positive_int, default=100_000,
                    help="stop after this many distinct placements (default 100000); the "
@@ -219,7 +288,7 @@ def _run_find(args) -> int:
             _check_picture_path(target)
     progress = _progress()
     vetting = vet_patch(device, patch, limit=args.limit, budget_s=args.budget_s,
-                        progress=progress)
+                        progress=progress, constraints=_constraints_from(args, patch))
     if progress:
         print("\r" + " " * 40 + "\r", end="", file=sys.stderr)
     payload = report_data.find_dict(vetting, top=args.top)

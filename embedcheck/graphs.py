@@ -49,3 +49,83 @@ def shortest_cycle(nodes, edges) -> int | None:
                     if best is None or length < best:
                         best = length
     return best
+
+
+def _adjacency(nodes, edges):
+    nodes = range(nodes) if isinstance(nodes, int) else list(nodes)
+    adj: dict = {n: [] for n in nodes}
+    for a, b in edges:
+        adj[a].append(b)
+        adj[b].append(a)
+    return adj
+
+
+def _path_to_root(parent, node):
+    path = [node]
+    while parent[path[-1]] is not None:
+        path.append(parent[path[-1]])
+    return path
+
+
+def shortest_cycle_nodes(nodes, edges) -> list | None:
+    """The nodes of one shortest cycle, in order around it, or None for a forest.
+
+    >>> shortest_cycle_nodes(5, [(0, 1), (1, 2), (2, 0), (2, 3), (3, 4)])
+    [0, 1, 2]
+    """
+    adj = _adjacency(nodes, edges)
+    best = None
+    for root in adj:
+        depth, parent = {root: 0}, {root: None}
+        queue = deque([root])
+        while queue:
+            u = queue.popleft()
+            if best is not None and 2 * depth[u] + 1 >= len(best):
+                break
+            for v in adj[u]:
+                if v not in depth:
+                    depth[v], parent[v] = depth[u] + 1, u
+                    queue.append(v)
+                elif parent[u] != v:
+                    left, right = _path_to_root(parent, u), _path_to_root(parent, v)
+                    if set(left[:-1]) & set(right[:-1]):
+                        continue            # the two paths meet before the root: not simple
+                    cycle = list(reversed(left)) + right[:-1]
+                    if best is None or len(cycle) < len(best):
+                        best = cycle
+    if best is None:
+        return None
+    k = best.index(min(best))
+    best = best[k:] + best[:k]
+    return best if len(best) < 3 or best[1] < best[-1] else [best[0]] + best[:0:-1]
+
+
+def odd_cycle_nodes(nodes, edges) -> list | None:
+    """The nodes of an odd cycle (from a failed two-colouring), or None when bipartite.
+
+    >>> odd_cycle_nodes(4, [(0, 1), (1, 2), (2, 3), (3, 0)]) is None
+    True
+    >>> sorted(odd_cycle_nodes(3, [(0, 1), (1, 2), (2, 0)]))
+    [0, 1, 2]
+    """
+    adj = _adjacency(nodes, edges)
+    colour: dict = {}
+    for root in adj:
+        if root in colour:
+            continue
+        colour[root], parent = 0, {root: None}
+        queue = deque([root])
+        while queue:
+            u = queue.popleft()
+            for v in adj[u]:
+                if v not in colour:
+                    colour[v], parent[v] = 1 - colour[u], u
+                    queue.append(v)
+                elif colour[v] == colour[u]:
+                    left, right = _path_to_root(parent, u), _path_to_root(parent, v)
+                    common = set(left) & set(right)
+                    left = [x for x in left if x not in common] + \
+                        [next(x for x in left if x in common)]
+                    right = [x for x in right if x not in common]
+                    return list(reversed(left)) + right
+    return None

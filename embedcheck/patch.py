@@ -93,6 +93,7 @@ class Patch:
     detectors: tuple[Detector, ...] = ()
     observable: tuple[int, ...] = ()
     roles_inferred: bool = False
+    constraints: object = None        # a constraints.Constraints, from the patch file
     index: Mapping[str, int] = field(init=False, repr=False, compare=False)
 
     def __post_init__(self) -> None:

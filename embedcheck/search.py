@@ -37,7 +37,9 @@ from typing import Callable, Sequence
 import numpy as np
 import rustworkx as rx
 
+from .constraints import Constraints
 from .device import Device
+from .graphs import odd_cycle_nodes, shortest_cycle, shortest_cycle_nodes
 from .patch import Patch
 
 
@@ -75,28 +77,40 @@ class SearchResult:
 
 def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | None = None,
                     limit: int | None = 10_000, budget_s: float | None = None,
-                    progress: Callable[[int], None] | None = None) -> SearchResult:
+                    progress: Callable[[int], None] | None = None,
+                    constraints: Constraints | None = None,
+                    clock: Callable[[], float] = time.monotonic,
+                    max_maps: int | None = None) -> SearchResult:
     """All distinct swap-free placements of `patch` for `circuits` (default: all).
 
-    `limit` caps the number of distinct placements, `budget_s` the seconds spent;
-    the result says which one stopped the search. `progress(n)` is called now and
-    then with the number of raw maps seen.
+    `limit` caps the number of distinct placements, `budget_s` the seconds spent (read
+    from `clock`, which tests may replace), `max_maps` the raw maps examined (a step
+    budget); the result says which one stopped the search. `constraints` restrict the
+    chip qubits each role may use and the couplers pairs may use (see constraints.py).
+    `progress(n)` is called now and then with the number of raw maps seen.
     """
     names = tuple(patch.circuits) if circuits is None else tuple(circuits)
-    start = time.monotonic()
-    reasons = necessary_conditions(device, patch, names)
+    rules = constraints or Constraints()
+    start = clock()
+    reasons = necessary_conditions(device, patch, names, rules)
     if reasons:
-        return SearchResult(names, (), 0, 1, "complete", tuple(reasons), time.monotonic() - start)
-    pattern, placed = _pattern(patch, names)
-    chip = device.live_graph()
+        return SearchResult(names, (), 0, 1, "complete", tuple(reasons), clock() - start)
+    directed = rules.forbid_direction_fixes
+    pattern, placed = _pattern(patch, names, directed=directed)
+    chip = _chip_graph(device, rules, directed=directed)
     autos = _automorphisms(pattern)
+    allowed = rules.allowed_by_role(device, set(patch.roles.values())) if rules.roles else None
     found: list[Placement] = []
     seen: set = set()
     raw, stop = 0, "complete"
     if pattern.num_nodes() == 0:
         maps = iter([{}])
     else:
-        maps = rx.vf2_mapping(chip, pattern, subgraph=True, induced=False, id_order=False)
+        matcher = (lambda phys, role: phys in allowed[role]) if allowed else None
+        match = rx.digraph_vf2_mapping if directed else rx.vf2_mapping
+        maps = match(chip, pattern, node_matcher=matcher, subgraph=True, induced=False,
+                     id_order=False)
+    blocked = {i for i in chip.node_indices() if chip[i] not in rules.qubits(device)}
     for mapping in maps:
         raw += 1
         inverse = {p: c for c, p in mapping.items()}   # pattern node -> chip node
@@ -104,20 +118,54 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
         key = min(tuple(image[s[i]] for i in range(len(image))) for s in autos)
         if key not in seen:
             seen.add(key)
-            found.append(_complete(device, chip, patch, placed, key))
+            found.append(_complete(chip, patch, placed, key, blocked, allowed))
         if progress is not None and raw % 5000 == 0:
             progress(raw)
         if limit is not None and len(found) >= limit:
             stop = "limit"
             break
-        if budget_s is not None and raw % 256 == 0 and time.monotonic() - start > budget_s:
+        if max_maps is not None and raw >= max_maps:
+            stop = "budget"
+            break
+        if budget_s is not None and raw % 256 == 0 and clock() - start > budget_s:
             stop = "budget"
             break
     if stop == "complete" and raw == 0:
-        reasons = ["the interaction graph of " + ", ".join(names) + " is not a subgraph of "
-                   "the chip's live coupling graph (exhaustive search found no placement)"]
+        what = "the chip's live coupling graph" + (" under the constraints" if not rules.empty
+                                                   else "")
+        reasons = ["no cheap condition rules it out, and an exhaustive search found no "
+                   f"placement: the interaction graph of {', '.join(names)} is not a subgraph of "
+                   f"{what}"]
+        if not rules.empty:
+            reasons += _blame(device, patch, names, rules, clock, budget_s)
     return SearchResult(names, tuple(found), raw, len(autos), stop, tuple(reasons),
-                        time.monotonic() - start)
+                        clock() - start)
+
+
+def _blame(device, patch, names, rules: Constraints, clock, budget_s) -> list[str]:
+    """Which single constraint, dropped, would let the patch fit (plain words)."""
+    from dataclasses import replace
+    trials = [(f"{role}: {b}", replace(rules, roles={**rules.roles, role: tuple(
+        x for x in rules.roles[role] if x is not b)})) for role in rules.roles
+        for b in rules.roles[role]]
+    trials += [(f"coupler: {b}", replace(rules, couplers=tuple(x for x in rules.couplers
+                                                                if x is not b)))
+               for b in rules.couplers]
+    trials += [(label, replace(rules, **{key: value})) for label, key, value, on in (
+        ("the excluded qubits", "exclude_qubits", frozenset(), rules.exclude_qubits),
+        ("the excluded couplers", "exclude_couplers", frozenset(), rules.exclude_couplers),
+        ("the region", "region", None, rules.region is not None),
+        ("the region box", "region_box", None, rules.region_box is not None),
+        ("the native-direction rule", "forbid_direction_fixes", False,
+         rules.forbid_direction_fixes)) if on]
+    out = []
+    for label, relaxed in trials:
+        found = find_placements(device, patch, circuits=names, limit=1, constraints=relaxed,
+                                budget_s=budget_s, clock=clock)
+        if found.placements:
+            out.append(f"the constraint '{label}' removes every placement: without it the "
+                       f"patch fits")
+    return out
 
 
 def placement_grid(placements: Sequence[Placement], num_qubits: int) -> np.ndarray:
@@ -126,48 +174,125 @@ def placement_grid(placements: Sequence[Placement], num_qubits: int) -> np.ndarr
         len(placements), num_qubits)
 
 
-def necessary_conditions(device: Device, patch: Patch, circuits: Sequence[str]) -> list[str]:
-    """Cheap checks that rule a placement out before any search; plain-word reasons."""
+def necessary_conditions(device: Device, patch: Patch, circuits: Sequence[str],
+                         constraints: Constraints | None = None) -> list[str]:
+    """Cheap checks that rule a placement out before any search; plain-word reasons.
+
+    Each names the patch qubits at fault: too few live qubits; too few chip qubits of
+    high enough degree; a patch cycle shorter than the chip's shortest cycle (a
+    monomorphism maps a cycle onto a cycle of the same length); an odd patch cycle on
+    a bipartite chip; role constraints that leave too few candidates.
+    """
+    rules = constraints or Constraints()
     reasons = []
-    live = device.live_qubits
-    if patch.num_qubits > len(live):
+    usable = rules.qubits(device)
+    if patch.num_qubits > len(usable):
+        where = "live qubits" + (" within the constraints" if not rules.empty else "")
         reasons.append(f"the patch has {patch.num_qubits} qubits but the chip has only "
-                       f"{len(live)} live qubits")
+                       f"{len(usable)} {where}")
+    if rules.roles:
+        allowed = rules.allowed_by_role(device, set(patch.roles.values()))
+        for role, bounds in rules.roles.items():
+            need = patch.qubits_with_role(role)
+            if len(allowed.get(role, ())) < len(need):
+                reasons.append(f"the constraint '{role}: {', '.join(map(str, bounds))}' leaves "
+                               f"{len(allowed.get(role, ()))} candidate chip qubit(s) for the "
+                               f"{len(need)} {role} qubit(s) ({', '.join(need)})")
     counts = patch.interaction_counts(circuits)
+    couplers = sorted(rules.couplers_allowed(device)) if not rules.empty else \
+        list(device.live_couplers)
     degree: dict[int, int] = {}
     for a, b in counts:
         degree[a] = degree.get(a, 0) + 1
         degree[b] = degree.get(b, 0) + 1
     chip_degree: dict[int, int] = {}
-    for a, b in device.live_couplers:
+    for a, b in couplers:
         chip_degree[a] = chip_degree.get(a, 0) + 1
         chip_degree[b] = chip_degree.get(b, 0) + 1
     top = max(chip_degree.values(), default=0)
     for k in sorted(set(degree.values()), reverse=True):
-        need = [patch.qubits[i] for i in sorted(i for i, d in degree.items() if d >= k)]
+        need = [i for i in sorted(degree) if degree[i] >= k]
         have = sum(1 for d in chip_degree.values() if d >= k)
         if have < len(need):
+            named = ", ".join(f"{patch.qubits[i]} ({patch.roles[patch.qubits[i]]})" for i in need)
             reasons.append(
-                f"{len(need)} patch qubit(s) ({', '.join(need)}) interact with {k} or more others, "
-                f"but the chip has only {have} live qubit(s) with {k} or more live couplers "
-                f"(largest live degree {top})")
+                f"{len(need)} patch qubit(s) interact with {k} or more others ({named}), but the "
+                f"chip has only {have} live qubit(s) with {k} or more usable couplers (largest "
+                f"live degree {top})")
             break
+    if counts and not reasons:
+        reasons += _cycle_reasons(patch, list(counts), couplers)
     return reasons
 
 
-def _pattern(patch: Patch, circuits: Sequence[str]):
+def _cycle_reasons(patch: Patch, edges, couplers) -> list[str]:
+    cycle = shortest_cycle_nodes(range(patch.num_qubits), edges)
+    chip_nodes = sorted({q for c in couplers for q in c})
+    chip_girth = shortest_cycle(chip_nodes, couplers)
+    out = []
+    if cycle and (chip_girth is None or len(cycle) < chip_girth):
+        names = ", ".join(patch.qubits[i] for i in cycle)
+        chip_part = "has no cycle" if chip_girth is None else \
+            f"has no cycle shorter than {chip_girth}"
+        out.append(f"the patch has a cycle of length {len(cycle)} ({names}) but the chip "
+                   f"{chip_part}")
+    if not out:
+        odd = odd_cycle_nodes(range(patch.num_qubits), edges)
+        if odd and _bipartite(chip_nodes, couplers):
+            names = ", ".join(patch.qubits[i] for i in odd)
+            out.append(f"the patch has an odd cycle ({names}) but the chip's coupling graph is "
+                       "bipartite (it has none)")
+    return out
+
+
+def _bipartite(nodes, edges) -> bool:
+    g = rx.PyGraph()
+    index = {q: g.add_node(q) for q in nodes}
+    g.add_edges_from_no_data([(index[a], index[b]) for a, b in edges])
+    return rx.is_bipartite(g)
+
+
+def _pattern(patch: Patch, circuits: Sequence[str], *, directed: bool = False):
     """Interaction graph of the searched circuits over the patch qubits that interact.
 
     Node i of the graph is patch qubit `placed[i]`; edge payloads are per-circuit gate
-    counts, node payloads roles, so automorphisms respect both.
+    counts, node payloads roles, so automorphisms respect both. Directed: one arc per
+    control -> target direction used.
     """
     per_pair = patch.per_circuit_counts(circuits)
     placed = sorted({q for p in per_pair for q in p})
     local = {q: i for i, q in enumerate(placed)}
-    graph = rx.PyGraph(multigraph=False)
+    graph = rx.PyDiGraph(multigraph=False) if directed else rx.PyGraph(multigraph=False)
     graph.add_nodes_from([patch.roles[patch.qubits[q]] for q in placed])
-    graph.add_edges_from([(local[a], local[b], c) for (a, b), c in per_pair.items()])
+    if not directed:
+        graph.add_edges_from([(local[a], local[b], c) for (a, b), c in per_pair.items()])
+        return graph, placed
+    arcs: dict = {}
+    for k, name in enumerate(circuits):
+        for op in patch.circuits[name].two_qubit_gates:
+            a, b = (patch.index[q] for q in op.qubits)
+            counts = arcs.setdefault((local[a], local[b]), [0] * len(circuits))
+            counts[k] += 1
+    graph.add_edges_from([(a, b, tuple(c)) for (a, b), c in arcs.items()])
     return graph, placed
+
+
+def _chip_graph(device: Device, rules: Constraints, *, directed: bool = False):
+    """The usable coupling graph; node i holds physical qubit `device.qubits[i]`.
+
+    Couplers outside the constraints are left out (an unused coupler never matters,
+    since the match is not induced). Directed: one arc per native direction.
+    """
+    graph = rx.PyDiGraph(multigraph=False) if directed else rx.PyGraph(multigraph=False)
+    index = {q: graph.add_node(q) for q in device.qubits}
+    couplers = rules.couplers_allowed(device) if not rules.empty else device.live_couplers
+    if not directed:
+        graph.add_edges_from_no_data([(index[a], index[b]) for a, b in couplers])
+        return graph
+    for a, b in couplers:
+        for c, t in ([device.directed[(a, b)]] if (a, b) in device.directed else [(a, b), (b, a)]):
+            graph.add_edge(index[c], index[t], None)
+    return graph
 
 
 def _automorphisms(pattern: rx.PyGraph) -> list[tuple[int, ...]]:
@@ -175,37 +300,124 @@ def _automorphisms(pattern: rx.PyGraph) -> list[tuple[int, ...]]:
     n = pattern.num_nodes()
     if n == 0:
         return [()]
-    autos = rx.vf2_mapping(pattern, pattern, node_matcher=lambda a, b: a == b,
-                           edge_matcher=lambda a, b: a == b, subgraph=False, id_order=True)
+    match = rx.digraph_vf2_mapping if isinstance(pattern, rx.PyDiGraph) else rx.vf2_mapping
+    autos = match(pattern, pattern, node_matcher=lambda a, b: a == b,
+                  edge_matcher=lambda a, b: a == b, subgraph=False, id_order=True)
     return [tuple(m[i] for i in range(n)) for m in autos]
 
 
-def _complete(device: Device, chip: rx.PyGraph, patch: Patch, placed, image) -> Placement:
-    """A full placement: interacting qubits from `image`, the rest on nearby free qubits."""
+def _complete(chip, patch: Patch, placed, image, blocked, allowed) -> Placement:
+    """A full placement: interacting qubits from `image`, the rest on nearby free qubits
+    (that their role's constraints allow)."""
     physical = [-1] * patch.num_qubits
     used = set()
     for node, patch_qubit in zip(image, placed):
         physical[patch_qubit] = chip[node]
         used.add(node)
-    rest = [i for i in range(patch.num_qubits) if physical[i] < 0]
-    if rest:
-        dead = {i for i in chip.node_indices() if chip[i] in device.dead_qubits}
-        for i, node in zip(rest, _nearest_free(chip, list(used), used | dead)):
-            physical[i] = chip[node]
+    for i in [i for i in range(patch.num_qubits) if physical[i] < 0]:
+        role = patch.roles[patch.qubits[i]]
+        for node in _nearest_free(chip, list(used), used | blocked):
+            if allowed is None or chip[node] in allowed.get(role, ()):
+                physical[i] = chip[node]
+                used.add(node)
+                break
     return Placement(tuple(physical))
 
 
 def _nearest_free(chip: rx.PyGraph, sources, blocked):
     """Free live chip nodes in breadth-first order from `sources` (then any others)."""
     queue, seen = deque(sources), set(sources)
+    neighbours = chip.neighbors_undirected if isinstance(chip, rx.PyDiGraph) else chip.neighbors
     while queue:
         node = queue.popleft()
         if node not in blocked:
             yield node
-        for nb in chip.neighbors(node):
+        for nb in neighbours(node):
             if nb not in seen:
                 seen.add(nb)
                 queue.append(nb)
     for node in chip.node_indices():
         if node not in seen and node not in blocked:
             yield node
+
+
+@dataclass(frozen=True)
+class NearMiss:
+    """A placement that is not swap-free, with the patch pairs left without a coupler."""
+
+    placement: Placement
+    off_coupler_gates: int
+    missing_pairs: tuple[tuple[str, str], ...]
+
+
+def near_misses(device: Device, patch: Patch, circuits: Sequence[str], *,
+                constraints: Constraints | None = None, keep: int = 5,
+                budget_s: float = 5.0, clock: Callable[[], float] = time.monotonic) -> list[NearMiss]:
+    """Placements needing the fewest off-coupler gates when none is swap-free (a heuristic).
+
+    Greedy edge removal: drop one interacting pair at a time, first at the patch qubits
+    whose degree the chip cannot offer, then on the shortest cycle the chip lacks, then
+    the pair with the fewest gates; after each drop, search the smaller pattern. Found
+    placements are scored on the full circuits (off-coupler gates, weighted by how
+    often each circuit runs) and the best few kept. Not exhaustive: fewer added gates
+    may be possible.
+    """
+    rules = constraints or Constraints()
+    start = clock()
+    counts = patch.interaction_counts(circuits)
+    times = dict(patch.experiment())
+    weights = {pair_: sum(patch.interaction_counts([c]).get(pair_, 0) * times.get(c, 1)
+                          for c in circuits) for pair_ in counts}
+    kept = dict(counts)
+    chip_degree: dict[int, int] = {}
+    couplers = rules.couplers_allowed(device) if not rules.empty else set(device.live_couplers)
+    for a, b in couplers:
+        chip_degree[a] = chip_degree.get(a, 0) + 1
+        chip_degree[b] = chip_degree.get(b, 0) + 1
+    top = max(chip_degree.values(), default=0)
+    chip_nodes = sorted({q for c in couplers for q in c})
+    chip_girth = shortest_cycle(chip_nodes, sorted(couplers))
+    found: list[Placement] = []
+    while kept and clock() - start < budget_s:
+        reduced = _reduced_patch(patch, kept)
+        result = find_placements(device, reduced, limit=50, constraints=rules,
+                                 budget_s=max(0.1, budget_s - (clock() - start)), clock=clock)
+        if result.placements:
+            found = list(result.placements)
+            break
+        kept.pop(_pair_to_drop(kept, weights, top, chip_girth, patch.num_qubits))
+    if not found:
+        return []
+    from .audit import off_coupler_counts     # audit imports search: import here
+    off = off_coupler_counts(device, patch, found, list(circuits))
+    totals = (off * np.array([times.get(c, 1) for c in circuits])).sum(axis=1)
+    order = np.argsort(totals, kind="stable")[:keep]
+    out = []
+    for i in order:
+        where = found[i].physical
+        missing = tuple((patch.qubits[a], patch.qubits[b]) for a, b in counts
+                        if not device.is_coupled(where[a], where[b]))
+        out.append(NearMiss(found[i], int(totals[i]), missing))
+    return out
+
+
+def _pair_to_drop(kept, weights, top, chip_girth, n):
+    degree: dict[int, int] = {}
+    for a, b in kept:
+        degree[a] = degree.get(a, 0) + 1
+        degree[b] = degree.get(b, 0) + 1
+    over = [p for p in kept if degree[p[0]] > top or degree[p[1]] > top]
+    if over:
+        return min(over, key=lambda p: (weights[p], -max(degree[p[0]], degree[p[1]]), p))
+    cycle = shortest_cycle_nodes(range(n), list(kept))
+    if cycle and (chip_girth is None or len(cycle) < chip_girth):
+        ring = [tuple(sorted((cycle[i], cycle[(i + 1) % len(cycle)]))) for i in range(len(cycle))]
+        return min(ring, key=lambda p: (weights[p], p))
+    return min(kept, key=lambda p: (weights[p], p))
+
+
+def _reduced_patch(patch: Patch, kept) -> Patch:
+    """A one-circuit patch with one CNOT per kept pair (same qubits and roles)."""
+    from .patch import Circuit, Operation
+    ops = tuple(Operation("cx", (patch.qubits[a], patch.qubits[b]), "2q") for a, b in kept)
+    return Patch(patch.name, patch.qubits, dict(patch.roles), {"round": Circuit("round", ops)})

@@ -29,7 +29,8 @@ from .device import Device
 from .io.errors import InputError
 from .patch import Patch
 from .rank import Ranking, rank_placements
-from .search import SearchResult, find_placements
+from .constraints import Constraints
+from .search import NearMiss, SearchResult, find_placements, near_misses
 
 _CORE_ORDER = ("round", "readout", "prep")
 
@@ -58,6 +59,8 @@ class Vetting:
     off_coupler: np.ndarray      # (placements in ranked order, circuits in patch order)
     best_audit: AuditReport | None
     unconstrained: tuple[str, ...] = ()   # patch qubits with no two-qubit gate in the core
+    constraints: Constraints | None = None
+    near_misses: tuple[NearMiss, ...] = ()
 
     @property
     def all_swap_free(self) -> bool:
@@ -66,14 +69,20 @@ class Vetting:
 
 def vet_patch(device: Device, patch: Patch, *, limit: int | None = 10_000,
               budget_s: float | None = 60.0,
-              progress: Callable[[int], None] | None = None) -> Vetting:
-    """Search, audit and rank `patch` on `device`; see the module docstring."""
+              progress: Callable[[int], None] | None = None,
+              constraints: Constraints | None = None) -> Vetting:
+    """Search, audit and rank `patch` on `device`; see the module docstring.
+
+    `constraints` (or, when not given, the patch's own) restrict every search.
+    """
+    rules = constraints if constraints is not None else patch.constraints
     if patch.num_qubits > device.num_qubits:
         raise InputError(f"the patch has {patch.num_qubits} qubits but chip '{device.name}' has "
                          f"only {device.num_qubits}", file=patch.source)
     fits = []
     for name, circuit in patch.circuits.items():
-        alone = find_placements(device, patch, circuits=[name], limit=1, budget_s=budget_s)
+        alone = find_placements(device, patch, circuits=[name], limit=1, budget_s=budget_s,
+                                constraints=rules)
         fits.append(CircuitFit(name, len(circuit.two_qubit_gates), bool(alone.placements),
                                alone.reasons))
     # The core: circuits with two-qubit gates that fit together, check round first.
@@ -85,16 +94,20 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 10_000,
     core: list[str] = []
     for name in gated:
         if name in fitting and (not core or find_placements(
-                device, patch, circuits=core + [name], limit=1, budget_s=budget_s).placements):
+                device, patch, circuits=core + [name], limit=1, budget_s=budget_s,
+                constraints=rules).placements):
             core.append(name)
     if core or not gated:
         core += [n for n in order if n not in gated]
         search = find_placements(device, patch, circuits=core, limit=limit, budget_s=budget_s,
-                                 progress=progress)
+                                 progress=progress, constraints=rules)
+        misses = ()
     else:
         reasons = tuple(dict.fromkeys(r for f in fits for r in f.reasons)) or (
             "no circuit with two-qubit gates has a swap-free placement",)
         search = SearchResult(tuple(gated), (), 0, 1, "complete", reasons, 0.0)
+        misses = tuple(near_misses(device, patch, gated, constraints=rules,
+                                   budget_s=min(5.0, budget_s or 5.0)))
     excluded = tuple(n for n in patch.circuits if n not in core)
     ranking = rank_placements(device, patch, search.placements)
     names = list(patch.circuits)
@@ -103,4 +116,4 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 10_000,
     used = {q for pair in patch.interaction_counts(core or list(patch.circuits)) for q in pair}
     unconstrained = tuple(q for i, q in enumerate(patch.qubits) if i not in used)
     return Vetting(device, patch, tuple(fits), tuple(core), excluded, search, ranking, off, best,
-                   unconstrained)
+                   unconstrained, rules, misses)

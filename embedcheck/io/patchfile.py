@@ -117,7 +117,22 @@ def patch_from_document(doc: Document) -> Patch:
                       for i, d in enumerate(data.get("detectors", [])))
     observable = tuple(_resolve(doc, patch, ("observable", k), ref)
                        for k, ref in enumerate(data.get("observable", [])))
-    return _replace(patch, detectors=detectors, observable=observable)
+    return _replace(patch, detectors=detectors, observable=observable,
+                    constraints=_constraints(doc) if "constraints" in data else None)
+
+
+def _constraints(doc: Document):
+    from ..constraints import build
+    spec = doc.data["constraints"]
+    for i, text in enumerate(spec.get("require", [])):
+        try:
+            build([text])
+        except InputError as err:
+            raise doc.error(("constraints", "require", i), err.message) from None
+    return build(spec.get("require", []), exclude_qubits=spec.get("exclude_qubits", ()),
+                 exclude_couplers=[tuple(c) for c in spec.get("exclude_couplers", [])],
+                 region=spec.get("region"), region_box=spec.get("region_box"),
+                 forbid_direction_fixes=spec.get("forbid_direction_fixes", False))
 
 
 def _explicit_roles(doc: Document) -> dict[str, str]:
@@ -175,7 +190,7 @@ def _replace(patch: Patch, **changes) -> Patch:
                   circuits=dict(patch.circuits), rounds=patch.rounds,
                   description=patch.description, source=patch.source,
                   detectors=patch.detectors, observable=patch.observable,
-                  roles_inferred=patch.roles_inferred)
+                  roles_inferred=patch.roles_inferred, constraints=patch.constraints)
     fields.update(changes)
     return Patch(**fields)
 

@@ -95,6 +95,12 @@ def find_dict(v: Vetting, top: int | None = 10) -> dict:
                    "complete": s.complete, "stop_reason": s.stop_reason,
                    "elapsed_s": round(s.elapsed_s, 4), "reasons": list(s.reasons)},
         "unconstrained_qubits": list(v.unconstrained),
+        "constraints": v.constraints.describe() if v.constraints is not None else [],
+        "near_misses": [{"qubits": m.placement.as_dict(v.patch),
+                         "off_coupler_gates": m.off_coupler_gates,
+                         "missing_pairs": [list(p) for p in m.missing_pairs],
+                         "method": "heuristic (greedy pair removal), not exhaustive"}
+                        for m in v.near_misses],
         "figure": v.ranking.figure,
         "placements": placement_rows(v.patch, v.ranking, v.off_coupler, top),
         "best_audit": audit_dict(v.patch, v.best_audit) if v.best_audit else None,

@@ -59,10 +59,20 @@ def render_find(d: dict) -> str:
             out.append(f"      why not: {reason}")
     s = d["search"]
     out.append("")
+    if d.get("constraints"):
+        out.append("Constraints: " + "; ".join(d["constraints"]))
     if not s["distinct_placements"]:
         out.append("No placement makes any circuit with two-qubit gates swap-free on this chip.")
         for reason in s["reasons"]:
             out.append(f"  why: {reason}")
+        if d.get("near_misses"):
+            out += ["", "Nearest misses (a heuristic: greedy removal of interacting pairs; fewer "
+                        "added gates may be possible):"]
+            for m in d["near_misses"]:
+                pairs = ", ".join(f"{a}-{b}" for a, b in m["missing_pairs"])
+                out.append(f"  {m['off_coupler_gates']} off-coupler gate(s) over the experiment; "
+                           f"pairs without a coupler: {pairs}")
+                out.append(f"       {_placement(m['qubits'])}")
         out += ["", d["caution"]]
         return "\n".join(_fold(line) for line in out)
     if s["complete"]:
