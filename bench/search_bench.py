@@ -52,7 +52,8 @@ def search_case(rows, columns, patch):
 
 
 def rank_case(dev, patch, placements):
-    two, readout, single = dev.error_arrays()
+    arrays = dev.calibration_arrays()
+    readout, single = arrays.readout_error, arrays.single_qubit_error
 
     def loop():
         out = []
@@ -62,7 +63,8 @@ def rank_case(dev, patch, placements):
             for name, times in patch.experiment():
                 for op in patch.circuits[name].operations:
                     if op.kind == "2q":
-                        e = two[where[op.qubits[0]], where[op.qubits[1]]]
+                        a, b = np.array([where[op.qubits[0]]]), np.array([where[op.qubits[1]]])
+                        e = arrays.coupler(a, b, arrays.coupler_error)[0]
                         s += times * np.log1p(-(0.0 if np.isnan(e) else e))
                     elif op.kind == "measure":
                         s += times * np.log1p(-readout[where[op.qubits[0]]])

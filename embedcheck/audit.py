@@ -117,10 +117,8 @@ def audit_placement(device: Device, patch: Patch, placement: Placement, *,
 def off_coupler_counts(device: Device, patch: Patch, placements: Sequence[Placement],
                        circuits: Sequence[str]) -> np.ndarray:
     """Off-coupler two-qubit gates, shape (placements, circuits), without a per-placement loop."""
-    n = max(device.qubits) + 1
-    coupled = np.zeros((n, n), dtype=bool)
-    for a, b in device.live_couplers:
-        coupled[a, b] = coupled[b, a] = True
+    cal = device.calibration_arrays()
+    ones = np.ones(len(cal.coupler_keys))
     grid = placement_grid(placements, patch.num_qubits)
     out = np.zeros((len(placements), len(circuits)), dtype=np.int64)
     for j, name in enumerate(circuits):
@@ -129,7 +127,7 @@ def off_coupler_counts(device: Device, patch: Patch, placements: Sequence[Placem
             continue
         pairs = np.array(list(counts), dtype=np.int64)
         weight = np.array(list(counts.values()), dtype=np.int64)
-        on = coupled[grid[:, pairs[:, 0]], grid[:, pairs[:, 1]]]
+        on = ~np.isnan(cal.coupler(grid[:, pairs[:, 0]], grid[:, pairs[:, 1]], ones))
         out[:, j] = (~on * weight).sum(axis=1)
     return out
 

@@ -49,10 +49,17 @@ class CouplerCalibration:
 
 @dataclass(frozen=True)
 class CalibrationArrays:
-    """Dense numpy views of one calibration snapshot (see `Device.calibration_arrays`)."""
+    """Dense numpy views of one calibration snapshot (see `Device.calibration_arrays`).
 
-    two_qubit_error: np.ndarray      # (n, n), NaN where not coupled
-    two_qubit_ns: np.ndarray         # (n, n), NaN where not coupled
+    Per-qubit figures are arrays indexed by physical qubit number. Couplers are kept
+    sparse (memory grows with couplers, not qubits squared): `coupler(a, b, values)`
+    looks pairs up in bulk, NaN where no live coupler joins them.
+    """
+
+    coupler_keys: np.ndarray         # sorted a * n + b for live couplers (a < b)
+    coupler_error: np.ndarray        # in the order of coupler_keys
+    coupler_ns: np.ndarray
+    size: int                        # n: largest qubit number + 1
     readout_error: np.ndarray
     single_qubit_error: np.ndarray
     reset_error: np.ndarray
@@ -61,6 +68,44 @@ class CalibrationArrays:
     t1_us: np.ndarray                # inf where not given
     t2_us: np.ndarray
     median_two_qubit_ns: float       # stands in for off-coupler gates
+
+    def coupler_index(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        """Index into the coupler arrays of the coupler joining a[i], b[i]; -1 where none.
+
+        A dense (n x n) int32 table for chips up to 4096 qubits (at most 64 MiB), a
+        binary search over the sorted coupler keys beyond.
+        """
+        if not len(self.coupler_keys):
+            return np.full(np.shape(a), -1, dtype=np.int64)
+        table = self._table()
+        if table is not None:
+            return table[a, b]
+        lo, hi = np.minimum(a, b), np.maximum(a, b)
+        keys = lo.astype(np.int64) * self.size + hi
+        pos = np.minimum(np.searchsorted(self.coupler_keys, keys), len(self.coupler_keys) - 1)
+        return np.where(self.coupler_keys[pos] == keys, pos, -1)
+
+    def _table(self):
+        if self.size > 4096:
+            return None
+        cached = self.__dict__.get("_dense")
+        if cached is None:
+            cached = np.full((self.size, self.size), -1, dtype=np.int32)
+            lo, hi = np.divmod(self.coupler_keys, self.size)
+            cached[lo, hi] = cached[hi, lo] = np.arange(len(self.coupler_keys), dtype=np.int32)
+            object.__setattr__(self, "_dense", cached)
+        return cached
+
+    def coupler(self, a: np.ndarray, b: np.ndarray, values: np.ndarray) -> np.ndarray:
+        """values[coupler joining a[i], b[i]] elementwise, NaN where none does."""
+        return self.values_at(self.coupler_index(a, b), values)
+
+    @staticmethod
+    def values_at(index: np.ndarray, values: np.ndarray) -> np.ndarray:
+        """values[index], NaN where index is -1."""
+        if not len(values):
+            return np.full(np.shape(index), np.nan)
+        return np.where(index >= 0, values[np.maximum(index, 0)], np.nan)
 
 
 @dataclass(frozen=True)
@@ -181,50 +226,33 @@ class Device:
         return graph
 
     def calibration_arrays(self) -> "CalibrationArrays":
-        """Every calibration figure as a dense array indexed by physical qubit number.
+        """Every calibration figure as numpy arrays (see `CalibrationArrays`).
 
         Missing errors are 0 and missing durations 0; missing T1/T2 are infinite (no
-        idle error); uncoupled pairs are NaN in the coupler arrays so using one shows.
+        idle error); pairs without a live coupler look up as NaN.
         """
         n = max(self.qubits) + 1 if self.qubits else 0
-        two, readout, single = self.error_arrays()
-        two_ns = np.full((n, n), np.nan)
-        for a, b in self.live_couplers:
-            cal = self.coupler_calibration.get((a, b))
-            two_ns[a, b] = two_ns[b, a] = cal.duration_ns if cal and cal.duration_ns else 0.0
-        def qubit_array(field, missing):
+        live = sorted(self.live_couplers)
+        keys = np.array([a * n + b for a, b in live], dtype=np.int64)
+        error = np.array([(self.coupler_calibration.get(c).two_qubit_error or 0.0)
+                          if self.coupler_calibration.get(c) else 0.0 for c in live])
+        ns = np.array([(self.coupler_calibration.get(c).duration_ns or 0.0)
+                       if self.coupler_calibration.get(c) else 0.0 for c in live])
+
+        def qubit_array(name, missing):
             out = np.full(n, missing, dtype=float)
             for q, cal in self.qubit_calibration.items():
-                value = getattr(cal, field)
+                value = getattr(cal, name)
                 if value is not None:
                     out[q] = value
             return out
-        known = two_ns[~np.isnan(two_ns)]
-        known = known[known > 0]
+        known = ns[ns > 0]
         return CalibrationArrays(
-            two_qubit_error=two, two_qubit_ns=two_ns, readout_error=readout,
-            single_qubit_error=single, reset_error=qubit_array("reset_error", 0.0),
+            coupler_keys=keys, coupler_error=error, coupler_ns=ns, size=n,
+            readout_error=qubit_array("readout_error", 0.0),
+            single_qubit_error=qubit_array("single_qubit_error", 0.0),
+            reset_error=qubit_array("reset_error", 0.0),
             single_qubit_ns=qubit_array("single_qubit_duration_ns", 0.0),
             measurement_ns=qubit_array("measurement_duration_ns", 0.0),
             t1_us=qubit_array("t1_us", np.inf), t2_us=qubit_array("t2_us", np.inf),
             median_two_qubit_ns=float(np.median(known)) if known.size else 0.0)
-
-    def error_arrays(self) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        """Dense calibration arrays indexed by physical qubit number.
-
-        Returns (two_qubit_error[n, n], readout_error[n], single_qubit_error[n]).
-        Missing figures are 0 (the report counts them as uncalibrated); uncoupled
-        pairs are NaN so that using one is visible.
-        """
-        n = max(self.qubits) + 1 if self.qubits else 0
-        two = np.full((n, n), np.nan)
-        for a, b in self.live_couplers:
-            cal = self.coupler_calibration.get((a, b))
-            err = cal.two_qubit_error if cal and cal.two_qubit_error is not None else 0.0
-            two[a, b] = two[b, a] = err
-        readout = np.zeros(n)
-        single = np.zeros(n)
-        for q, cal in self.qubit_calibration.items():
-            readout[q] = cal.readout_error or 0.0
-            single[q] = cal.single_qubit_error or 0.0
-        return two, readout, single

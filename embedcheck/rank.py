@@ -108,7 +108,7 @@ def scores(device: Device, patch: Patch, grid: np.ndarray,
         if pairs and count:
             ab = np.array(list(pairs), dtype=np.int64)
             weight = np.array(list(pairs.values()), dtype=float)
-            err = cal.two_qubit_error[grid[:, ab[:, 0]], grid[:, ab[:, 1]]]
+            err = cal.coupler(grid[:, ab[:, 0]], grid[:, ab[:, 1]], cal.coupler_error)
             off = np.isnan(err)
             terms["two_qubit"] = (np.log1p(-np.where(off, 0.0, err)) * weight).sum(axis=1)
             unscored = (off * weight).sum(axis=1).astype(np.int64)
@@ -145,7 +145,7 @@ def idle_times(patch: Patch, circuit: str, grid: np.ndarray, cal: CalibrationArr
     column = {p: k for k, p in enumerate(pairs)}
     if pairs:
         ab = np.array(pairs, dtype=np.int64)
-        two_ns = cal.two_qubit_ns[rows[ab[:, 0]], rows[ab[:, 1]]]     # (pairs, placements)
+        two_ns = cal.coupler(rows[ab[:, 0]], rows[ab[:, 1]], cal.coupler_ns)  # (pairs, placements)
         two_ns = np.where(np.isnan(two_ns), cal.median_two_qubit_ns, two_ns)
     free = np.zeros((n, count))
     busy = np.zeros((n, count))

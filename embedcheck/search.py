@@ -110,7 +110,8 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
         match = rx.digraph_vf2_mapping if directed else rx.vf2_mapping
         maps = match(chip, pattern, node_matcher=matcher, subgraph=True, induced=False,
                      id_order=False)
-    blocked = {i for i in chip.node_indices() if chip[i] not in rules.qubits(device)}
+    usable = rules.qubits(device)
+    blocked = {i for i in chip.node_indices() if chip[i] not in usable}
     for mapping in maps:
         raw += 1
         inverse = {p: c for c, p in mapping.items()}   # pattern node -> chip node
