@@ -110,6 +110,11 @@ def render_find(d: dict) -> str:
     if s["distinct_placements"] > len(d["placements"]):
         out.append(f"  ... {s['distinct_placements'] - len(d['placements'])} more (use --top)")
     best = d["best_audit"]
+    fixes = sum(c["direction_fixes"] for c in best["circuits"]) if best else 0
+    if fixes:
+        out += ["", f"On the best placement {fixes} CNOT(s) run against their coupler's native "
+                    "direction: swap-free, fixed with single-qubit gates "
+                    "(--forbid-direction-fixes excludes such placements)."]
     if best and not best["swap_free"]:
         out += ["", "On the best placement, these gates land on uncoupled qubits "
                     "(exact; a router would add SWAPs, 3 two-qubit gates each):"]
