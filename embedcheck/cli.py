@@ -21,7 +21,7 @@ from .io.errors import InputError, did_you_mean
 from .io.patchfile import load_patch
 from .rank import CAUTION, rank_placements
 from .report import data as report_data
-from .report.text import render_audit, render_chip, render_find, render_patch
+from .report.text import render_audit, render_chip, render_find, render_patch, render_repair
 from .search import Placement
 from .vet import vet_patch
 
@@ -35,7 +35,8 @@ def main(argv: list[str] | None = None) -> int:
     try:
         args = _parser().parse_args(argv)
         if not getattr(args, "command", None):
-            raise InputError("give a command: find, audit, check, draw, validate, show or generate "
+            raise InputError("give a command: find, audit, check, repair, draw, validate, show or "
+                             "generate "
                              "(see 'embedcheck --help')")
         return args.run(args)
     except InputError as err:
@@ -139,6 +140,21 @@ def _parser() -> argparse.ArgumentParser:
                        help="placements per pair to re-check with qiskit's transpiler "
                             "(default: the project's, else 3; 0 turns it off)")
     check.set_defaults(run=_run_check)
+
+    fix = sub.add_parser("repair", help="rewrite a preparation onto a placement's couplers, "
+                         "with a proof; writes a new patch file")
+    fix.add_argument("chip", help="chip file (YAML)")
+    fix.add_argument("patch", help="patch file (YAML)")
+    where = fix.add_mutually_exclusive_group()
+    where.add_argument("--placement", help="patch qubit=physical qubit pairs")
+    where.add_argument("--pick", type=_positive_int, help="the placement ranked N by 'find' "
+                       "(default 1)")
+    fix.add_argument("--circuit", default="prep", help="the circuit to rewrite (default prep)")
+    fix.add_argument("--output", "-o", required=True,
+                     help="the new patch file to write (never the patch itself); the repaired "
+                          "circuit goes beside it as <name>_<circuit>.qasm")
+    fix.add_argument("--format", choices=("text", "json"), default="text")
+    fix.set_defaults(run=_run_repair)
 
     show = sub.add_parser("show", help="summarise a chip or patch file")
     show.add_argument("file", metavar="FILE", help="chip file, folder of chip snapshots, or patch file")
@@ -353,6 +369,73 @@ def _logical_ranking(args, device, patch, vetting):
     if progress:
         print("\r" + " " * 40 + "\r", end="", file=sys.stderr)
     return out
+
+
+def _run_repair(args) -> int:
+    from pathlib import Path
+
+    from .repair import repair_preparation
+    device, patch = load_device(args.chip), load_patch(args.patch)
+    out = Path(args.output)
+    qasm_path = out.with_name(f"{out.stem}_{args.circuit}.qasm")
+    if Path(args.patch).suffix.lower() not in (".yaml", ".yml"):
+        raise InputError("repair writes a new YAML patch file: give a YAML patch")
+    for target in (out, qasm_path):
+        if target.exists():
+            raise InputError("will not overwrite an existing file", file=str(target))
+    if not out.resolve().parent.is_dir():
+        raise InputError(f"folder '{out.parent}' does not exist", file=str(out))
+    if args.placement is not None:
+        placement = _parse_placement(args.placement, patch, device)
+    else:
+        core = [n for n in patch.circuits if n != args.circuit]
+        vetting = vet_patch(device, patch)
+        placements = vetting.ranking.placements
+        k = args.pick or 1
+        if k > len(placements):
+            raise InputError(f"no placement ranked {k}: 'find' ranks {len(placements)} "
+                             f"(the other circuits, {', '.join(core)}, must fit first)")
+        placement = placements[k - 1]
+    repair = repair_preparation(device, patch, placement, circuit=args.circuit)
+    for figures in (repair.before, repair.after):       # JSON has no infinity
+        if figures.get("fault_distance") == float("inf"):
+            figures["fault_distance"] = "infinite"
+    new_text = _repaired_yaml(Path(args.patch), out, args.circuit, qasm_path.name)
+    header = (f"// Repaired by embedcheck: circuit '{args.circuit}' of patch '{patch.name}' "
+              f"rewritten onto the couplers of\n// chip '{device.name}' at "
+              + " ".join(f"{q}={p}" for q, p in placement.as_dict(patch).items())
+              + f"\n// method: {repair.method}; proof: {repair.proof}\n")
+    write_atomic(qasm_path, header + repair.qasm)
+    write_atomic(out, new_text)
+    payload = {"tool": "embedcheck", "version": __version__, "command": "repair",
+               "circuit": repair.circuit, "method": repair.method, "proven": repair.proven,
+               "proof": repair.proof, "helpers": list(repair.helpers),
+               "placement": placement.as_dict(patch), "before": repair.before,
+               "after": repair.after, "candidates": {k: list(v) if v else None
+                                                     for k, v in repair.candidates.items()},
+               "wrote": {"patch": str(out), "circuit": str(qasm_path)}, "caution": CAUTION}
+    _emit(args, payload, render_repair(payload))
+    return 0
+
+
+def _repaired_yaml(source, target, circuit, qasm_name) -> str:
+    """The patch file re-written for `target`: the circuit now from `qasm_name`, other file
+    paths re-based; comments are not kept."""
+    import os
+    from pathlib import Path
+
+    import yaml
+    data = yaml.safe_load(source.read_text(encoding="utf-8"))
+    for name, spec in data["circuits"].items():
+        for key in ("file", "stim"):
+            if key in spec:
+                full = (source.parent / spec[key]).resolve()
+                spec[key] = os.path.relpath(full, target.resolve().parent)
+    data["circuits"][circuit] = {"file": qasm_name,
+                                 "description": f"repaired by embedcheck from {source.name}"}
+    data["name"] = f"{data['name']}-repaired"
+    return (f"# Written by 'embedcheck repair' from {source.name}; circuit '{circuit}' is now "
+            f"{qasm_name}.\n" + yaml.safe_dump(data, sort_keys=False, width=100))
 
 
 def _check_picture_path(target: str) -> None:

@@ -18,6 +18,10 @@ bug in the circuit or its declaration, not a layout problem.
 """
 from __future__ import annotations
 
+import math
+
+import numpy as np
+
 from .io.errors import InputError
 from .patch import Patch
 
@@ -92,3 +96,59 @@ def check_detectors(patch: Patch) -> list[str]:
 def _only(patch: Patch, detector) -> Patch:
     from dataclasses import replace
     return replace(patch, detectors=(detector,), observable=())
+
+
+def fault_distance(patch: Patch, *, noise: float = 1e-3, max_weight: int = 8) -> int | None:
+    """The fewest faults that flip the observable and no detector (stim's search).
+
+    Every operation of the experiment gets a generic fault (depolarizing after gates,
+    bit flips before measurements and after resets) so that the count is a property
+    of the circuit, not of a calibration. Returns None when the patch declares no
+    observable or no such fault set is found within stim's search limits.
+    """
+    import stim
+
+    if not patch.observable:
+        return None
+    if _spanned_by_detectors(patch):
+        return math.inf
+    plain = to_stim(patch)
+    noisy = stim.Circuit()
+    for inst in plain:
+        name, targets = inst.name, inst.targets_copy()
+        qubits = [t.value for t in targets if t.is_qubit_target]
+        if name.startswith("M") and qubits:
+            noisy.append("X_ERROR" if name in ("M", "MR") else "Z_ERROR", qubits, noise)
+        noisy.append(inst)
+        if name in ("CX", "CZ", "CY", "SWAP"):
+            noisy.append("DEPOLARIZE2", qubits, noise)
+        elif name in ("H", "S", "S_DAG", "X", "Y", "Z", "SQRT_X", "SQRT_X_DAG", "I"):
+            noisy.append("DEPOLARIZE1", qubits, noise)
+        elif name.startswith("R") and qubits:
+            noisy.append("X_ERROR" if name == "R" else "Z_ERROR", qubits, noise)
+    try:
+        errors = noisy.search_for_undetectable_logical_errors(
+            dont_explore_detection_event_sets_with_size_above=max_weight,
+            dont_explore_edges_with_degree_above=max_weight,
+            dont_explore_edges_increasing_symptom_degree=False)
+    except ValueError:
+        return None
+    return len(errors)
+
+
+def _spanned_by_detectors(patch: Patch) -> bool:
+    """True when the observable is a parity of detectors: no fault flips it unseen."""
+    from .repair import _rank
+    size = len(patch.measurement_record())
+    rows = []
+    for det in patch.detectors:
+        row = np.zeros(size, dtype=np.uint8)
+        row[list(det.measurements)] ^= 1
+        rows.append(row)
+    obs = np.zeros(size, dtype=np.uint8)
+    for m in patch.observable:
+        obs[m] ^= 1
+    if not rows:
+        return False
+    base = np.array(rows)
+    return _rank(np.vstack([base, obs])) == _rank(base)

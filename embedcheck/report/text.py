@@ -314,3 +314,30 @@ def _fold(line: str, width: int = 80) -> str:
     indent = " " * (len(line) - len(line.lstrip()) + 4)
     return "\n".join(textwrap.wrap(line, width, subsequent_indent=indent,
                                    break_long_words=False, break_on_hyphens=False))
+
+
+def render_repair(d) -> str:
+    b, a = d["before"], d["after"]
+    def fd(x):
+        value = x.get("fault_distance")
+        if value is None:
+            return "none found within stim's search limits"
+        return "infinite (the observable is a parity of detectors)" \
+            if value in (float("inf"), "infinite") else str(value)
+    lines = [f"Repaired '{d['circuit']}' by the {d['method']} method "
+             f"({'PROVEN' if d['proven'] else 'NOT PROVEN'}: {d['proof']}).",
+             f"  helpers borrowed and returned to |0>: {', '.join(d['helpers']) or 'none'}",
+             f"  {'':<22} {'before':>10} {'after':>10}",
+             f"  {'two-qubit gates':<22} {b['two_qubit_gates']:>10} {a['two_qubit_gates']:>10}",
+             f"  {'two-qubit depth':<22} {b['two_qubit_depth']:>10} {a['two_qubit_depth']:>10}",
+             f"  {'off-coupler gates':<22} {b['off_coupler_gates']:>10} {a['off_coupler_gates']:>10}",
+             f"  {'fidelity_product':<22} {b['fidelity_product']:>10.4f} "
+             f"{a['fidelity_product']:>10.4f}"]
+    if "fault_distance" in b:
+        lines.append(f"  fault distance (fewest faults flipping the observable unseen): before "
+                     f"{fd(b)}, after {fd(a)}")
+    if b["fidelity_product_note"]:
+        lines.append(f"  (before: {b['fidelity_product_note']})")
+    lines += [f"Wrote {d['wrote']['patch']} and {d['wrote']['circuit']} (your patch file is "
+              "unchanged).", d["caution"]]
+    return "\n".join(_fold(line) for line in lines)

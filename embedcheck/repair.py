@@ -1,0 +1,508 @@
+"""Repair a state preparation that forces swaps: rewrite it onto the placement's couplers.
+
+Given a placement and a Clifford preparation (a circuit that, from |0...0>, makes a
+stabilizer state), synthesise an equivalent preparation that uses only couplers
+among the placement's qubits, borrowing the patch's other qubits (flags, ancillas)
+as stepping stones when they start in |0> and returning them to |0>. Methods, the
+best kept (fewest two-qubit gates, then two-qubit depth):
+
+- **cat**: when the state is a cat (GHZ) state on some qubits up to single-qubit
+  Paulis: the smallest subtree of a spanning tree of the placement's coupling graph
+  that holds the cat qubits (a Steiner tree in that tree), rooted where a broadcast
+  finishes soonest; each qubit holding the cat value passes it to its children,
+  those with the longest remaining broadcast first (optimal broadcasting in a tree,
+  Slater, Cockayne & Hedetniemi, SIAM J. Comput. 10, 692 (1981)); helper qubits are
+  then returned to |0> by a CNOT from a neighbour that still holds the value; a
+  Pauli correction found from the stabilizer signs fixes the rest.
+- **routed**: any stabilizer state: qiskit's Clifford synthesis of the state's
+  tableau, routed onto the placement's coupling graph by qiskit's SABRE router (Li,
+  Ding & Xie, ASPLOS 2019) with its final permutation undone by approximate token
+  swapping on the same couplers (Miltzow et al., ESA 2016), so every gate is on a
+  coupler.
+
+**Proof**: the repaired circuit prepares the same stabilizer state as the original,
+up to global phase, checked with qiskit's `StabilizerState.equiv` (tableaux, fine
+for hundreds of qubits); every qubit outside the original's support ends in |0>
+because the compared states include them. Up to 12 qubits, statevectors too.
+Non-Clifford preparations cannot be proven this way and are not rewritten.
+
+    >>> from embedcheck import load_device, load_patch, vet_patch      # doctest: +SKIP
+    >>> chip = load_device("devices/demo_heavy_hex.yaml")                 # doctest: +SKIP
+    >>> patch = load_patch("samples/flagged_weight4.yaml")                # doctest: +SKIP
+    >>> fix = repair_preparation(chip, patch, vet_patch(chip, patch).ranking.placements[0])  # doctest: +SKIP
+    >>> fix.method, fix.after["off_coupler_gates"], fix.proven               # doctest: +SKIP
+    ('cat', 0, True)
+"""
+from __future__ import annotations
+
+from collections import deque
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .device import Device
+from .io.errors import InputError
+from .patch import Patch
+from .search import Placement
+
+_CLIFFORD_1Q = {"h", "x", "y", "z", "s", "sdg", "sx", "sxdg", "id"}
+
+
+@dataclass(frozen=True)
+class Repair:
+    """A rewritten preparation on one placement, with its proof and before/after figures."""
+
+    circuit: str
+    method: str
+    qasm: str                         # OpenQASM 2 over the patch's own register names
+    operations: tuple                 # (gate, patch qubits) in order
+    proven: bool
+    proof: str
+    before: dict
+    after: dict
+    helpers: tuple[str, ...]          # patch qubits borrowed and returned to |0>
+    candidates: dict = field(default_factory=dict)   # method -> (2q gates, 2q depth)
+
+
+def repair_preparation(device: Device, patch: Patch, placement: Placement, *,
+                       circuit: str = "prep", seed: int = 11) -> Repair:
+    """Rewrite `circuit` of `patch` onto `placement`'s couplers, or raise InputError saying why not."""
+    if circuit not in patch.circuits:
+        raise InputError(f"the patch has no circuit '{circuit}'")
+    state, support, reset_at_start = _target_state(patch, circuit)
+    first = patch.experiment()[0][0] if patch.experiment() else circuit
+    known_zero = set(patch.qubits) if circuit == first else set(reset_at_start)
+    not_ready = sorted(set(support) - known_zero)
+    if not_ready:
+        raise InputError(f"circuit '{circuit}' is not a preparation from |0>: "
+                         f"{', '.join(not_ready)} are not reset at its start and it is not the "
+                         "first circuit of the experiment")
+    where = placement.as_dict(patch)
+    edges = _placement_edges(device, patch, placement)
+    candidates = {}
+    results = []
+    try:
+        ops = _cat_circuit(patch, state, support, edges, known_zero)
+        if ops is not None:
+            results.append(("cat", ops))
+    except _NotCat:
+        pass
+    results.append(("routed", _routed_circuit(patch, state, edges, seed)))
+    scored = []
+    for method, ops in results:
+        used = {q for _, qs in ops if len(qs) == 2 for q in qs}
+        helpers = tuple(q for q in patch.qubits if q in used and q not in support)
+        bad = [q for q in helpers if q not in known_zero]
+        if bad:
+            candidates[method] = None
+            continue
+        two, depth = _two_qubit_count_depth(ops)
+        candidates[method] = (two, depth)
+        scored.append((two, depth, method, ops, helpers))
+    if not scored:
+        raise InputError(f"a repair of '{circuit}' would borrow {', '.join(bad)} as helper(s), "
+                         "but they are not known to start in |0> (not reset at the start of the "
+                         "circuit); reset them there first")
+    two, depth, method, ops, helpers = min(scored, key=lambda s: (s[0], s[1]))
+    proven, proof = _prove(patch, state, ops)
+    before = _figures(device, patch, circuit, placement)
+    text = _to_qasm(patch, ops)
+    from .io.qasm import read_qasm
+    from .patch import Circuit
+    from .simulate import fault_distance
+    fixed = _with_circuit(patch, circuit, Circuit(circuit, tuple(read_qasm(text)), text, None))
+    after = _figures(device, fixed, circuit, placement)
+    if patch.detectors and patch.observable:
+        before["fault_distance"] = _safe(fault_distance, patch)
+        after["fault_distance"] = _safe(fault_distance, fixed)
+    return Repair(circuit, method, text, tuple(ops), proven, proof, before, after, helpers,
+                  candidates)
+
+
+def repaired_patch(patch: Patch, repair: Repair, *, file: str | None = None) -> Patch:
+    """The patch with the repaired circuit in place of the original."""
+    from .io.qasm import read_qasm
+    from .patch import Circuit
+    ops = tuple(read_qasm(repair.qasm, file=file))
+    return _with_circuit(patch, repair.circuit, Circuit(repair.circuit, ops, repair.qasm, file))
+
+
+# --- the target state ---------------------------------------------------------------
+
+class _NotCat(Exception):
+    pass
+
+
+def _target_state(patch: Patch, circuit: str):
+    """(StabilizerState over all patch qubits, support, qubits reset at the start)."""
+    from qiskit import QuantumCircuit
+    from qiskit.quantum_info import StabilizerState
+
+    from .qiskit_bridge import qiskit_circuit
+
+    if patch.circuits[circuit].qasm is None:
+        raise InputError(f"circuit '{circuit}' has no OpenQASM text to rewrite")
+    qc, names = qiskit_circuit(patch, circuit)
+    whole = QuantumCircuit(patch.num_qubits)
+    reset_at_start, touched = set(), set()
+    for ins in qc.data:
+        op = ins.operation.name
+        if op == "barrier":
+            continue
+        qubits = [patch.index[names[qc.find_bit(q).index]] for q in ins.qubits]
+        if op == "reset":
+            q = patch.qubits[qubits[0]]
+            if q in touched:
+                raise InputError(f"circuit '{circuit}' resets {q} after using it: not a unitary "
+                                 "preparation; it cannot be proven equivalent and is not rewritten")
+            reset_at_start.add(q)
+            continue
+        if op in ("measure", "if_else") or getattr(ins.operation, "blocks", None):
+            raise InputError(f"circuit '{circuit}' measures or branches: not a unitary "
+                             "preparation; it cannot be proven equivalent and is not rewritten")
+        touched.update(patch.qubits[i] for i in qubits)
+        whole.append(ins.operation, qubits)
+    try:
+        state = StabilizerState(whole)
+    except Exception:
+        raise InputError(f"circuit '{circuit}' is not a Clifford circuit, so its state cannot be "
+                         "proven equal to a rewrite; it is not rewritten") from None
+    support = tuple(q for q in patch.qubits if q in touched)
+    return state, support, reset_at_start
+
+
+def _placement_edges(device: Device, patch: Patch, placement: Placement):
+    """Coupled pairs of patch qubits on this placement (patch-qubit names)."""
+    where = placement.as_dict(patch)
+    names = list(patch.qubits)
+    return [(a, b) for i, a in enumerate(names) for b in names[i + 1:]
+            if device.is_coupled(where[a], where[b])]
+
+
+# --- method: cat states ---------------------------------------------------------------
+
+def _cat_circuit(patch, state, support, edges, known_zero):
+    """Cat-state fan-out over a Steiner subtree, or raise _NotCat."""
+    targets = [q for q in support if _carries(state, patch.index[q])]
+    if len(targets) < 2:
+        raise _NotCat
+    tree = _spanning_tree(patch.qubits, edges, targets[0], allowed=set(targets) | known_zero)
+    if tree is None:
+        raise _NotCat
+    steiner = _prune(tree, set(targets))
+    best = None
+    for root in sorted(steiner):            # a helper may be the best root
+        if root not in targets and len(steiner) > len(targets) and not steiner[root]:
+            continue
+        ops = _broadcast(steiner, root, set(targets))
+        two, depth = _two_qubit_count_depth(ops)
+        if best is None or (depth, two) < best[0]:
+            best = ((depth, two), ops)
+    ops = best[1]
+    correction = _pauli_correction(patch, state, ops)
+    if correction is None:
+        raise _NotCat
+    return ops + correction
+
+
+def _carries(state, index):
+    """True when qubit `index` is not in a fixed Z eigenstate (it takes part in the state)."""
+    from qiskit.quantum_info import Pauli
+    label = ["I"] * state.num_qubits
+    label[index] = "Z"
+    return abs(state.expectation_value(Pauli("".join(reversed(label))))) < 0.5
+
+
+def _spanning_tree(nodes, edges, root, allowed):
+    """Breadth-first spanning tree (as a child -> parent map) over allowed nodes."""
+    adj = {n: [] for n in nodes if n in allowed}
+    for a, b in edges:
+        if a in adj and b in adj:
+            adj[a].append(b)
+            adj[b].append(a)
+    parent = {root: None}
+    queue = deque([root])
+    while queue:
+        u = queue.popleft()
+        for v in adj[u]:
+            if v not in parent:
+                parent[v] = u
+                queue.append(v)
+    return parent
+
+
+def _prune(parent, terminals):
+    """Undirected adjacency of the smallest subtree holding every terminal."""
+    if not terminals <= set(parent):
+        return None
+    adj = {n: set() for n in parent}
+    for c, p in parent.items():
+        if p is not None:
+            adj[c].add(p)
+            adj[p].add(c)
+    changed = True
+    while changed:
+        changed = False
+        for n in list(adj):
+            if n not in terminals and len(adj[n]) <= 1:
+                for m in adj.pop(n):
+                    adj[m].discard(n)
+                changed = True
+    return adj
+
+
+def _broadcast(adj, root, targets):
+    """H on the root, CNOT fan-out (longest subtree first), then helpers back to |0>."""
+    children, order = {}, [root]
+    seen = {root}
+    for u in order:
+        children[u] = [v for v in adj[u] if v not in seen]
+        seen.update(children[u])
+        order.extend(children[u])
+    finish = {}
+    for u in reversed(order):          # time for u's subtree to receive the value after u
+        times = sorted((finish[c] for c in children[u]), reverse=True)
+        finish[u] = max((i + 1 + t for i, t in enumerate(times)), default=0)
+    for u in children:
+        children[u].sort(key=lambda c: -finish[c])
+    ops = [("h", (root,))]
+    ready = {root: 0}                  # layer at which a node holds the value
+    layered = []
+    queue = [root]
+    while queue:
+        u = queue.pop(0)
+        for k, c in enumerate(children[u]):
+            ready[c] = ready[u] + k + 1
+            layered.append((ready[c], ("cx", (u, c))))
+            queue.append(c)
+    layered.sort(key=lambda x: x[0])
+    ops += [op for _, op in layered]
+    # Return helpers to |0>: a helper leaf (in the remaining helper forest) copies from a
+    # neighbour that still holds the value; repeat until none remains.
+    holding = set(adj)
+    helpers = [n for n in adj if n not in targets]
+    while helpers:
+        progress = False
+        for h in sorted(helpers, key=lambda n: sum(m in holding and m not in targets
+                                                   for m in adj[n])):
+            donors = [m for m in adj[h] if m in holding and m != h]
+            others = [m for m in donors if m not in targets]
+            if donors and (len(others) <= 1 or any(m in targets for m in donors)):
+                donor = next((m for m in donors if m in targets), donors[0])
+                ops.append(("cx", (donor, h)))
+                holding.discard(h)
+                helpers.remove(h)
+                progress = True
+                break
+        if not progress:
+            return None
+    return ops
+
+
+def _pauli_correction(patch, state, ops):
+    """Single-qubit Paulis P with P C|0> = target state, or None when none exists."""
+    from qiskit.quantum_info import StabilizerState
+    made = StabilizerState(_ops_circuit(patch, ops))
+    target_tab = state.clifford.stab
+    made_tab = made.clifford.stab
+    n = patch.num_qubits
+    # Same group up to signs? Each target generator must be a product of made generators.
+    made_xz = made_tab[:, :2 * n].astype(np.uint8)
+    target_xz = target_tab[:, :2 * n].astype(np.uint8)
+    if _rank(np.vstack([made_xz, target_xz])) != _rank(made_xz):
+        return None
+    from qiskit.quantum_info import Pauli
+    flips = []
+    for label in made.clifford.to_labels(mode="S"):
+        # Sign of made generator g in the target state: measure its expectation.
+        value = state.expectation_value(Pauli(label))
+        if abs(abs(value) - 1) > 1e-9:
+            return None
+        flips.append(value < 0)
+    # Find P (x, z bits) anticommuting exactly with the flipped generators:
+    # symplectic product of P with g = sum(x_P z_g + z_P x_g) mod 2.
+    a = np.hstack([made_xz[:, n:], made_xz[:, :n]])          # rows: (z_g, x_g)
+    solution = _solve_gf2(a, np.array(flips, dtype=np.uint8))
+    if solution is None:
+        return None
+    x_bits, z_bits = solution[:n], solution[n:]
+    out = []
+    for i in range(n):
+        if x_bits[i] and z_bits[i]:
+            out.append(("y", (patch.qubits[i],)))
+        elif x_bits[i]:
+            out.append(("x", (patch.qubits[i],)))
+        elif z_bits[i]:
+            out.append(("z", (patch.qubits[i],)))
+    return out
+
+
+def _rank(m):
+    m = m.copy() % 2
+    rank = 0
+    rows, cols = m.shape
+    for c in range(cols):
+        pivot = next((r for r in range(rank, rows) if m[r, c]), None)
+        if pivot is None:
+            continue
+        m[[rank, pivot]] = m[[pivot, rank]]
+        for r in range(rows):
+            if r != rank and m[r, c]:
+                m[r] ^= m[rank]
+        rank += 1
+    return rank
+
+
+def _solve_gf2(a, b):
+    """x with a x = b over GF(2), or None."""
+    rows, cols = a.shape
+    m = np.hstack([a % 2, b.reshape(-1, 1) % 2]).astype(np.uint8)
+    pivots, r = [], 0
+    for c in range(cols):
+        pivot = next((i for i in range(r, rows) if m[i, c]), None)
+        if pivot is None:
+            continue
+        m[[r, pivot]] = m[[pivot, r]]
+        for i in range(rows):
+            if i != r and m[i, c]:
+                m[i] ^= m[r]
+        pivots.append(c)
+        r += 1
+    if any(m[i, -1] and not m[i, :-1].any() for i in range(rows)):
+        return None
+    x = np.zeros(cols, dtype=np.uint8)
+    for i, c in enumerate(pivots):
+        x[c] = m[i, -1]
+    return x
+
+
+# --- method: synthesis and routing ----------------------------------------------------------
+
+def _routed_circuit(patch, state, edges, seed):
+    """qiskit's Clifford synthesis, routed onto the coupled pairs, final permutation undone."""
+    import rustworkx as rx
+    from qiskit import transpile
+    from qiskit.transpiler import CouplingMap
+    from qiskit.transpiler.passes.routing.algorithms import ApproximateTokenSwapper
+
+    n = patch.num_qubits
+    index = patch.index
+    pairs = [(index[a], index[b]) for a, b in edges]
+    graph = rx.PyGraph()
+    graph.add_nodes_from(range(n))
+    graph.add_edges_from_no_data(pairs)
+    if not rx.is_connected(graph) and n > 1:
+        # Only the component(s) of the support need to be connected; keep it simple.
+        pass
+    cmap = CouplingMap([e for a, b in pairs for e in ((a, b), (b, a))])
+    for q in range(n):
+        if q not in cmap.physical_qubits:
+            cmap.add_physical_qubit(q)
+    circ = state.clifford.to_circuit()
+    out = transpile(circ, coupling_map=cmap, basis_gates=["cx", "h", "s", "sdg", "x", "y", "z",
+                                                          "sx", "sxdg"],
+                    initial_layout=list(range(n)), optimization_level=1, seed_transpiler=seed,
+                    layout_method="trivial")
+    final = out.layout.final_index_layout() if out.layout is not None else list(range(n))
+    ops = []
+    for ins in out.data:
+        qubits = tuple(patch.qubits[out.find_bit(q).index] for q in ins.qubits)
+        name = ins.operation.name
+        if name == "barrier":
+            continue
+        ops.append((name, qubits))
+    mapping = {final[v]: v for v in range(n) if final[v] != v}
+    if mapping:
+        swaps = ApproximateTokenSwapper(graph, seed=seed).map(mapping)
+        for a, b in swaps:
+            qa, qb = patch.qubits[a], patch.qubits[b]
+            ops += [("cx", (qa, qb)), ("cx", (qb, qa)), ("cx", (qa, qb))]
+    return ops
+
+
+# --- proof and figures --------------------------------------------------------------------
+
+def _ops_circuit(patch, ops):
+    from qiskit import QuantumCircuit
+    qc = QuantumCircuit(patch.num_qubits)
+    for name, qubits in ops:
+        getattr(qc, name)(*[patch.index[q] for q in qubits])
+    return qc
+
+
+def _prove(patch, state, ops):
+    from qiskit.quantum_info import StabilizerState, Statevector
+    made = _ops_circuit(patch, ops)
+    if not StabilizerState(made).equiv(state):
+        return False, "the stabilizer tableaux differ"
+    proof = "same stabilizer state up to global phase (qiskit StabilizerState.equiv)"
+    if patch.num_qubits <= 12:
+        target = Statevector(state.clifford.to_circuit())
+        if not Statevector(made).equiv(target):
+            return False, "the statevectors differ"
+        proof += "; statevectors equal up to global phase"
+    return True, proof
+
+
+def _two_qubit_count_depth(ops):
+    level: dict = {}
+    count = depth = 0
+    for name, qubits in ops:
+        if len(qubits) != 2:
+            continue
+        count += 1
+        d = max(level.get(q, 0) for q in qubits) + 1
+        for q in qubits:
+            level[q] = d
+        depth = max(depth, d)
+    return count, depth
+
+
+def _figures(device, patch, circuit, placement):
+    from .audit import audit_placement
+    from .rank import rank_placements
+    audit = next(c for c in audit_placement(device, patch, placement).circuits
+                 if c.circuit == circuit)
+    ops = [(op.name, op.qubits) for op in patch.circuits[circuit].operations if op.kind == "2q"]
+    _, depth = _two_qubit_count_depth(ops)
+    success = float(rank_placements(device, patch, [placement]).success[0])
+    return {"two_qubit_gates": audit.two_qubit_gates, "two_qubit_depth": depth,
+            "off_coupler_gates": len(audit.off_coupler), "fidelity_product": success,
+            "fidelity_product_note": "off-coupler gates are not scored" if audit.off_coupler
+            else ""}
+
+
+def _to_qasm(patch, ops) -> str:
+    """OpenQASM 2 of the repaired preparation, registers named as the patch's qubits."""
+    import re
+    registers: dict = {}
+    for q in patch.qubits:
+        m = re.fullmatch(r"(.*?)(\d+)", q)
+        reg, i = (m.group(1), int(m.group(2))) if m and m.group(1) else (q, None)
+        registers.setdefault(reg, set()).add(i)
+    lines = ["OPENQASM 2.0;", 'include "qelib1.inc";']
+    for reg, idx in registers.items():
+        size = max(i for i in idx if i is not None) + 1 if None not in idx else 1
+        lines.append(f"qreg {reg}[{size}];")
+
+    def ref(q):
+        m = re.fullmatch(r"(.*?)(\d+)", q)
+        return f"{m.group(1)}[{m.group(2)}]" if m and m.group(1) else f"{q}[0]"
+    lines += [f"reset {ref(q)};" for q in patch.qubits]
+    for name, qubits in ops:
+        lines.append(f"{name} {', '.join(ref(q) for q in qubits)};")
+    return "\n".join(lines) + "\n"
+
+
+def _safe(fn, *args):
+    try:
+        return fn(*args)
+    except InputError:
+        return None
+
+
+def _with_circuit(patch, name, circuit):
+    from dataclasses import replace
+    circuits = dict(patch.circuits)
+    circuits[name] = circuit
+    return replace(patch, circuits=circuits)
