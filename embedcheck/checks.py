@@ -122,6 +122,8 @@ def check_pair(device: Device, patch: Patch, rules: Rules, *, limit: int = 10_00
         c = next(c for c in audit.circuits if c.circuit == name)
         n = len(c.off_coupler)
         msg = f"{n} off-coupler two-qubit gate(s), {limit_n} allowed" if n else "swap-free"
+        if n > limit_n and name == (patch.experiment()[0][0] if patch.experiment() else None):
+            msg += _repair_hint(device, patch, name, audit.placement)
         outcomes.append(RuleOutcome("max_off_coupler_gates", name, n <= limit_n, msg,
                                     c.off_coupler))
     complete = "" if vetting.search.complete else \
@@ -176,3 +178,17 @@ def cross_check(device: Device, patch: Patch, placements, *, seed: int = 11) -> 
                                 f"transpiler adds none")
     return problems
 
+
+
+def _repair_hint(device, patch, circuit, placement) -> str:
+    """A suggestion when the failing preparation can be rewritten onto the couplers."""
+    from .io.errors import InputError
+    from .repair import repair_preparation
+    try:
+        fix = repair_preparation(device, patch, placement, circuit=circuit)
+    except InputError:
+        return ""
+    if not fix.proven or fix.after["off_coupler_gates"]:
+        return ""
+    return (f"; 'embedcheck repair' can rewrite it onto the couplers ({fix.method} method, "
+            f"{fix.after['two_qubit_gates']} CNOTs, proven equivalent)")

@@ -87,7 +87,8 @@ def repair_preparation(device: Device, patch: Patch, placement: Placement, *,
             results.append(("cat", ops))
     except _NotCat:
         pass
-    results.append(("routed", _routed_circuit(patch, state, edges, seed)))
+    if not results or len(support) <= 20:      # the general method is the fallback beyond 20
+        results.append(("routed", _routed_circuit(patch, state, edges, seed)))
     scored = []
     for method, ops in results:
         used = {q for _, qs in ops if len(qs) == 2 for q in qs}
@@ -190,6 +191,8 @@ def _cat_circuit(patch, state, support, edges, known_zero):
     if tree is None:
         raise _NotCat
     steiner = _prune(tree, set(targets))
+    if steiner is None:
+        raise _NotCat
     best = None
     for root in sorted(steiner):            # a helper may be the best root
         if root not in targets and len(steiner) > len(targets) and not steiner[root]:
@@ -391,9 +394,6 @@ def _routed_circuit(patch, state, edges, seed):
     graph = rx.PyGraph()
     graph.add_nodes_from(range(n))
     graph.add_edges_from_no_data(pairs)
-    if not rx.is_connected(graph) and n > 1:
-        # Only the component(s) of the support need to be connected; keep it simple.
-        pass
     cmap = CouplingMap([e for a, b in pairs for e in ((a, b), (b, a))])
     for q in range(n):
         if q not in cmap.physical_qubits:
@@ -411,8 +411,9 @@ def _routed_circuit(patch, state, edges, seed):
         if name == "barrier":
             continue
         ops.append((name, qubits))
-    mapping = {final[v]: v for v in range(n) if final[v] != v}
-    if mapping:
+    # A full mapping: with a partial one the swapper may move the other tokens too.
+    mapping = {final[v]: v for v in range(n)}
+    if any(final[v] != v for v in range(n)):
         swaps = ApproximateTokenSwapper(graph, seed=seed).map(mapping)
         for a, b in swaps:
             qa, qb = patch.qubits[a], patch.qubits[b]

@@ -1,0 +1,178 @@
+"""Repairing preparations: proofs by tableau and statevector, depth against an exhaustive optimum."""
+import itertools
+import random
+import shutil
+from collections import deque
+
+import networkx as nx
+import pytest
+from qiskit import QuantumCircuit
+from qiskit.quantum_info import random_clifford
+
+from embedcheck import Device, InputError, audit_placement, load_device, load_patch, vet_patch
+from embedcheck.cli import main
+from embedcheck.device import pair
+from embedcheck.io.patchfile import patch_from_qiskit
+from embedcheck.lattices import heavy_hex
+from embedcheck.repair import _two_qubit_count_depth, repair_preparation, repaired_patch
+from embedcheck.search import Placement
+from helpers import DEMO_CHIP, DEMO_PATCH
+
+
+def _optimal_cat_depth(edges, targets, nodes):
+    """Fewest layers of disjoint CNOTs (on `edges`, either direction) that turn one qubit
+    holding a Hadamard's value into exactly `targets` holding it: breadth-first search
+    over which qubits hold the value (a CNOT c -> t flips t's when c holds it)."""
+    goal = frozenset(targets)
+    arcs = [(a, b) for a, b in edges] + [(b, a) for a, b in edges]
+    layers = []                                  # every set of disjoint arcs, non-empty
+    for k in range(1, len(edges) + 1):
+        for combo in itertools.combinations(arcs, k):
+            used = [q for arc in combo for q in arc]
+            if len(used) == len(set(used)):
+                layers.append(combo)
+    best = None
+    for root in nodes:
+        start = frozenset([root])
+        seen, queue = {start: 0}, deque([start])
+        while queue:
+            state = queue.popleft()
+            if state == goal:
+                best = seen[state] if best is None else min(best, seen[state])
+                break
+            for layer in layers:
+                nxt = set(state)
+                for c, t in layer:
+                    if c in state:
+                        nxt ^= {t}
+                nxt = frozenset(nxt)
+                if nxt not in seen:
+                    seen[nxt] = seen[state] + 1
+                    queue.append(nxt)
+    return best
+
+
+def test_demo_prep_is_repaired_on_every_placement_near_the_optimal_depth():
+    device, patch = load_device(DEMO_CHIP), load_patch(DEMO_PATCH)
+    placements = vet_patch(device, patch).ranking.placements
+    assert len(placements) == 21
+    for placement in placements:
+        fix = repair_preparation(device, patch, placement)
+        assert fix.proven and "statevectors equal" in fix.proof
+        assert fix.after["off_coupler_gates"] == 0 and fix.before["off_coupler_gates"] == 3
+        fixed = repaired_patch(patch, fix)
+        assert audit_placement(device, fixed, placement).swap_free
+        where = placement.as_dict(patch)
+        edges = [(a, b) for a, b in itertools.combinations(patch.qubits, 2)
+                 if device.is_coupled(where[a], where[b])]
+        optimum = _optimal_cat_depth(edges, ["d0", "d1", "d2", "d3"], patch.qubits)
+        assert fix.after["two_qubit_depth"] <= optimum + 1, (fix.after, optimum)
+
+
+def _random_graph(kind, n, rng):
+    if kind == "tree":
+        return nx.random_labeled_tree(n, seed=rng.randrange(10**6))
+    if kind == "ring":
+        return nx.cycle_graph(n)
+    lat = heavy_hex(2, 3)                        # a connected piece of heavy-hex
+    g = nx.Graph(list(lat.couplers))
+    start = rng.randrange(len(lat.qubits))
+    keep = list(nx.bfs_tree(g, start))[:n]
+    return nx.convert_node_labels_to_integers(g.subgraph(keep))
+
+
+@pytest.mark.parametrize("block", range(8))
+def test_random_stabilizer_states_on_random_placement_graphs(block):
+    rng = random.Random(100 + block)
+    for case in range(26):                       # 8 x 26 = 208 cases
+        kind = ("tree", "ring", "heavy-hex")[case % 3]
+        n = rng.randint(4, 12 if case % 2 else 20)
+        graph = _random_graph(kind, n, rng)
+        n = graph.number_of_nodes()
+        targets = n - (rng.randint(0, 2) if n > 5 else 0)      # some qubits are helpers
+        qc = QuantumCircuit(n)
+        qc.compose(random_clifford(targets, seed=rng.randrange(10**6)).to_circuit(),
+                   qubits=list(range(targets)), inplace=True)
+        for q in range(targets, n):
+            qc.id(q)
+        patch = patch_from_qiskit({"prep": qc}, name=f"random-{block}-{case}")
+        device = Device(name="g", qubits=tuple(range(n)),
+                        couplers=tuple(sorted(pair(a, b) for a, b in graph.edges)))
+        placement = Placement(tuple(int(q[1:]) for q in patch.qubits))
+        fix = repair_preparation(device, patch, placement)
+        assert fix.proven, (kind, n, fix.proof)
+        for name, qubits in fix.operations:
+            if len(qubits) == 2:
+                a, b = (placement.as_dict(patch)[q] for q in qubits)
+                assert device.is_coupled(a, b), (kind, n, name, qubits)
+
+
+def test_a_hundred_qubit_cat_state_on_heavy_hex():
+    lat = heavy_hex(5, 5)
+    g = nx.Graph(list(lat.couplers))
+    centre = min(g, key=lambda v: nx.eccentricity(g, v))
+    region = list(nx.bfs_tree(g, centre))[:100]
+    sub = nx.convert_node_labels_to_integers(g.subgraph(region), label_attribute="old")
+    qc = QuantumCircuit(100)
+    qc.h(0)
+    for i in range(99):
+        qc.cx(i, i + 1)                          # the naive chain: mostly off-coupler
+    patch = patch_from_qiskit({"prep": qc}, name="cat100")
+    device = Device(name="region", qubits=tuple(range(100)),
+                    couplers=tuple(sorted(pair(a, b) for a, b in sub.edges)))
+    placement = Placement(tuple(int(q[1:]) for q in patch.qubits))
+    fix = repair_preparation(device, patch, placement)
+    assert fix.proven and fix.method == "cat" and fix.after["off_coupler_gates"] == 0
+    radius = nx.radius(sub)
+    assert fix.after["two_qubit_depth"] <= 2 * radius + 2, (fix.after, radius)
+
+
+def test_helpers_not_known_to_be_zero_are_refused(tmp_path):
+    text = DEMO_PATCH.read_text().replace("circuits:\n", """circuits:
+  reprep:
+    qasm: |
+      OPENQASM 2.0;
+      include "qelib1.inc";
+      qreg d[4];
+      reset d;
+      h d[0];
+      cx d[0], d[1];
+      cx d[1], d[2];
+      cx d[2], d[3];
+""")
+    (tmp_path / "p.yaml").write_text(text)
+    shutil.copy(DEMO_PATCH.parent / "flagged_weight4_round.qasm", tmp_path)
+    patch = load_patch(tmp_path / "p.yaml")
+    device = load_device(DEMO_CHIP)
+    placement = vet_patch(device, patch).ranking.placements[0]
+    with pytest.raises(InputError) as err:
+        repair_preparation(device, patch, placement, circuit="reprep")
+    assert "would borrow" in str(err.value) and "not known to start in |0>" in str(err.value)
+
+
+def test_non_clifford_and_measuring_preparations_are_not_rewritten(tmp_path):
+    device = load_device(DEMO_CHIP)
+    text = DEMO_PATCH.read_text().replace("      h d[0];\n", "      h d[0];\n      t d[0];\n")
+    (tmp_path / "p.yaml").write_text(text)
+    shutil.copy(DEMO_PATCH.parent / "flagged_weight4_round.qasm", tmp_path)
+    patch = load_patch(tmp_path / "p.yaml")
+    placement = vet_patch(device, patch).ranking.placements[0]
+    with pytest.raises(InputError) as err:
+        repair_preparation(device, patch, placement)
+    assert "not a Clifford circuit" in str(err.value) and "not rewritten" in str(err.value)
+
+
+def test_repair_command_writes_a_new_patch_and_never_overwrites(tmp_path, capsys):
+    work = tmp_path / "w"
+    work.mkdir()
+    shutil.copy(DEMO_PATCH, work / "patch.yaml")
+    shutil.copy(DEMO_PATCH.parent / "flagged_weight4_round.qasm", work)
+    out = tmp_path / "fixed.yaml"
+    assert main(["repair", str(DEMO_CHIP), str(work / "patch.yaml"), "-o", str(out)]) == 0
+    text = capsys.readouterr().out
+    assert "PROVEN" in text and (tmp_path / "fixed_prep.qasm").exists()
+    assert (work / "patch.yaml").read_text() == DEMO_PATCH.read_text()
+    assert main(["find", str(DEMO_CHIP), str(out), "--strict"]) == 0   # every circuit fits now
+    capsys.readouterr()
+    assert main(["repair", str(DEMO_CHIP), str(work / "patch.yaml"), "-o", str(out)]) == 2
+    assert "will not overwrite" in capsys.readouterr().err
