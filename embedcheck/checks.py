@@ -81,6 +81,13 @@ def run_project(project: Project, *, cross_check_top: int | None = None,
     pairs = []
     for entry in project.patches:
         patch = load_patch(entry.file)
+        if patch.detectors:                     # the noiseless sanity check comes first
+            from .simulate import check_detectors
+            problems = check_detectors(patch)
+            if problems:
+                from .io.errors import InputError
+                raise InputError(problems[0] + " (a bug in the circuit or the declaration)",
+                                 file=entry.file)
         for device in devices:
             if progress:
                 progress(f"{patch.name} on {device.name}")

@@ -35,8 +35,8 @@ def main(argv: list[str] | None = None) -> int:
     try:
         args = _parser().parse_args(argv)
         if not getattr(args, "command", None):
-            raise InputError("give a command: find, audit, check, repair, draw, validate, show or "
-                             "generate "
+            raise InputError("give a command: find, audit, check, repair, draw, code, validate, "
+                             "show or generate "
                              "(see 'embedcheck --help')")
         return args.run(args)
     except InputError as err:
@@ -155,6 +155,18 @@ def _parser() -> argparse.ArgumentParser:
                           "circuit goes beside it as <name>_<circuit>.qasm")
     fix.add_argument("--format", choices=("text", "json"), default="text")
     fix.set_defaults(run=_run_repair)
+
+    code = sub.add_parser("code", help="write a patch file for a built-in code family")
+    code.add_argument("family", choices=("repetition", "flagged", "surface"))
+    code.add_argument("--distance", type=_positive_int, default=3)
+    code.add_argument("--rounds", type=_positive_int, default=2)
+    code.add_argument("--basis", choices=("z", "x"), default="z",
+                      help="repetition code: z (bit-flip) or x (phase-flip)")
+    code.add_argument("--prep", choices=("unitary", "naive", "product"),
+                      help="flagged unit: cat state over its couplers (default), the naive "
+                           "chain, or a product state")
+    code.add_argument("--output", "-o", help="file to write (default: standard output)")
+    code.set_defaults(run=_run_code)
 
     show = sub.add_parser("show", help="summarise a chip or patch file")
     show.add_argument("file", metavar="FILE", help="chip file, folder of chip snapshots, or patch file")
@@ -583,6 +595,8 @@ def _run_validate(args) -> int:
     for path in args.files:
         kind = _kind_of(path)
         obj = load_device(path) if kind == "chip" else load_patch(path)
+        if kind == "patch" and obj.detectors:
+            _sanity(obj, path)
         results.append({"file": path, "kind": kind, "name": obj.name,
                         "qubits": obj.num_qubits, "valid": True})
     text = "\n".join(f"{r['file']}: valid {r['kind']} file '{r['name']}' ({r['qubits']} qubits)"
@@ -652,6 +666,40 @@ def _read_baseline(path: str) -> dict:
     return data
 
 
+def _run_code(args) -> int:
+    from pathlib import Path
+
+    from .codes import family_yaml
+    from .simulate import check_detectors, fault_distance
+    try:
+        text = family_yaml(args.family, distance=args.distance, rounds=args.rounds,
+                           basis=args.basis, prep=args.prep)
+    except ValueError as exc:
+        raise InputError(str(exc)) from None
+    from .codes import build_patch
+    patch = build_patch(args.family, distance=args.distance, rounds=args.rounds,
+                        basis=args.basis, prep=args.prep)
+    problems = check_detectors(patch)
+    if problems:                     # our own family failing is a bug, never a user error
+        print(f"embedcheck: internal error: {problems[0]}", file=sys.stderr)
+        return 3
+    distance = fault_distance(patch)
+    if args.output:
+        if Path(args.output).exists():
+            raise InputError("will not overwrite an existing file", file=args.output)
+        write_atomic(args.output, text)
+        shown = "infinite" if distance == float("inf") else distance
+        print(f"wrote {args.output}: patch '{patch.name}', {patch.num_qubits} qubits, "
+              f"{len(patch.detectors)} detectors (all deterministic without noise), "
+              f"circuit-level fault distance {shown}", file=sys.stderr)
+        if args.family != "flagged" and isinstance(distance, int) and distance < args.distance:
+            print(f"embedcheck: warning: fault distance {distance} is below the code distance "
+                  f"{args.distance}", file=sys.stderr)
+    else:
+        sys.stdout.write(text)
+    return 0
+
+
 def _run_show(args) -> int:
     from pathlib import Path
     kind = "chip" if Path(args.file).is_dir() else _kind_of(args.file)
@@ -687,6 +735,20 @@ def _run_generate(args) -> int:
     else:
         sys.stdout.write(text)
     return 0
+
+
+def _sanity(patch, path) -> None:
+    """Declared detectors must be deterministic without noise (stim); else bad input."""
+    from .simulate import check_detectors
+    problems = check_detectors(patch)
+    if problems:
+        line = None
+        name = problems[0].split("'")[1] if "'" in problems[0] else None
+        for det in patch.detectors:
+            if det.name == name:
+                line = det.line
+        raise InputError(problems[0] + " (a bug in the circuit or the declaration)",
+                         file=path, line=line)
 
 
 def _kind_of(path: str) -> str:

@@ -1,0 +1,91 @@
+"""Code families against stim's generated circuits: graphs, CNOT counts, detectors, distance."""
+from collections import Counter
+
+import pytest
+import rustworkx as rx
+import stim
+
+from embedcheck import Device, audit_placement, find_placements, heavy_hex
+from embedcheck.cli import main
+from embedcheck.codes import build_patch, family_yaml
+from embedcheck.io.patchfile import patch_from_stim
+from embedcheck.simulate import check_detectors, fault_distance
+
+
+def _round_graph(patch):
+    g = rx.PyGraph()
+    g.add_nodes_from(range(patch.num_qubits))
+    g.add_edges_from_no_data(list(patch.interaction_counts(["round"])))
+    return g
+
+
+@pytest.mark.parametrize("family,task,distance", [
+    ("surface", "surface_code:rotated_memory_z", 3),
+    ("surface", "surface_code:rotated_memory_z", 5),
+    ("repetition", "repetition_code:memory", 3),
+    ("repetition", "repetition_code:memory", 7),
+])
+def test_round_matches_stims_generated_circuit(family, task, distance):
+    # Reference: stim's generated memory circuits (Gidney, Quantum 5, 497 (2021)); their
+    # REPEAT body is one round.
+    ours = build_patch(family, distance=distance, rounds=3)
+    theirs = patch_from_stim(stim.Circuit.generated(task, distance=distance, rounds=4))
+    assert theirs.rounds == 3
+    assert rx.is_isomorphic(_round_graph(ours), _round_graph(theirs))
+    assert len(ours.circuits["round"].two_qubit_gates) == \
+        len(theirs.circuits["round"].two_qubit_gates)
+    assert Counter(ours.roles.values()) == Counter(theirs.roles.values())
+
+
+@pytest.mark.parametrize("family,options", [
+    ("repetition", {"distance": 3}), ("repetition", {"distance": 5}),
+    ("repetition", {"distance": 3, "basis": "x"}), ("repetition", {"distance": 4, "basis": "x"}),
+    ("flagged", {"prep": "unitary"}), ("flagged", {"prep": "product"}),
+    ("flagged", {"prep": "naive"}), ("surface", {"distance": 3}), ("surface", {"distance": 5}),
+])
+def test_every_family_passes_the_noiseless_check(family, options):
+    for rounds in (1, 3):
+        patch = build_patch(family, rounds=rounds, **options)
+        assert patch.detectors and patch.observable
+        assert check_detectors(patch) == []
+
+
+def test_a_missing_cnot_fails_and_names_the_detector(tmp_path, capsys):
+    text = family_yaml("surface", distance=3, rounds=2)
+    first_cx = next(line for line in text.splitlines() if line.strip().startswith("cx"))
+    broken = text.replace(first_cx + "\n", "", 1)
+    path = tmp_path / "broken.yaml"
+    path.write_text(broken)
+    assert main(["validate", str(path)]) == 2
+    err = capsys.readouterr().err
+    assert "is random without noise" in err and "round[" in err and "syn[" in err
+    assert err.count("\n") == 1
+
+
+@pytest.mark.parametrize("family,task,distance", [
+    ("repetition", "repetition_code:memory", 3), ("repetition", "repetition_code:memory", 5),
+    ("surface", "surface_code:rotated_memory_z", 3),
+    ("surface", "surface_code:rotated_memory_z", 5),
+])
+def test_fault_distance_equals_the_distance_as_for_stims_circuits(family, task, distance):
+    ours = fault_distance(build_patch(family, distance=distance, rounds=3))
+    theirs = fault_distance(patch_from_stim(stim.Circuit.generated(task, distance=distance,
+                                                                   rounds=3)))
+    assert ours == theirs == distance
+
+
+def test_the_flagged_family_fits_heavy_hex_with_no_added_gates():
+    patch = build_patch("flagged", rounds=2)
+    device = Device.from_lattice(heavy_hex(2, 2), name="hh")
+    result = find_placements(device, patch, limit=None)
+    assert result.placements
+    assert audit_placement(device, patch, result.placements[0]).swap_free
+
+
+def test_code_command_writes_a_valid_patch(tmp_path, capsys):
+    out = tmp_path / "rep.yaml"
+    assert main(["code", "repetition", "--distance", "5", "--rounds", "3", "-o", str(out)]) == 0
+    assert "fault distance 5" in capsys.readouterr().err
+    assert main(["validate", str(out)]) == 0
+    assert main(["code", "surface", "--distance", "4"]) == 2
+    assert "odd distance" in capsys.readouterr().err
