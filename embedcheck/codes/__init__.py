@@ -4,7 +4,7 @@ detectors and the logical observable) that the ordinary loader reads.
     >>> from embedcheck.codes import build_patch
     >>> patch = build_patch("repetition", distance=3, rounds=2)
     >>> patch.num_qubits, len(patch.detectors), patch.observable
-    (5, 6, (6,))
+    (5, 6, (4,))
 """
 from __future__ import annotations
 
