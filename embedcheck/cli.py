@@ -120,10 +120,10 @@ def _parser() -> argparse.ArgumentParser:
                             "chip's native gates, as FOLDER/<circuit>.qasm (OpenQASM 3)")
     audit.set_defaults(run=_run_audit)
 
-    check = sub.add_parser("validate", help="check chip and patch files and say what is wrong")
-    check.add_argument("files", nargs="+", metavar="FILE")
-    check.add_argument("--format", choices=("text", "json"), default="text")
-    check.set_defaults(run=_run_validate)
+    valid = sub.add_parser("validate", help="check chip and patch files and say what is wrong")
+    valid.add_argument("files", nargs="+", metavar="FILE")
+    valid.add_argument("--format", choices=("text", "json"), default="text")
+    valid.set_defaults(run=_run_validate)
 
     check = sub.add_parser("check", help="run a project file's rules for CI (exit 1 on a "
                            "failed rule)")

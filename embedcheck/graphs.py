@@ -22,34 +22,10 @@ def degree_histogram(nodes, edges) -> dict[int, int]:
 def shortest_cycle(nodes, edges) -> int | None:
     """Length of the shortest cycle (the girth), or None for a forest.
 
-    `nodes` is an iterable of node labels or a count. Breadth-first search from every
-    node, stopped as soon as it cannot beat the best cycle found so far: fast on
-    sparse chip lattices (each search sees only a ball of radius girth/2).
+    `nodes` is an iterable of node labels or a count. See `shortest_cycle_nodes`.
     """
-    nodes = range(nodes) if isinstance(nodes, int) else list(nodes)
-    adj: dict = {n: [] for n in nodes}
-    for a, b in edges:
-        adj[a].append(b)
-        adj[b].append(a)
-    best = None
-    for root in adj:
-        depth = {root: 0}
-        parent = {root: None}
-        queue = deque([root])
-        while queue:
-            u = queue.popleft()
-            if best is not None and 2 * depth[u] + 1 >= best:
-                break
-            for v in adj[u]:
-                if v not in depth:
-                    depth[v], parent[v] = depth[u] + 1, u
-                    queue.append(v)
-                elif parent[u] != v:
-                    length = depth[u] + depth[v] + 1
-                    if best is None or length < best:
-                        best = length
-    return best
-
+    cycle = shortest_cycle_nodes(nodes, edges)
+    return len(cycle) if cycle else None
 
 def _adjacency(nodes, edges):
     nodes = range(nodes) if isinstance(nodes, int) else list(nodes)
@@ -69,6 +45,10 @@ def _path_to_root(parent, node):
 
 def shortest_cycle_nodes(nodes, edges) -> list | None:
     """The nodes of one shortest cycle, in order around it, or None for a forest.
+
+    Breadth-first search from every node, stopped as soon as it cannot beat the best
+    cycle found so far: fast on sparse chip lattices (each search sees only a ball of
+    radius girth/2).
 
     >>> shortest_cycle_nodes(5, [(0, 1), (1, 2), (2, 0), (2, 3), (3, 4)])
     [0, 1, 2]

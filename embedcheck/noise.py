@@ -32,7 +32,7 @@ from .io.errors import InputError
 from .patch import Patch
 from .schedule import _median_coupler_duration
 from .search import Placement
-from .simulate import _STIM
+from .simulate import _STIM, append_detectors
 
 
 def two_qubit_depolarizing(average_error: float) -> float:
@@ -109,11 +109,7 @@ def noisy_circuit(device: Device, patch: Patch, placement: Placement, *, noise: 
         for _ in range(times):
             circuit += body
         measured += count * times
-    for det in patch.detectors:
-        circuit.append("DETECTOR", [stim.target_rec(m - measured) for m in det.measurements])
-    if patch.observable:
-        circuit.append("OBSERVABLE_INCLUDE",
-                       [stim.target_rec(m - measured) for m in patch.observable], 0)
+    append_detectors(circuit, patch, measured)
     return circuit
 
 

@@ -340,27 +340,11 @@ def _pauli_correction(patch, state, ops):
     return out
 
 
-def _rank(m):
+def _row_reduce(m):
+    """Gauss-Jordan elimination over GF(2): (reduced copy, pivot columns)."""
     m = m.copy() % 2
-    rank = 0
-    rows, cols = m.shape
-    for c in range(cols):
-        pivot = next((r for r in range(rank, rows) if m[r, c]), None)
-        if pivot is None:
-            continue
-        m[[rank, pivot]] = m[[pivot, rank]]
-        for r in range(rows):
-            if r != rank and m[r, c]:
-                m[r] ^= m[rank]
-        rank += 1
-    return rank
-
-
-def _solve_gf2(a, b):
-    """x with a x = b over GF(2), or None."""
-    rows, cols = a.shape
-    m = np.hstack([a % 2, b.reshape(-1, 1) % 2]).astype(np.uint8)
     pivots, r = [], 0
+    rows, cols = m.shape
     for c in range(cols):
         pivot = next((i for i in range(r, rows) if m[i, c]), None)
         if pivot is None:
@@ -371,7 +355,18 @@ def _solve_gf2(a, b):
                 m[i] ^= m[r]
         pivots.append(c)
         r += 1
-    if any(m[i, -1] and not m[i, :-1].any() for i in range(rows)):
+    return m, pivots
+
+
+def _rank(m):
+    return len(_row_reduce(m)[1])
+
+
+def _solve_gf2(a, b):
+    """x with a x = b over GF(2), or None."""
+    cols = a.shape[1]
+    m, pivots = _row_reduce(np.hstack([a, b.reshape(-1, 1)]).astype(np.uint8))
+    if cols in pivots:                  # a pivot in the right-hand side: no solution
         return None
     x = np.zeros(cols, dtype=np.uint8)
     for i, c in enumerate(pivots):

@@ -64,12 +64,18 @@ def to_stim(patch: Patch, *, detectors: bool = True):
                                          line=op.line)
                     circuit.append(gate, targets)
     if detectors:
-        for det in patch.detectors:
-            circuit.append("DETECTOR", [stim.target_rec(m - measured) for m in det.measurements])
-        if patch.observable:
-            circuit.append("OBSERVABLE_INCLUDE",
-                           [stim.target_rec(m - measured) for m in patch.observable], 0)
+        append_detectors(circuit, patch, measured)
     return circuit
+
+
+def append_detectors(circuit, patch: Patch, measured: int) -> None:
+    """The patch's detectors and observable, as lookbacks from `measured` measurements."""
+    import stim
+    for det in patch.detectors:
+        circuit.append("DETECTOR", [stim.target_rec(m - measured) for m in det.measurements])
+    if patch.observable:
+        circuit.append("OBSERVABLE_INCLUDE",
+                       [stim.target_rec(m - measured) for m in patch.observable], 0)
 
 
 def check_detectors(patch: Patch) -> list[str]:
