@@ -104,18 +104,32 @@ def repair_preparation(device: Device, patch: Patch, placement: Placement, *,
         raise InputError(f"a repair of '{circuit}' would borrow {', '.join(bad)} as helper(s), "
                          "but they are not known to start in |0> (not reset at the start of the "
                          "circuit); reset them there first")
-    two, depth, method, ops, helpers = min(scored, key=lambda s: (s[0], s[1]))
-    proven, proof = _prove(patch, state, ops)
-    before = _figures(device, patch, circuit, placement)
-    text = _to_qasm(patch, ops)
     from .io.qasm import read_qasm
     from .patch import Circuit
     from .simulate import fault_distance
-    fixed = _with_circuit(patch, circuit, Circuit(circuit, tuple(read_qasm(text)), text, None))
-    after = _figures(device, fixed, circuit, placement)
-    if patch.detectors and patch.observable:
+    before = _figures(device, patch, circuit, placement)
+    check_distance = bool(patch.detectors and patch.observable)
+    if check_distance:
         before["fault_distance"] = _safe(fault_distance, patch)
-        after["fault_distance"] = _safe(fault_distance, fixed)
+    lowered = []
+    for two, depth, method, ops, helpers in sorted(scored, key=lambda s: (s[0], s[1])):
+        text = _to_qasm(patch, ops)
+        fixed = _with_circuit(patch, circuit, Circuit(circuit, tuple(read_qasm(text)), text,
+                                                      None))
+        distance = _safe(fault_distance, fixed) if check_distance else None
+        if check_distance and None not in (distance, before["fault_distance"]) \
+                and distance < before["fault_distance"]:
+            lowered.append(f"{method}: {before['fault_distance']} -> {distance}")
+            continue                    # a rewrite must not lower the fault distance
+        break
+    else:
+        raise InputError(f"every rewrite of '{circuit}' lowers the circuit-level fault distance "
+                         f"({'; '.join(lowered)}); keep the original or prepare a product state "
+                         "and let the check rounds project it")
+    proven, proof = _prove(patch, state, ops)
+    after = _figures(device, fixed, circuit, placement)
+    if check_distance:
+        after["fault_distance"] = distance
     return Repair(circuit, method, text, tuple(ops), proven, proof, before, after, helpers,
                   candidates)
 

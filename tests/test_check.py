@@ -232,3 +232,23 @@ def test_placed_circuits_out(tmp_path, capsys):
     from qiskit import qasm3
     qc = qasm3.loads(placed)
     assert sum(1 for ins in qc.data if ins.operation.name == "cx") == 12
+
+
+@pytest.mark.parametrize("family,options", [("repetition", {"distance": 5}),
+                                            ("surface", {"distance": 3}),
+                                            ("flagged", {"prep": "unitary"})])
+def test_exact_audit_agrees_with_qiskit_on_family_patches(family, options):
+    # Reference: qiskit's transpiler at optimization_level=0, as above, on 50 placements of
+    # each family patch on an invented square-grid chip (the swap-free ones and random ones).
+    from embedcheck.codes import build_patch
+    from embedcheck.lattices import square_grid
+    patch = build_patch(family, rounds=2, **options)
+    device = Device.from_lattice(square_grid(5, 6), name="grid")
+    found = list(vet_patch(device, patch, limit=25).ranking.placements)[:25]
+    rng = random.Random(23)
+    placements = found + [Placement(tuple(rng.sample(device.live_qubits, patch.num_qubits)))
+                          for _ in range(50 - len(found))]
+    for placement in placements:
+        for c in audit_placement(device, patch, placement).circuits:
+            after = transpile_on_placement(device, patch, c.circuit, placement)["two_qubit_gates"]
+            assert (after == c.two_qubit_gates) == c.swap_free, (family, c.circuit)
