@@ -320,10 +320,22 @@ def _run_find(args) -> int:
     if progress:
         print("\r" + " " * 40 + "\r", end="", file=sys.stderr)
     payload = report_data.find_dict(vetting, top=args.top)
+    if args.decode and not args.monte_carlo:
+        raise InputError("--decode decodes sampled shots: give --monte-carlo SHOTS too")
     logical = _logical_ranking(args, device, patch, vetting)
     if logical is not None:
-        payload["logical"] = report_data.logical_dict(patch, logical, args.top)
-        payload["figure"] = logical.figure
+        payload["logical"] = report_data.logical_dict(patch, logical, args.top,
+                                                      sampled=bool(args.monte_carlo))
+        payload["ranked_by"] = logical.figure
+    elif patch.detectors and patch.observable and vetting.all_swap_free:
+        from .simulate import _spanned_by_detectors
+        if _spanned_by_detectors(patch):
+            payload["logical_note"] = ("the logical observable is a parity of the declared "
+                                       "detectors, so no fault flips it unseen and the logical "
+                                       "figures are 0 everywhere; ranked by fidelity_product")
+    if args.monte_carlo and logical is None:
+        payload.setdefault("logical_note", "--monte-carlo needs a patch with detectors and an "
+                           "observable on which every circuit is swap-free; nothing sampled")
     elif args.figure in ("undetected", "kept"):
         raise InputError(f"--figure {args.figure}: no placement makes every circuit swap-free, "
                          "so there is no noisy circuit to score; use fidelity_product")
@@ -367,10 +379,14 @@ def _logical_ranking(args, device, patch, vetting):
     if figure == "auto":
         if not swap_free or not patch.detectors or not patch.observable:
             return None
+        from .simulate import _spanned_by_detectors
+        if _spanned_by_detectors(patch):     # no fault flips it unseen: every score is 0
+            return None
         figure = "undetected"
     if not swap_free:
         return None
     require_detectors(patch)
+    _sanity(patch, patch.source)
     progress = _progress()
     out = rank_by_logical(device, patch, swap_free, figure=figure,
                           monte_carlo_shots=args.monte_carlo or 0, top=args.top,

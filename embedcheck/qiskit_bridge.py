@@ -7,7 +7,7 @@ The chip becomes a `CouplingMap` of its live couplers in both directions.
 from __future__ import annotations
 
 from .device import CouplerCalibration, Device, QubitCalibration, pair
-from .io.qasm import qasm_version
+from .io.qasm import declared_qubits, qasm_version
 from .patch import Patch
 from .search import Placement
 
@@ -24,15 +24,13 @@ def qiskit_circuit(patch: Patch, circuit: str):
         qc = qasm2.loads(text, custom_instructions=qasm2.LEGACY_CUSTOM_INSTRUCTIONS)
     else:
         qc = qasm3.loads(text)
-    names = []
-    for bit in qc.qubits:
-        regs = qc.find_bit(bit).registers
-        if regs:
-            reg, i = regs[0]
-            names.append(f"{reg.name}{i}" if reg.size > 1 or reg.name not in patch.index
-                         else reg.name)
-        else:
-            names.append(f"q{qc.find_bit(bit).index}")
+    # qiskit keeps the declaration order; our own reader gives each declared qubit its
+    # patch name (a scalar `qubit a;` has no register in qiskit, so names cannot come
+    # from registers alone).
+    names = declared_qubits(text)
+    if len(names) != qc.num_qubits:
+        raise ValueError(f"circuit '{circuit}': qiskit reads {qc.num_qubits} qubits, "
+                         f"our reader {len(names)}")
     return qc, names
 
 

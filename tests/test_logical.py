@@ -160,7 +160,7 @@ def test_find_ranks_by_the_logical_figure(tmp_path, capsys):
                  "--monte-carlo", "5000", "--format", "json"])
     import json
     data = json.loads(capsys.readouterr().out)
-    assert code == 0 and data["figure"] == "undetected"
+    assert code == 0 and data["ranked_by"] == "undetected" and data["figure"] == "fidelity_product"
     top = data["logical"]["top"]
     assert top[0]["undetected"] <= top[1]["undetected"]
     assert 0 < top[0]["monte_carlo"]["kept_fraction"] <= 1

@@ -375,3 +375,16 @@ def _error_line(exc):
 
 def _first_line(exc):
     return _parser_message(exc)[1]
+
+
+def declared_qubits(text: str) -> list[str]:
+    """Patch qubit names of every declared qubit, in declaration order (d[0] -> d0, a -> a)."""
+    with contextlib.redirect_stderr(io.StringIO()):
+        program = openqasm3.parse(text)
+    names = []
+    for stmt in program.statements:
+        if isinstance(stmt, ast.QubitDeclaration):
+            size = None if stmt.size is None else _integer(stmt.size)
+            name = stmt.qubit.name
+            names += [name] if size is None else [f"{name}{i}" for i in range(size)]
+    return names

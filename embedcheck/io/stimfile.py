@@ -159,6 +159,12 @@ class _Walker:
         name = inst.name
         data = stim.gate_data(name)
         targets = inst.targets_copy()
+        if name in ("DETECTOR", "OBSERVABLE_INCLUDE"):
+            for t in targets:
+                if self.measured + t.value < 0:
+                    raise InputError(f"stim: {name} looks back to rec[{t.value}] but only "
+                                     f"{self.measured} measurement(s) came before it",
+                                     file=self.file, line=line)
         if name == "DETECTOR":
             self.detectors.append(tuple(self.measured + t.value for t in targets))
             self.detector_lines.append(line)

@@ -318,7 +318,7 @@ def sdk_dict(device, patch, vetting) -> dict:
             "of": len(vetting.ranking.placements), "figure": vetting.ranking.figure}
 
 
-def logical_dict(patch, logical, top: int = 10) -> dict:
+def logical_dict(patch, logical, top: int = 10, sampled: bool = False) -> dict:
     """The ranking by a logical figure, with Monte Carlo results where sampled."""
     rows = []
     for i in range(min(top, len(logical.placements))):
@@ -338,6 +338,8 @@ def logical_dict(patch, logical, top: int = 10) -> dict:
                 "decoded_interval": None if mc.decoded_errors is None
                 else list(mc.interval("decoded"))}
         rows.append(row)
+    method = "stim detector error model, lowest order"
+    if sampled:
+        method += "; Monte Carlo with Wilson 95% intervals"
     return {"figure": logical.figure, "placements": len(logical.placements), "top": rows,
-            "method": "stim detector error model, lowest order; Monte Carlo with Wilson 95% "
-                      "intervals"}
+            "method": method}

@@ -119,6 +119,8 @@ def render_find(d: dict) -> str:
         out += ["", "On the best placement, these gates land on uncoupled qubits "
                     "(exact; a router would add SWAPs, 3 two-qubit gates each):"]
         out += _off_gates(best)
+    if d.get("logical_note"):
+        out += ["", f"Note: {d['logical_note']}."]
     logical = d.get("logical")
     if logical:
         out += ["", f"Ranked by {logical['figure']} ({logical['method']}; "
@@ -191,8 +193,12 @@ def render_audit(d: dict) -> str:
     out.append("  (2q: two-qubit gates as CNOTs; meas: measurements; off: off-coupler; "
                "dir: direction fixes only)")
     lines = _off_gates(d["audit"])
-    if lines:
-        out += ["", "Off-coupler gates (exact):"] + lines
+    gates = [line for line in lines if "router estimate" not in line]
+    estimates = [line for line in lines if "router estimate" in line]
+    if gates:
+        out += ["", "Off-coupler gates (exact):"] + gates
+    if estimates:
+        out += ["", "Router estimates (qiskit, not exact):"] + estimates
     score = d.get("score")
     if score:
         terms = ", ".join(f"{k.replace('_', ' ')} {v:.4f}" for k, v in score["terms"].items())
