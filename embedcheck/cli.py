@@ -166,6 +166,8 @@ def _parser() -> argparse.ArgumentParser:
                       help="flagged unit: cat state over its couplers (default), the naive "
                            "chain, or a product state")
     code.add_argument("--output", "-o", help="file to write (default: standard output)")
+    code.add_argument("--format", choices=("text", "json"), default="text",
+                      help="json: one object with the patch file's text")
     code.set_defaults(run=_run_code)
 
     show = sub.add_parser("show", help="summarise a chip or patch file")
@@ -181,6 +183,8 @@ def _parser() -> argparse.ArgumentParser:
     gen.add_argument("--size", type=_positive_int, help="qubits, for line and ring")
     gen.add_argument("--name", help="chip name (default: from the family and size)")
     gen.add_argument("--output", "-o", help="file to write (default: standard output)")
+    gen.add_argument("--format", choices=("text", "json"), default="text",
+                     help="json: one object with the chip file's text")
     gen.set_defaults(run=_run_generate)
     return top
 
@@ -198,16 +202,35 @@ def _constraint_options(p):
                    help="every CNOT must run in its coupler's native direction")
 
 
-def _constraints_from(args, patch):
+def _check_against_chip(rules, device) -> None:
+    """Constraint values that name parts the chip does not have are mistakes, not no-ops."""
+    known = set(device.qubits)
+    for label, qubits in (("--exclude-qubits", rules.exclude_qubits),
+                          ("--region", rules.region or ())):
+        missing = sorted(set(qubits) - known)
+        if missing:
+            raise InputError(f"{label}: chip '{device.name}' has no qubit {missing[0]}")
+    for a, b in sorted(rules.exclude_couplers):
+        if (a, b) not in set(device.couplers):
+            raise InputError(f"--exclude-couplers: {a}-{b} is not a coupler of chip "
+                             f"'{device.name}'")
+
+
+def _constraints_from(args, patch, device):
     """The patch's constraints merged with the command line's (the command line adds)."""
     from dataclasses import replace
     from .constraints import Constraints, build
+    try:
+        build(args.require)
+    except InputError as err:
+        raise InputError(f"--require: {err.message}") from None
     given = build(args.require, exclude_qubits=_int_list(args.exclude_qubits, "--exclude-qubits"),
                   exclude_couplers=_pair_list(args.exclude_couplers),
                   region=_int_list(args.region, "--region") if args.region else None,
                   region_box=_floats(args.region_box) if args.region_box else None,
                   forbid_direction_fixes=args.forbid_direction_fixes)
     base = patch.constraints or Constraints()
+    _check_against_chip(given, device)
     if given.empty:
         return base if not base.empty else None
     roles = {r: tuple(base.roles.get(r, ())) + tuple(given.roles.get(r, ()))
@@ -226,9 +249,12 @@ def _int_list(text, option):
     for part in filter(None, (t.strip() for t in (text or "").split(","))):
         lo, sep, hi = part.partition("-")
         try:
-            out += list(range(int(lo), int(hi) + 1)) if sep else [int(part)]
+            first, last = (int(lo), int(hi)) if sep else (int(part), int(part))
         except ValueError:
             raise InputError(f"{option}: '{part}' is not a qubit number or range") from None
+        if last < first:
+            raise InputError(f"{option}: range '{part}' runs backwards; write {last}-{first}")
+        out += list(range(first, last + 1))
     return out
 
 
@@ -244,12 +270,15 @@ def _pair_list(text):
 
 
 def _floats(text):
+    import math
     try:
         values = [float(t) for t in text.split(",")]
     except ValueError:
         values = []
-    if len(values) != 4:
-        raise InputError(f"--region-box: '{text}' should be four numbers x0,y0,x1,y1")
+    if len(values) != 4 or not all(math.isfinite(v) for v in values):
+        raise InputError(f"--region-box: '{text}' should be four finite numbers x0,y0,x1,y1")
+    if values[2] < values[0] or values[3] < values[1]:
+        raise InputError(f"--region-box: '{text}' is empty: x1 must be >= x0 and y1 >= y0")
     return values
 
 
@@ -316,7 +345,7 @@ def _run_find(args) -> int:
             _check_picture_path(target)
     progress = _progress()
     vetting = vet_patch(device, patch, limit=args.limit, budget_s=args.budget_s,
-                        progress=progress, constraints=_constraints_from(args, patch))
+                        progress=progress, constraints=_constraints_from(args, patch, device))
     if progress:
         print("\r" + " " * 40 + "\r", end="", file=sys.stderr)
     payload = report_data.find_dict(vetting, top=args.top)
@@ -424,6 +453,15 @@ def _run_repair(args) -> int:
             raise InputError(f"no placement ranked {k}: 'find' ranks {len(placements)} "
                              f"(the other circuits, {', '.join(core)}, must fit first)")
         placement = placements[k - 1]
+    already = next((c for c in audit_placement(device, patch, placement).circuits
+                    if c.circuit == args.circuit), None)
+    if already is not None and already.swap_free:
+        _emit(args, {"tool": "embedcheck", "version": __version__, "command": "repair",
+                     "circuit": args.circuit, "nothing_to_do": True,
+                     "placement": placement.as_dict(patch)},
+              f"'{args.circuit}' is already swap-free on this placement: nothing to repair, "
+              "nothing written.")
+        return 0
     repair = repair_preparation(device, patch, placement, circuit=args.circuit)
     for figures in (repair.before, repair.after):       # JSON has no infinity
         if figures.get("fault_distance") == float("inf"):
@@ -711,7 +749,11 @@ def _run_code(args) -> int:
         if args.family != "flagged" and isinstance(distance, int) and distance < args.distance:
             print(f"embedcheck: warning: fault distance {distance} is below the code distance "
                   f"{args.distance}", file=sys.stderr)
-    else:
+    if args.format == "json":
+        _emit(args, {"tool": "embedcheck", "version": __version__, "command": "code",
+                     "name": patch.name, "file": args.output, "text": text,
+                     "fault_distance": "infinite" if distance == float("inf") else distance}, "")
+    elif not args.output:
         sys.stdout.write(text)
     return 0
 
@@ -748,7 +790,10 @@ def _run_generate(args) -> int:
     if args.output:
         write_atomic(args.output, text)
         print(f"wrote {args.output}: chip '{name}' with PLACEHOLDER calibration", file=sys.stderr)
-    else:
+    if args.format == "json":
+        _emit(args, {"tool": "embedcheck", "version": __version__, "command": "generate",
+                     "name": name, "file": args.output, "text": text}, "")
+    elif not args.output:
         sys.stdout.write(text)
     return 0
 

@@ -126,6 +126,10 @@ def parse_bound(text: str, figures=QUBIT_FIGURES + COUPLER_FIGURES) -> Bound:
         number = float(value)
     except ValueError:
         raise InputError(f"'{value}' in '{text}' is not a number") from None
+    if name.endswith("_error") and not 0 <= number <= 1:
+        raise InputError(f"'{text.strip()}': an error bound must lie in [0, 1]")
+    if not name.endswith("_error") and number < 0:
+        raise InputError(f"'{text.strip()}': a time bound cannot be negative")
     return Bound(name, op, number)
 
 

@@ -221,8 +221,16 @@ def rank_across_snapshots(snapshots: Sequence[Device], patch: Patch,
         logs.append(sum(terms.values()))
         unscored.append(off)
     logs = np.array(logs).reshape(len(snapshots), len(placements))
-    worst_off = np.max(np.array(unscored).reshape(len(snapshots), -1), axis=0) \
-        if len(placements) else np.zeros(0, dtype=np.int64)
+    unscored = np.array(unscored).reshape(len(snapshots), len(placements))
+    # A placement that needs more off-coupler gates in some snapshot than it does at its
+    # best (a coupler or qubit dead that day), or sits on a qubit dead that day, cannot
+    # run as planned then: it scores 0 (log -inf) in that snapshot.
+    fewest = unscored.min(axis=0) if len(placements) else unscored
+    for s, device in enumerate(snapshots):
+        dead = np.isin(grid, list(device.dead_qubits)).any(axis=1) if device.dead_qubits \
+            else np.zeros(len(placements), dtype=bool)
+        logs[s, (unscored[s] > fewest) | dead] = -np.inf
+    worst_off = fewest
     if by == "mean":
         agg = logs.mean(axis=0)
     elif by == "worst":
@@ -236,7 +244,7 @@ def rank_across_snapshots(snapshots: Sequence[Device], patch: Patch,
     logs = logs[:, order]
     ranks = []
     for s in range(len(snapshots)):
-        own = np.lexsort((-logs[s], worst_off[order]))
+        own = np.lexsort((-logs[s], worst_off[order]))      # that snapshot's own order
         ranks.append(int(np.nonzero(own == 0)[0][0]) + 1 if len(placements) else 0)
     stable = float(np.mean([r <= top_k for r in ranks])) if ranks else 0.0
     newest = int(np.lexsort((-logs[-1], worst_off[order]))[0]) + 1 if len(placements) else 0

@@ -182,3 +182,59 @@ def test_near_miss_circuit_name(tmp_path, capsys):
     (tmp_path / "flagged_weight4_round.qasm").write_text("")
     err = _bad(tmp_path, capsys, text, name="patch.yaml")
     assert "circuit 'rounds' is not one of prep, round, readout (did you mean 'round'?)" in err
+
+
+@pytest.mark.parametrize("extra,expected", [
+    (["--region", "40-0"], "--region: range '40-0' runs backwards"),
+    (["--region-box", "3,3,0,0"], "--region-box: '3,3,0,0' is empty"),
+    (["--region-box", "0,0,nan,inf"], "should be four finite numbers"),
+    (["--exclude-qubits", "999"], "--exclude-qubits: chip 'demo-heavy-hex-87' has no qubit 999"),
+    (["--exclude-couplers", "3-5"], "--exclude-couplers: 3-5 is not a coupler"),
+    (["--require", "ancilla: readout_error <= -1"], "--require: 'readout_error <= -1': an "
+                                                    "error bound must lie in [0, 1]"),
+    (["--decode"], "--decode decodes sampled shots: give --monte-carlo SHOTS too"),
+])
+def test_bad_find_options(capsys, extra, expected):
+    code, out, err = run(capsys, "find", DEMO_CHIP, FIXED_PATCH, *extra)
+    assert code == 2 and out == "" and expected in err and err.count("\n") == 1
+
+
+def test_scalar_openqasm3_qubits_reach_qiskit_with_their_names(tmp_path, capsys):
+    # A scalar `qubit a0;` has no register in qiskit: names must follow declaration order.
+    (tmp_path / "p.yaml").write_text(textwrap.dedent("""\
+        embedcheck_patch: 1
+        name: scalar
+        qubits: {data: [d0, d1], ancilla: [a0]}
+        circuits:
+          round:
+            qasm: |
+              OPENQASM 3.0;
+              include "stdgates.inc";
+              qubit d0;
+              qubit a0;
+              qubit d1;
+              bit c;
+              cx d0, a0;
+              cx d1, a0;
+              c = measure a0;
+        """))
+    chip = tmp_path / "line.yaml"
+    chip.write_text(GOOD_CHIP)
+    code, out, err = run(capsys, "audit", chip, tmp_path / "p.yaml", "--placement",
+                         "d0=0,a0=1,d1=2", "--cross-check", "--router-estimate", "--format",
+                         "json")
+    data = json.loads(out)
+    assert code == 0 and data["cross_check"]["disagreements"] == []
+    assert data["audit"]["circuits"][0]["router_estimate"]["added_two_qubit_gates"] == 0
+
+
+def test_project_rule_naming_a_missing_circuit(tmp_path, capsys):
+    text = (DEMO_PATCH.parent / "project.yaml").read_text().replace(
+        "max_off_coupler_gates: 0 ", "max_off_coupler_gates: {prepp: 1} ")
+    text = text.replace("../devices/", str(DEMO_CHIP.parent) + "/")
+    for f in ("flagged_weight4.yaml", "flagged_weight4_round.qasm",
+              "flagged_weight4_coupler_prep.yaml"):
+        (tmp_path / f).write_text((DEMO_PATCH.parent / f).read_text())
+    (tmp_path / "project.yaml").write_text(text)
+    code, _, err = run(capsys, "check", tmp_path / "project.yaml")
+    assert code == 2 and "has no circuit 'prepp' (did you mean 'prep'?)" in err

@@ -39,6 +39,10 @@ def load_snapshots(path: str | Path) -> tuple[Device, ...]:
             raise InputError("the folder holds no .yaml chip files", file=str(path))
         devices = [d for f in files for d in devices_from_document(read_yaml(f, "chip"))]
         _same_graph(devices)
+        for d in devices:
+            if len(devices) > 1 and d.calibration_timestamp is None:
+                raise InputError("every snapshot in a folder needs a calibration 'timestamp' to "
+                                 "be told apart", file=d.source)
     else:
         devices = devices_from_document(read_yaml(path, "chip"))
     return tuple(sorted(devices, key=lambda d: _when(d.calibration_timestamp)))

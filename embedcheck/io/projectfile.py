@@ -9,7 +9,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Mapping
 
-from .errors import InputError
+from .errors import InputError, did_you_mean
 from .yamlfile import Document, read_yaml
 
 DEFAULT_RULES = {"max_off_coupler_gates": 0, "min_placements": 1, "score_floor": None,
@@ -62,6 +62,7 @@ def load_project(path: str | Path) -> Project:
             raise doc.error(("chips", i), f"chip file '{chip}' not found (looked for {full})")
         chips.append((str(full), doc.line(("chips", i))))
     patches = []
+    rule_lines = {}
     for i, entry in enumerate(data["patches"]):
         file = entry if isinstance(entry, str) else entry["file"]
         full = base / file
@@ -71,16 +72,34 @@ def load_project(path: str | Path) -> Project:
         if isinstance(entry, dict) and "rules" in entry:
             rules = _rules(doc, ("patches", i, "rules"), entry["rules"], _as_raw(project_rules))
         patches.append(PatchEntry(str(full), rules, doc.line(("patches", i))))
+        rule_lines[str(full)] = ("patches", i, "rules", "max_off_coupler_gates") \
+            if isinstance(entry, dict) and "rules" in entry else ("rules", "max_off_coupler_gates")
     reports = {kind: str(base / target) for kind, target in data.get("reports", {}).items()}
     for kind, target in reports.items():
         if not Path(target).parent.is_dir():
             raise doc.error(("reports", kind), f"folder for report '{target}' does not exist")
+    _check_rule_circuits(doc, patches, rule_lines)
     cross = data.get("cross_check", {})
     search = data.get("search", {})
     return Project(name=data["name"], file=doc.file, chips=tuple(chips), patches=tuple(patches),
                    reports=reports, cross_check_top=cross.get("top", 3),
                    cross_check_seed=cross.get("seed", 11), limit=search.get("limit", 10_000),
                    budget_s=search.get("budget_s", 60.0))
+
+
+def _check_rule_circuits(doc, patches, rule_lines) -> None:
+    """Circuit names in max_off_coupler_gates must be circuits of the patch (typos are errors)."""
+    from .patchfile import load_patch
+    for entry in patches:
+        named = [c for c in entry.rules.max_off_coupler_gates if c != "*"]
+        if not named:
+            continue
+        circuits = list(load_patch(entry.file).circuits)
+        for name in named:
+            if name not in circuits:
+                raise doc.error(rule_lines[entry.file] + (name,),
+                                f"patch {Path(entry.file).name} has no circuit '{name}'"
+                                f"{did_you_mean(name, circuits)}")
 
 
 def _as_raw(rules: Rules) -> dict:

@@ -28,6 +28,9 @@ def write_atomic_bytes(path: str | Path, data: bytes) -> None:
     try:
         with os.fdopen(fd, "wb") as out:
             out.write(data)
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)          # mkstemp makes 0600; files are the user's
         os.replace(tmp, path)
     except BaseException:
         if os.path.exists(tmp):

@@ -27,7 +27,7 @@ def chip_summary(device: Device) -> dict:
 def patch_summary(patch: Patch) -> dict:
     roles = {r: list(patch.qubits_with_role(r)) for r in ("data", "flag", "ancilla")}
     return {"name": patch.name, "file": patch.source, "qubits": patch.num_qubits,
-            "roles": roles, "rounds": patch.rounds}
+            "roles": roles, "rounds": patch.rounds, "roles_inferred": patch.roles_inferred}
 
 
 def placement_rows(patch: Patch, ranking: Ranking, off, top: int | None) -> list[dict]:

@@ -41,7 +41,11 @@ def render_find(d: dict) -> str:
         dead.append(f"{len(chip['dead_couplers'])} dead coupler(s)")
     out = [f"Patch '{patch['name']}' ({patch['qubits']} qubits: {roles}; {patch['rounds']} "
            f"round(s)) on chip '{chip['name']}' ({chip['qubits']} qubits, "
-           f"{chip['live_couplers']} live couplers{', ' + ', '.join(dead) if dead else ''})", ""]
+           f"{chip['live_couplers']} live couplers{', ' + ', '.join(dead) if dead else ''})"]
+    if patch.get("roles_inferred"):
+        out.append("Roles were inferred from the circuits (give 'qubits:' or 'role_registers:' "
+                   "in a patch file to set them).")
+    out.append("")
     out.append(f"  {'circuit':<12} {'runs':>4} {'2q gates':>8} {'measures':>8}  "
                f"{'fits alone':<10}  on the placements below")
     for c in d["circuits"]:
