@@ -150,6 +150,10 @@ def _parser() -> argparse.ArgumentParser:
     where.add_argument("--pick", type=_positive_int, help="the placement ranked N by 'find' "
                        "(default 1)")
     fix.add_argument("--circuit", default="prep", help="the circuit to rewrite (default prep)")
+    fix.add_argument("--method", choices=("best", "product"), default="best",
+                     help="best: the best proven unitary rewrite (default); product: a product "
+                          "state that the check rounds project, verified by simulation, with "
+                          "first-round detectors it makes random dropped")
     fix.add_argument("--output", "-o", required=True,
                      help="the new patch file to write (never the patch itself); the repaired "
                           "circuit goes beside it as <name>_<circuit>.qasm")
@@ -462,6 +466,8 @@ def _run_repair(args) -> int:
               f"'{args.circuit}' is already swap-free on this placement: nothing to repair, "
               "nothing written.")
         return 0
+    if args.method == "product":
+        return _run_projection(args, device, patch, placement, out, qasm_path)
     repair = repair_preparation(device, patch, placement, circuit=args.circuit)
     for figures in (repair.before, repair.after):       # JSON has no infinity
         if figures.get("fault_distance") == float("inf"):
@@ -484,7 +490,36 @@ def _run_repair(args) -> int:
     return 0
 
 
-def _repaired_yaml(source, target, circuit, qasm_name) -> str:
+def _run_projection(args, device, patch, placement, out, qasm_path) -> int:
+    from pathlib import Path
+
+    from .repair import project_preparation
+    projection, fixed = project_preparation(patch, circuit=args.circuit)
+    audit = audit_placement(device, fixed, placement)
+    text = _repaired_yaml(Path(args.patch), out, args.circuit, qasm_path.name,
+                          drop=projection.dropped_detectors)
+    header = (f"// Product-state preparation by embedcheck for circuit '{args.circuit}' of "
+              f"patch '{patch.name}';\n// the check rounds project it; {projection.proof}\n")
+    write_atomic(qasm_path, header + projection.qasm)
+    write_atomic(out, text)
+    payload = {"tool": "embedcheck", "version": __version__, "command": "repair",
+               "method": "product", "circuit": args.circuit, "basis": projection.basis,
+               "proof": projection.proof, "frame_corrections": list(projection.corrections),
+               "dropped_detectors": list(projection.dropped_detectors),
+               "swap_free": audit.swap_free, "placement": placement.as_dict(patch),
+               "wrote": {"patch": str(out), "circuit": str(qasm_path)}}
+    lines = [f"Product-state option for '{args.circuit}' (|{'0' if projection.basis == 'z' else '+'}"
+             f"...> then the check rounds): {projection.proof}.",
+             f"  frame corrections seen: {'; '.join(projection.corrections)}",
+             f"  first-round detectors dropped (random after a product state): "
+             f"{', '.join(projection.dropped_detectors) or 'none'}",
+             f"  every circuit swap-free on this placement: {'yes' if audit.swap_free else 'no'}",
+             f"Wrote {out} and {qasm_path} (your patch file is unchanged)."]
+    _emit(args, payload, "\n".join(lines))
+    return 0
+
+
+def _repaired_yaml(source, target, circuit, qasm_name, drop=()) -> str:
     """The patch file re-written for `target`: the circuit now from `qasm_name`, other file
     paths re-based; comments are not kept."""
     import os
@@ -499,6 +534,9 @@ def _repaired_yaml(source, target, circuit, qasm_name) -> str:
                 spec[key] = os.path.relpath(full, target.resolve().parent)
     data["circuits"][circuit] = {"file": qasm_name,
                                  "description": f"repaired by embedcheck from {source.name}"}
+    if drop and "detectors" in data:
+        data["detectors"] = [d for i, d in enumerate(data["detectors"])
+                             if d.get("name", f"D{i}") not in set(drop)]
     data["name"] = f"{data['name']}-repaired"
     return (f"# Written by 'embedcheck repair' from {source.name}; circuit '{circuit}' is now "
             f"{qasm_name}.\n" + yaml.safe_dump(data, sort_keys=False, width=100))

@@ -176,3 +176,40 @@ def test_repair_command_writes_a_new_patch_and_never_overwrites(tmp_path, capsys
     capsys.readouterr()
     assert main(["repair", str(DEMO_CHIP), str(work / "patch.yaml"), "-o", str(out)]) == 2
     assert "will not overwrite" in capsys.readouterr().err
+
+
+def test_product_state_option_is_verified_and_drops_random_detectors(tmp_path, capsys):
+    from embedcheck.repair import project_preparation
+    from embedcheck.simulate import check_detectors
+    patch = load_patch(DEMO_PATCH)
+    projection, fixed = project_preparation(patch, runs=24)
+    assert projection.basis == "z" and "Z on d0" in projection.corrections
+    assert projection.dropped_detectors == ("X_first",)
+    assert check_detectors(fixed) == [] and len(fixed.detectors) == 11
+    device = load_device(DEMO_CHIP)
+    assert all(audit_placement(device, fixed, p).swap_free
+               for p in vet_patch(device, fixed).ranking.placements)
+    out = tmp_path / "product.yaml"
+    assert main(["repair", str(DEMO_CHIP), str(DEMO_PATCH), "--method", "product",
+                 "-o", str(out)]) == 0
+    assert "X_first" in capsys.readouterr().out
+    assert main(["validate", str(out)]) == 0
+    assert "X_first" not in out.read_text()
+
+
+def test_product_state_option_refuses_what_rounds_cannot_project():
+    from embedcheck.codes import build_patch
+    from embedcheck.repair import project_preparation
+    # |+00> on a bit-flip repetition code: its ZZ checks fix neither X(d0) nor Z(d1)
+    # from any product state, so no round projects a product state onto it.
+    patch = build_patch("repetition", distance=3, rounds=2)
+    from dataclasses import replace
+    from embedcheck.io.qasm import read_qasm
+    from embedcheck.patch import Circuit
+    text = ('OPENQASM 2.0;\ninclude "qelib1.inc";\nqreg d[3];\nqreg a[2];\n'
+            'h d[0];\nid d[1];\nid d[2];\n')
+    cat = replace(patch, circuits={**patch.circuits,
+                                   "prep": Circuit("prep", tuple(read_qasm(text)), text)})
+    with pytest.raises(InputError) as err:
+        project_preparation(cat)
+    assert "does not project a product state" in str(err.value)
