@@ -161,7 +161,8 @@ def _parser() -> argparse.ArgumentParser:
     fix.set_defaults(run=_run_repair)
 
     code = sub.add_parser("code", help="write a patch file for a built-in code family")
-    code.add_argument("family", choices=("repetition", "flagged", "surface"))
+    code.add_argument("family", choices=("repetition", "flagged", "surface", "heavy-hex",
+                                         "heavy-hex-chipfit"))
     code.add_argument("--distance", type=_positive_int, default=3)
     code.add_argument("--rounds", type=_positive_int, default=2)
     code.add_argument("--basis", choices=("z", "x"), default="z",

@@ -89,3 +89,36 @@ def test_code_command_writes_a_valid_patch(tmp_path, capsys):
     assert main(["validate", str(out)]) == 0
     assert main(["code", "surface", "--distance", "4"]) == 2
     assert "odd distance" in capsys.readouterr().err
+
+
+@pytest.mark.parametrize("d", [3, 5, 7])
+def test_heavy_hex_code_layout_matches_rustworkx(d):
+    # Reference: rustworkx.generators.heavy_hex_graph(d), whose docstring cites the same
+    # paper's lattice figure; (5d^2 - 2d - 1)/2 qubits and d^2 data qubits (Chamberland
+    # et al., Phys. Rev. X 10, 011022 (2020); also qiskit's CouplingMap.from_heavy_hex).
+    patch = build_patch("heavy-hex", distance=d, rounds=2)
+    g = rx.PyGraph()
+    g.add_nodes_from(range(patch.num_qubits))
+    g.add_edges_from_no_data(list(patch.interaction_counts()))
+    assert rx.is_isomorphic(g, rx.generators.heavy_hex_graph(d))
+    assert patch.num_qubits == (5 * d * d - 2 * d - 1) // 2
+    assert len(patch.qubits_with_role("data")) == d * d
+
+
+@pytest.mark.parametrize("family", ["heavy-hex", "heavy-hex-chipfit"])
+@pytest.mark.parametrize("d", [3, 5])
+def test_heavy_hex_families_are_sound(family, d):
+    patch = build_patch(family, distance=d, rounds=2)
+    assert check_detectors(patch) == []
+    assert fault_distance(patch) == d
+
+
+def test_the_chip_fitting_variant_embeds_in_heavy_hex_and_the_paper_layout_does_not():
+    from embedcheck.graphs import shortest_cycle
+    chip = Device.from_lattice(heavy_hex(6, 6), name="hh")
+    variant = build_patch("heavy-hex-chipfit", distance=3, rounds=2)
+    assert shortest_cycle(variant.num_qubits, list(variant.interaction_counts())) == 12
+    placed = find_placements(chip, variant, limit=1)
+    assert placed.placements and audit_placement(chip, variant, placed.placements[0]).swap_free
+    paper = find_placements(chip, build_patch("heavy-hex", distance=3, rounds=2))
+    assert not paper.placements and "a cycle of length 10" in paper.reasons[0]

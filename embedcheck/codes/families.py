@@ -19,13 +19,26 @@ deterministic without noise, circuit-level fault distance):
   SW, NE, SE for Z checks, so that hook errors lie across the logical operators
   (Tomita & Svore, Phys. Rev. A 90, 062320 (2014)). Preparation: |0...0>; in the first
   round only Z checks are detectors. Observable: Z on the top row of data.
+- `heavy-hex` (the heavy-hex code of Chamberland et al., Phys. Rev. X 10, 011022 (2020),
+  odd d, Z memory): d^2 data, (d^2 - 1)/2 syndrome qubits and d(d - 1) flags; weight-4 X
+  gauges measured as in the flagged unit, weight-2 X gauges on the top and bottom edges,
+  weight-2 Z gauges Z(D(r, c)) Z(D(r+1, c)) on the flag between them. Detectors: the X
+  stabilizers (all X gauges on a pair of columns) compared round to round, the Z
+  stabilizers (weight-4 blocks without an X gauge, weight-2 on the left and right edges)
+  from the first round on, and the flags of the X gauges. Its edge cycles have 10 qubits,
+  so it does not embed in a heavy-hex chip (shortest cycle 12).
+- `heavy-hex-chipfit`: the same code with each edge X gauge measured through two extra
+  flags (a cat state on flag, syndrome, flag, like the weight-4 unit), which lengthens
+  the edge cycles to 12 so that the patch embeds in heavy-hex chips with no added gate.
+  Our own variant: the tests check its detectors, its fault distance (= d for d = 3, 5)
+  and the embedding.
 """
 from __future__ import annotations
 
 import tempfile
 from pathlib import Path
 
-FAMILIES = ("repetition", "flagged", "surface")
+FAMILIES = ("repetition", "flagged", "surface", "heavy-hex", "heavy-hex-chipfit")
 
 
 def family_yaml(family: str, *, distance: int = 3, rounds: int = 2, basis: str = "z",
@@ -39,6 +52,8 @@ def family_yaml(family: str, *, distance: int = 3, rounds: int = 2, basis: str =
         return _repetition(distance, rounds, basis)
     if family == "flagged":
         return _flagged(rounds, prep or "unitary")
+    if family in ("heavy-hex", "heavy-hex-chipfit"):
+        return _heavy_hex(distance, rounds, chip_fit=family == "heavy-hex-chipfit")
     return _surface(distance, rounds)
 
 
@@ -219,3 +234,111 @@ def _surface(d: int, rounds: int) -> str:
                   f"{rounds} rounds", rounds, {"data": [name_of[p] for p in data],
                                                "ancilla": anc},
                   {"prep": prep, "round": rnd, "readout": readout}, detectors, top)
+
+
+def heavy_hex_layout(d: int):
+    """The heavy-hex code layout of Phys. Rev. X 10, 011022 (2020) at odd distance d.
+
+    Data D(r, c) on a d x d grid; a flag F(r, c) between D(r, c) and D(r + 1, c) for each
+    of the d - 1 gaps between data rows; in flag row r, a syndrome qubit joins F(r, c) and
+    F(r, c + 1) for c odd when r is even and c even when r is odd; on the top edge a
+    syndrome qubit joins D(0, c) and D(0, c + 1) for c even, on the bottom edge D(d-1, c)
+    and D(d-1, c + 1) for c odd. Returns (data, flags, bulk X gauges, edge X gauges).
+    """
+    if d < 3 or d % 2 == 0:
+        raise ValueError("the heavy-hex code needs an odd distance >= 3")
+    data = [(r, c) for r in range(d) for c in range(d)]
+    flags = [(r, c) for r in range(d - 1) for c in range(d)]
+    bulk = [(r, c) for r in range(d - 1) for c in range(d - 1) if c % 2 == (1 - r % 2)]
+    edge = [(0, c) for c in range(0, d - 1, 2)] + [(d - 1, c) for c in range(1, d - 1, 2)]
+    return data, flags, bulk, edge
+
+
+def _heavy_hex(d: int, rounds: int, chip_fit: bool = False) -> str:
+    data, flags, bulk, edge = heavy_hex_layout(d)
+    dn = {p: f"d{k}" for k, p in enumerate(data)}
+    fn = {p: f"f{k}" for k, p in enumerate(flags)}
+    sn = [f"a{k}" for k in range(len(bulk) + len(edge))]
+    # chip_fit: each edge X gauge is measured through two more flags, e{2k} next to the
+    # left data and e{2k+1} next to the right one, so the edge cycles have 12 qubits.
+    en = [f"e{k}" for k in range(2 * len(edge))] if chip_fit else []
+    q = lambda name: f"{name[0]}[{name[1:]}]"                     # noqa: E731
+    regs = [("d", len(data)), ("f", len(flags)), ("a", len(sn)), ("e", len(en))]
+    prep = _header(regs, []) + ["reset d;", "reset f;", "reset a;"] + (["reset e;"] if en else [])
+    rnd = _header(regs, [("gx", len(sn)), ("gf", len(flags)), ("gz", len(flags)),
+                         ("ge", len(en))])
+    # X gauges. Bulk: syndrome a -> flags (cat state), flags -> data, undo, measure all;
+    # edge: syndrome in |+>, CNOTs onto the two data (or through its two flags), measure.
+    rnd += [f"reset {q(s)};" for s in sn] + [f"reset {q(fn[f])};" for f in flags]
+    rnd += [f"reset {q(e)};" for e in en]
+    rnd += [f"h {q(s)};" for s in sn]
+    for k, (r, c) in enumerate(bulk):
+        rnd += [f"cx {q(sn[k])}, {q(fn[(r, c)])};", f"cx {q(sn[k])}, {q(fn[(r, c + 1)])};"]
+    for k in range(len(edge)):
+        if en:
+            s = sn[len(bulk) + k]
+            rnd += [f"cx {q(s)}, {q(en[2 * k])};", f"cx {q(s)}, {q(en[2 * k + 1])};"]
+    for k, (r, c) in enumerate(bulk):
+        for col in (c, c + 1):
+            rnd += [f"cx {q(fn[(r, col)])}, {q(dn[(r, col)])};",
+                    f"cx {q(fn[(r, col)])}, {q(dn[(r + 1, col)])};"]
+    for k, (r, c) in enumerate(edge):
+        s = sn[len(bulk) + k]
+        left, right = (en[2 * k], en[2 * k + 1]) if en else (s, s)
+        rnd += [f"cx {q(left)}, {q(dn[(r, c)])};", f"cx {q(right)}, {q(dn[(r, c + 1)])};"]
+    for k, (r, c) in enumerate(bulk):
+        rnd += [f"cx {q(sn[k])}, {q(fn[(r, c + 1)])};", f"cx {q(sn[k])}, {q(fn[(r, c)])};"]
+    for k in range(len(edge)):
+        if en:
+            s = sn[len(bulk) + k]
+            rnd += [f"cx {q(s)}, {q(en[2 * k + 1])};", f"cx {q(s)}, {q(en[2 * k])};"]
+    rnd += [f"h {q(s)};" for s in sn]
+    rnd += [f"measure {q(s)} -> gx[{k}];" for k, s in enumerate(sn)]
+    rnd += [f"measure {q(fn[f])} -> gf[{k}];" for k, f in enumerate(flags)]
+    rnd += [f"measure {q(e)} -> ge[{k}];" for k, e in enumerate(en)]
+    # Z gauges: Z(D(r, c)) Z(D(r + 1, c)) on the flag between them.
+    rnd += [f"reset {q(fn[f])};" for f in flags]
+    for k, (r, c) in enumerate(flags):
+        rnd += [f"cx {q(dn[(r, c)])}, {q(fn[(r, c)])};", f"cx {q(dn[(r + 1, c)])}, {q(fn[(r, c)])};"]
+    rnd += [f"measure {q(fn[f])} -> gz[{k}];" for k, f in enumerate(flags)]
+    readout = _header([("d", len(data))], [("m", len(data))])
+    readout += [f"measure d[{k}] -> m[{k}];" for k in range(len(data))]
+    flag_index = {f: k for k, f in enumerate(flags)}
+    # Z stabilizers: weight-4 blocks where no bulk X gauge sits, and weight-2 edge gauges.
+    blocks = set(bulk)
+    zstabs = [((r, c), [(r, c), (r, c + 1)]) for r in range(d - 1) for c in range(d - 1)
+              if (r, c) not in blocks]
+    zstabs += [((r, 0), [(r, 0)]) for r in range(d - 1) if (r, 0) in blocks]
+    zstabs += [((r, d - 1), [(r, d - 1)]) for r in range(d - 1) if (r, d - 2) in blocks]
+    # X stabilizers: for each pair of columns, every X gauge on that pair.
+    xstabs = []
+    for c in range(d - 1):
+        gauges = [k for k, (r, cc) in enumerate(bulk) if cc == c]
+        gauges += [len(bulk) + k for k, (r, cc) in enumerate(edge) if cc == c]
+        xstabs.append((c, gauges))
+    detectors = []
+    used = [f for f in flags if any(f in ((r, c), (r, c + 1)) for r, c in bulk)]
+    for t in range(rounds):
+        for f in used:
+            detectors.append((f"flag{flag_index[f]}_r{t}", [f"round[{t}]:gf[{flag_index[f]}]"]))
+        detectors += [(f"eflag{k}_r{t}", [f"round[{t}]:ge[{k}]"]) for k in range(len(en))]
+        for k, (where, cols) in enumerate(zstabs):
+            refs = lambda tt: [f"round[{tt}]:gz[{flag_index[x]}]" for x in cols]  # noqa: E731
+            detectors.append((f"Z{k}_r{t}", refs(t) if t == 0 else refs(t - 1) + refs(t)))
+        if t:
+            for c, gauges in xstabs:
+                detectors.append((f"X{c}_r{t}", [f"round[{tt}]:gx[{g}]" for tt in (t - 1, t)
+                                                 for g in gauges]))
+    for k, (where, cols) in enumerate(zstabs):
+        refs = [f"round[{rounds - 1}]:gz[{flag_index[x]}]" for x in cols]
+        for x in cols:
+            refs += [f"readout:m[{dn[(x[0], x[1])][1:]}]",
+                     f"readout:m[{dn[(x[0] + 1, x[1])][1:]}]"]
+        detectors.append((f"Z{k}_final", refs))
+    top = [f"readout:m[{dn[(0, c)][1:]}]" for c in range(d)]
+    label = "12-cycle edge variant" if chip_fit else "Phys. Rev. X 10, 011022 (2020) layout"
+    return _patch(f"heavy-hex-code{'-chipfit' if chip_fit else ''}-d{d}",
+                  f"heavy-hex code ({label}), distance {d}, Z memory, {rounds} rounds", rounds,
+                  {"data": [dn[p] for p in data], "flag": [fn[f] for f in flags] + en,
+                   "ancilla": sn}, {"prep": prep, "round": rnd, "readout": readout},
+                  detectors, top)
