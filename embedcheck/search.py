@@ -112,16 +112,18 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
                      id_order=False)
     usable = rules.qubits(device)
     blocked = {i for i in chip.node_indices() if chip[i] not in usable}
+    perms = np.array(autos, dtype=np.int64).reshape(len(autos), len(placed))
+    batch: list = []
     for mapping in maps:
         raw += 1
-        inverse = {p: c for c, p in mapping.items()}   # pattern node -> chip node
-        image = tuple(inverse[i] for i in range(len(placed)))
-        key = min(tuple(image[s[i]] for i in range(len(image))) for s in autos)
-        if key not in seen:
-            seen.add(key)
-            found.append(_complete(chip, patch, placed, key, blocked, allowed))
-        if progress is not None and raw % 5000 == 0:
-            progress(raw)
+        batch.append([mapping_value for _, mapping_value in sorted(
+            ((p, c) for c, p in mapping.items()))])       # chip node of pattern node 0, 1, ...
+        full = limit is not None and len(found) + len(batch) >= limit
+        if len(batch) >= 512 or full:
+            _take(batch, perms, seen, found, chip, patch, placed, blocked, allowed, limit)
+            batch = []
+            if progress is not None:
+                progress(raw)
         if limit is not None and len(found) >= limit:
             stop = "limit"
             break
@@ -131,6 +133,8 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
         if budget_s is not None and raw % 256 == 0 and clock() - start > budget_s:
             stop = "budget"
             break
+    if batch:
+        _take(batch, perms, seen, found, chip, patch, placed, blocked, allowed, limit)
     if stop == "complete" and raw == 0:
         what = "the chip's live coupling graph" + (" under the constraints" if not rules.empty
                                                    else "")
@@ -141,6 +145,29 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
             reasons += _blame(device, patch, names, rules, clock, budget_s)
     return SearchResult(names, tuple(found), raw, len(autos), stop, tuple(reasons),
                         clock() - start)
+
+
+def _take(batch, perms, seen, found, chip, patch, placed, blocked, allowed, limit) -> None:
+    """Canonicalise a batch of raw maps (numpy, no per-map Python loop over the symmetry
+    group) and keep the new ones: the canonical form of a map is the lexicographically
+    smallest of its images under the patch's symmetries."""
+    images = np.array(batch, dtype=np.int64).reshape(len(batch), len(placed))
+    best = images[:, perms[0]]
+    for perm in perms[1:]:
+        cand = images[:, perm]
+        differ = cand != best
+        first = np.argmax(differ, axis=1)
+        rows = np.arange(len(best))
+        smaller = differ[rows, first] & (cand[rows, first] < best[rows, first])
+        best = np.where(smaller[:, None], cand, best)
+    for row in best:
+        key = row.tobytes()
+        if key in seen:
+            continue
+        seen.add(key)
+        found.append(_complete(chip, patch, placed, tuple(int(x) for x in row), blocked, allowed))
+        if limit is not None and len(found) >= limit:
+            return
 
 
 def _blame(device, patch, names, rules: Constraints, clock, budget_s) -> list[str]:
