@@ -141,6 +141,7 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
         reasons = ["no cheap condition rules it out, and an exhaustive search found no "
                    f"placement: the interaction graph of {', '.join(names)} is not a subgraph of "
                    f"{what}"]
+        reasons += _parts(device, patch, names, rules, clock, budget_s, pattern, placed)
         if not rules.empty:
             reasons += _blame(device, patch, names, rules, clock, budget_s)
     return SearchResult(names, tuple(found), raw, len(autos), stop, tuple(reasons),
@@ -168,6 +169,31 @@ def _take(batch, perms, seen, found, chip, patch, placed, blocked, allowed, limi
         found.append(_complete(chip, patch, placed, tuple(int(x) for x in row), blocked, allowed))
         if limit is not None and len(found) >= limit:
             return
+
+
+def _parts(device, patch, names, rules, clock, budget_s, pattern, placed) -> list[str]:
+    """For a patch in several unconnected parts: which part cannot be placed at all, or
+    that each fits alone but not all of them side by side."""
+    graph = pattern.to_undirected() if isinstance(pattern, rx.PyDiGraph) else pattern
+    parts = rx.connected_components(graph)
+    if len(parts) < 2:
+        return []
+    counts = patch.interaction_counts(names)
+    out = []
+    for part in parts:
+        members = {placed[i] for i in part}
+        edges = [(patch.qubits[a], patch.qubits[b]) for a, b in counts
+                 if a in members and b in members]
+        piece = _reduced_patch(patch, [(patch.index[a], patch.index[b]) for a, b in edges])
+        alone = find_placements(device, piece, limit=1, constraints=rules, clock=clock,
+                                budget_s=budget_s)
+        if not alone.placements:
+            out.append("the part " + ", ".join(sorted(patch.qubits[q] for q in members))
+                       + " cannot be placed even on its own")
+    if not out:
+        out.append(f"each of the patch's {len(parts)} unconnected parts fits on its own, but "
+                   "not all of them side by side on distinct qubits")
+    return out
 
 
 def _blame(device, patch, names, rules: Constraints, clock, budget_s) -> list[str]:

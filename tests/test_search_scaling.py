@@ -215,3 +215,19 @@ def test_near_misses_when_nothing_fits():
     assert best.off_coupler_gates > 0 and best.missing_pairs
     for a, b in best.missing_pairs:
         assert not device.is_coupled(*(best.placement.as_dict(patch)[q] for q in (a, b)))
+
+
+def test_parts_that_fit_alone_but_not_side_by_side():
+    # A star chip (one centre, three leaves) has no two disjoint couplers.
+    star = Device(name="star", qubits=(0, 1, 2, 3), couplers=((0, 1), (0, 2), (0, 3)))
+    two_pairs = patch_from_edges([(0, 1), (2, 3)])
+    result = find_placements(star, two_pairs)
+    assert not result.placements and result.complete
+    assert any("2 unconnected parts fits on its own, but not all of them side by side" in r
+               for r in result.reasons)
+    # A part that cannot be placed even alone is named.
+    line5 = Device(name="line", qubits=tuple(range(6)),
+                   couplers=((0, 1), (1, 2), (2, 3), (4, 5)))
+    odd = patch_from_edges([(0, 1), (1, 2), (2, 0), (3, 4)])
+    result = find_placements(line5, odd)
+    assert not result.placements
