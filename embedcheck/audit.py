@@ -30,7 +30,7 @@ import numpy as np
 from .device import Device
 from .patch import Patch
 from .schedule import schedule_circuit
-from .search import Placement, placement_grid
+from .search import SYMMETRIC_GATES, Placement, placement_grid
 
 
 @dataclass(frozen=True)
@@ -102,7 +102,7 @@ def audit_placement(device: Device, patch: Patch, placement: Placement, *,
             if not device.is_coupled(a, b):
                 off.append(OffCouplerGate(name, k, gate.qubits, (a, b), gate.written, gate.text,
                                           gate.file, gate.line, _why_off(device, a, b)))
-            elif not device.runs_natively(a, b):
+            elif gate.written not in SYMMETRIC_GATES and not device.runs_natively(a, b):
                 flips += 1      # fixed by single-qubit gates (Hadamards round a CNOT): no SWAP
         estimate = None
         if router_estimate:

@@ -321,9 +321,20 @@ def _positive_int(text):
     return value
 
 
+def _finite(obj):
+    """JSON has no infinity or NaN: they become null (the text report says what they mean)."""
+    if isinstance(obj, float) and not np.isfinite(obj):
+        return None
+    if isinstance(obj, dict):
+        return {k: _finite(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_finite(v) for v in obj]
+    return obj
+
+
 def _emit(args, payload: dict, text: str) -> None:
     if args.format == "json":
-        json.dump(payload, sys.stdout, indent=2)
+        json.dump(_finite(payload), sys.stdout, indent=2, allow_nan=False)
         sys.stdout.write("\n")
     else:
         print(text)
@@ -370,7 +381,7 @@ def _run_find(args) -> int:
     if args.monte_carlo and logical is None:
         payload.setdefault("logical_note", "--monte-carlo needs a patch with detectors and an "
                            "observable on which every circuit is swap-free; nothing sampled")
-    elif args.figure in ("undetected", "kept"):
+    if logical is None and args.figure in ("undetected", "kept"):
         raise InputError(f"--figure {args.figure}: no placement makes every circuit swap-free, "
                          "so there is no noisy circuit to score; use fidelity_product")
     if len(snapshots) > 1 and vetting.ranking.placements:
@@ -728,7 +739,7 @@ def _run_check(args) -> int:
     payload = report_data.check_dict(result, baseline)
     if payload["baseline"] is not None:
         payload["baseline"]["file"] = args.baseline
-    writers = {"json": lambda: json.dumps(payload, indent=2) + "\n",
+    writers = {"json": lambda: json.dumps(_finite(payload), indent=2, allow_nan=False) + "\n",
                "markdown": lambda: render_markdown(payload),
                "junit": lambda: render_junit(payload),
                "sarif": lambda: json.dumps(render_sarif(payload), indent=2) + "\n"}

@@ -192,9 +192,13 @@ class Device:
     @property
     def live_couplers(self) -> tuple[Pair, ...]:
         """Couplers usable today: not dead and with both ends alive."""
-        dead_q = self.dead_qubits
-        return tuple(c for c in self.couplers if c not in self.dead_couplers
-                     and c[0] not in dead_q and c[1] not in dead_q)
+        cached = self.__dict__.get("_live_tuple")
+        if cached is None:
+            dead_q = self.dead_qubits
+            cached = tuple(c for c in self.couplers if c not in self.dead_couplers
+                           and c[0] not in dead_q and c[1] not in dead_q)
+            object.__setattr__(self, "_live_tuple", cached)
+        return cached
 
     def is_coupled(self, a: int, b: int) -> bool:
         """True when a live coupler joins physical qubits a and b."""

@@ -43,12 +43,13 @@ def _path_to_root(parent, node):
     return path
 
 
-def shortest_cycle_nodes(nodes, edges) -> list | None:
+def shortest_cycle_nodes(nodes, edges, max_length: int | None = None) -> list | None:
     """The nodes of one shortest cycle, in order around it, or None for a forest.
 
     Breadth-first search from every node, stopped as soon as it cannot beat the best
     cycle found so far: fast on sparse chip lattices (each search sees only a ball of
-    radius girth/2).
+    radius girth/2). With `max_length`, only cycles up to that length are looked for
+    (each search stops at depth max_length/2), which keeps cycle-free chips cheap.
 
     >>> shortest_cycle_nodes(5, [(0, 1), (1, 2), (2, 0), (2, 3), (3, 4)])
     [0, 1, 2]
@@ -62,6 +63,8 @@ def shortest_cycle_nodes(nodes, edges) -> list | None:
             u = queue.popleft()
             if best is not None and 2 * depth[u] + 1 >= len(best):
                 break
+            if max_length is not None and 2 * depth[u] + 1 > max_length:
+                break
             for v in adj[u]:
                 if v not in depth:
                     depth[v], parent[v] = depth[u] + 1, u
@@ -71,6 +74,8 @@ def shortest_cycle_nodes(nodes, edges) -> list | None:
                     if set(left[:-1]) & set(right[:-1]):
                         continue            # the two paths meet before the root: not simple
                     cycle = list(reversed(left)) + right[:-1]
+                    if max_length is not None and len(cycle) > max_length:
+                        continue
                     if best is None or len(cycle) < len(best):
                         best = cycle
     if best is None:

@@ -147,8 +147,7 @@ def _append(body, device, op, phys, targets, noise, circuit_name) -> None:
         if noise and e:
             body.append("Z_ERROR" if basis == "X" else "X_ERROR", targets, e)
         return
-    gate = _STIM.get(op.written if op.kind == "2q" and op.written in _STIM
-                     and op.written != "swap" else op.name)
+    gate = _STIM.get(op.name)
     if gate is None:
         raise InputError(f"circuit '{circuit_name}': '{op.written or op.name}' is not a Clifford "
                          "gate stim can simulate", file=op.file, line=op.line)

@@ -79,9 +79,14 @@ def schedule_circuit(device: Device, patch: Patch, circuit: str, placement: Plac
 
 
 def _median_coupler_duration(device: Device) -> float | None:
+    cached = device.__dict__.get("_median_ns", "unset")
+    if cached != "unset":
+        return cached
     values = [device.coupler_calibration[c].duration_ns for c in device.live_couplers
               if c in device.coupler_calibration and device.coupler_calibration[c].duration_ns]
-    return float(np.median(values)) if values else None
+    value = float(np.median(values)) if values else None
+    object.__setattr__(device, "_median_ns", value)      # the device is immutable
+    return value
 
 
 def _duration(device, op, physical, median, missing) -> float:

@@ -69,6 +69,7 @@ class SearchResult:
     stop_reason: str
     reasons: tuple[str, ...]
     elapsed_s: float
+    symmetries: tuple[tuple[int, ...], ...] = ()   # permutations of patch qubit indices
 
     @property
     def complete(self) -> bool:
@@ -96,9 +97,12 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
     if reasons:
         return SearchResult(names, (), 0, 1, "complete", tuple(reasons), clock() - start)
     directed = rules.forbid_direction_fixes
-    pattern, placed = _pattern(patch, names, directed=directed)
-    chip = _chip_graph(device, rules, directed=directed)
-    autos = _automorphisms(pattern)
+    pattern, placed = _pattern(patch, names)
+    chip = _chip_graph(device, rules)
+    # Native directions: search undirected, keep the maps whose directional gates all run
+    # the native way (a symmetric gate such as cz has no direction); no symmetry merging.
+    arcs = _directional_arcs(patch, names, placed) if directed else []
+    autos = [tuple(range(len(placed)))] if directed else _automorphisms(pattern)
     allowed = rules.allowed_by_role(device, set(patch.roles.values())) if rules.roles else None
     found: list[Placement] = []
     seen: set = set()
@@ -107,17 +111,19 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
         maps = iter([{}])
     else:
         matcher = (lambda phys, role: phys in allowed[role]) if allowed else None
-        match = rx.digraph_vf2_mapping if directed else rx.vf2_mapping
-        maps = match(chip, pattern, node_matcher=matcher, subgraph=True, induced=False,
-                     id_order=False)
+        maps = rx.vf2_mapping(chip, pattern, node_matcher=matcher, subgraph=True,
+                              induced=False, id_order=False)
     usable = rules.qubits(device)
     blocked = {i for i in chip.node_indices() if chip[i] not in usable}
     perms = np.array(autos, dtype=np.int64).reshape(len(autos), len(placed))
     batch: list = []
     for mapping in maps:
+        image = [c for _, c in sorted((p, c) for c, p in mapping.items())]
+        if arcs and not all(device.runs_natively(chip[image[a]], chip[image[b]])
+                            for a, b in arcs):
+            continue
         raw += 1
-        batch.append([mapping_value for _, mapping_value in sorted(
-            ((p, c) for c, p in mapping.items()))])       # chip node of pattern node 0, 1, ...
+        batch.append(image)                     # chip node of pattern node 0, 1, ...
         full = limit is not None and len(found) + len(batch) >= limit
         if len(batch) >= 512 or full:
             _take(batch, perms, seen, found, chip, patch, placed, blocked, allowed, limit)
@@ -144,8 +150,14 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
         reasons += _parts(device, patch, names, rules, clock, budget_s, pattern, placed)
         if not rules.empty:
             reasons += _blame(device, patch, names, rules, clock, budget_s)
+    full = []
+    for sigma in autos:                      # as permutations of all patch qubit indices
+        perm = list(range(patch.num_qubits))
+        for i, q in enumerate(placed):
+            perm[q] = placed[sigma[i]]
+        full.append(tuple(perm))
     return SearchResult(names, tuple(found), raw, len(autos), stop, tuple(reasons),
-                        clock() - start)
+                        clock() - start, tuple(full))
 
 
 def _take(batch, perms, seen, found, chip, patch, placed, blocked, allowed, limit) -> None:
@@ -166,7 +178,9 @@ def _take(batch, perms, seen, found, chip, patch, placed, blocked, allowed, limi
         if key in seen:
             continue
         seen.add(key)
-        found.append(_complete(chip, patch, placed, tuple(int(x) for x in row), blocked, allowed))
+        placement = _complete(chip, patch, placed, tuple(int(x) for x in row), blocked, allowed)
+        if placement is not None:
+            found.append(placement)
         if limit is not None and len(found) >= limit:
             return
 
@@ -174,17 +188,13 @@ def _take(batch, perms, seen, found, chip, patch, placed, blocked, allowed, limi
 def _parts(device, patch, names, rules, clock, budget_s, pattern, placed) -> list[str]:
     """For a patch in several unconnected parts: which part cannot be placed at all, or
     that each fits alone but not all of them side by side."""
-    graph = pattern.to_undirected() if isinstance(pattern, rx.PyDiGraph) else pattern
-    parts = rx.connected_components(graph)
+    parts = rx.connected_components(pattern)
     if len(parts) < 2:
         return []
-    counts = patch.interaction_counts(names)
     out = []
     for part in parts:
         members = {placed[i] for i in part}
-        edges = [(patch.qubits[a], patch.qubits[b]) for a, b in counts
-                 if a in members and b in members]
-        piece = _reduced_patch(patch, [(patch.index[a], patch.index[b]) for a, b in edges])
+        piece = _sub_patch(patch, names, {patch.qubits[q] for q in members})
         alone = find_placements(device, piece, limit=1, constraints=rules, clock=clock,
                                 budget_s=budget_s)
         if not alone.placements:
@@ -281,13 +291,15 @@ def necessary_conditions(device: Device, patch: Patch, circuits: Sequence[str],
 
 def _cycle_reasons(patch: Patch, edges, couplers) -> list[str]:
     cycle = shortest_cycle_nodes(range(patch.num_qubits), edges)
+    if not cycle:
+        return []                        # a forest has neither short nor odd cycles
     chip_nodes = sorted({q for c in couplers for q in c})
-    chip_girth = shortest_cycle(chip_nodes, couplers)
     out = []
-    if cycle and (chip_girth is None or len(cycle) < chip_girth):
+    if shortest_cycle_nodes(chip_nodes, couplers, max_length=len(cycle)) is None:
         names = ", ".join(patch.qubits[i] for i in cycle)
-        chip_part = "has no cycle" if chip_girth is None else \
-            f"has no cycle shorter than {chip_girth}"
+        longer = shortest_cycle_nodes(chip_nodes, couplers, max_length=4 * len(cycle))
+        chip_part = (f"has no cycle shorter than {len(longer)}" if longer else
+                     f"has no cycle of {4 * len(cycle)} qubits or fewer")
         out.append(f"the patch has a cycle of length {len(cycle)} ({names}) but the chip "
                    f"{chip_part}")
     if not out:
@@ -306,57 +318,56 @@ def _bipartite(nodes, edges) -> bool:
     return rx.is_bipartite(g)
 
 
-def _pattern(patch: Patch, circuits: Sequence[str], *, directed: bool = False):
+def _pattern(patch: Patch, circuits: Sequence[str]):
     """Interaction graph of the searched circuits over the patch qubits that interact.
 
     Node i of the graph is patch qubit `placed[i]`; edge payloads are per-circuit gate
-    counts, node payloads roles, so automorphisms respect both. Directed: one arc per
-    control -> target direction used.
+    counts, node payloads roles, so automorphisms respect both.
     """
     per_pair = patch.per_circuit_counts(circuits)
     placed = sorted({q for p in per_pair for q in p})
     local = {q: i for i, q in enumerate(placed)}
-    graph = rx.PyDiGraph(multigraph=False) if directed else rx.PyGraph(multigraph=False)
+    graph = rx.PyGraph(multigraph=False)
     graph.add_nodes_from([patch.roles[patch.qubits[q]] for q in placed])
-    if not directed:
-        graph.add_edges_from([(local[a], local[b], c) for (a, b), c in per_pair.items()])
-        return graph, placed
-    arcs: dict = {}
-    for k, name in enumerate(circuits):
-        for op in patch.circuits[name].two_qubit_gates:
-            a, b = (patch.index[q] for q in op.qubits)
-            counts = arcs.setdefault((local[a], local[b]), [0] * len(circuits))
-            counts[k] += 1
-    graph.add_edges_from([(a, b, tuple(c)) for (a, b), c in arcs.items()])
+    graph.add_edges_from([(local[a], local[b], c) for (a, b), c in per_pair.items()])
     return graph, placed
 
 
-def _chip_graph(device: Device, rules: Constraints, *, directed: bool = False):
+SYMMETRIC_GATES = {"cz", "swap", "rzz", "rxx", "ryy", "cp", "cu1", "cphase", "iswap", "dcx"}
+
+
+def _directional_arcs(patch: Patch, circuits, placed):
+    """(pattern node, pattern node) control -> target of every gate whose direction matters."""
+    local = {q: i for i, q in enumerate(placed)}
+    arcs = set()
+    for name in circuits:
+        for op in patch.circuits[name].two_qubit_gates:
+            if op.written in SYMMETRIC_GATES:
+                continue
+            a, b = (patch.index[q] for q in op.qubits)
+            arcs.add((local[a], local[b]))
+    return sorted(arcs)
+
+
+def _chip_graph(device: Device, rules: Constraints):
     """The usable coupling graph; node i holds physical qubit `device.qubits[i]`.
 
     Couplers outside the constraints are left out (an unused coupler never matters,
-    since the match is not induced). Directed: one arc per native direction.
+    since the match is not induced).
     """
-    graph = rx.PyDiGraph(multigraph=False) if directed else rx.PyGraph(multigraph=False)
+    graph = rx.PyGraph(multigraph=False)
     index = {q: graph.add_node(q) for q in device.qubits}
     couplers = rules.couplers_allowed(device) if not rules.empty else device.live_couplers
-    if not directed:
-        graph.add_edges_from_no_data([(index[a], index[b]) for a, b in couplers])
-        return graph
-    for a, b in couplers:
-        for c, t in ([device.directed[(a, b)]] if (a, b) in device.directed else [(a, b), (b, a)]):
-            graph.add_edge(index[c], index[t], None)
+    graph.add_edges_from_no_data([(index[a], index[b]) for a, b in couplers])
     return graph
-
 
 def _automorphisms(pattern: rx.PyGraph) -> list[tuple[int, ...]]:
     """Permutations of the pattern's nodes that keep roles and per-circuit gate counts."""
     n = pattern.num_nodes()
     if n == 0:
         return [()]
-    match = rx.digraph_vf2_mapping if isinstance(pattern, rx.PyDiGraph) else rx.vf2_mapping
-    autos = match(pattern, pattern, node_matcher=lambda a, b: a == b,
-                  edge_matcher=lambda a, b: a == b, subgraph=False, id_order=True)
+    autos = rx.vf2_mapping(pattern, pattern, node_matcher=lambda a, b: a == b,
+                           edge_matcher=lambda a, b: a == b, subgraph=False, id_order=True)
     return [tuple(m[i] for i in range(n)) for m in autos]
 
 
@@ -375,13 +386,15 @@ def _complete(chip, patch: Patch, placed, image, blocked, allowed) -> Placement:
                 physical[i] = chip[node]
                 used.add(node)
                 break
+        else:
+            return None                      # no free qubit this one's constraints allow
     return Placement(tuple(physical))
 
 
 def _nearest_free(chip: rx.PyGraph, sources, blocked):
     """Free live chip nodes in breadth-first order from `sources` (then any others)."""
     queue, seen = deque(sources), set(sources)
-    neighbours = chip.neighbors_undirected if isinstance(chip, rx.PyDiGraph) else chip.neighbors
+    neighbours = chip.neighbors
     while queue:
         node = queue.popleft()
         if node not in blocked:
@@ -468,6 +481,16 @@ def _pair_to_drop(kept, weights, top, chip_girth, n):
         ring = [tuple(sorted((cycle[i], cycle[(i + 1) % len(cycle)]))) for i in range(len(cycle))]
         return min(ring, key=lambda p: (weights[p], p))
     return min(kept, key=lambda p: (weights[p], p))
+
+
+def _sub_patch(patch: Patch, circuits, members) -> Patch:
+    """The patch's two-qubit gates among `members` (as written, directions kept) in one circuit."""
+    from .patch import Circuit
+    ops = tuple(op for name in circuits for op in patch.circuits[name].two_qubit_gates
+                if set(op.qubits) <= members)
+    qubits = tuple(q for q in patch.qubits if q in members)
+    return Patch(patch.name, qubits, {q: patch.roles[q] for q in qubits},
+                 {"round": Circuit("round", ops)})
 
 
 def _reduced_patch(patch: Patch, kept) -> Patch:

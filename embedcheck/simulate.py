@@ -56,8 +56,7 @@ def to_stim(patch: Patch, *, detectors: bool = True):
                         else ""
                     circuit.append("R" + basis, targets)
                 else:
-                    gate = _STIM.get(op.written if op.written in _STIM and op.kind == "2q"
-                                     and op.written != "swap" else op.name)
+                    gate = _STIM.get(op.name)
                     if gate is None:
                         raise InputError(f"circuit '{name}': '{op.written or op.name}' is not a "
                                          "Clifford gate stim can simulate", file=op.file,
@@ -81,6 +80,11 @@ def append_detectors(circuit, patch: Patch, measured: int) -> None:
 def check_detectors(patch: Patch) -> list[str]:
     """Plain-word problems with the declared detectors and observable (empty when sound)."""
     circuit = to_stim(patch)
+    try:                                  # the usual case: everything is deterministic
+        circuit.detector_error_model()
+        return []
+    except ValueError:
+        pass
     problems = []
     for i, det in enumerate(patch.detectors):
         single = to_stim(_only(patch, det))
@@ -104,7 +108,8 @@ def _only(patch: Patch, detector) -> Patch:
     return replace(patch, detectors=(detector,), observable=())
 
 
-def fault_distance(patch: Patch, *, noise: float = 1e-3, max_weight: int = 8) -> int | None:
+def fault_distance(patch: Patch, *, noise: float = 1e-3, max_weight: int = 6,
+                   max_detectors: int = 150) -> int | None:
     """The fewest faults that flip the observable and no detector (stim's search).
 
     Every operation of the experiment gets a generic fault (depolarizing after gates,
@@ -114,8 +119,8 @@ def fault_distance(patch: Patch, *, noise: float = 1e-3, max_weight: int = 8) ->
     """
     import stim
 
-    if not patch.observable:
-        return None
+    if not patch.observable or len(patch.detectors) > max_detectors:
+        return None                      # nothing to flip, or too large to search here
     if _spanned_by_detectors(patch):
         return math.inf
     plain = to_stim(patch)

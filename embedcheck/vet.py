@@ -67,7 +67,7 @@ class Vetting:
         return not self.excluded and bool(self.ranking.placements)
 
 
-def vet_patch(device: Device, patch: Patch, *, limit: int | None = 10_000,
+def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
               budget_s: float | None = 60.0,
               progress: Callable[[int], None] | None = None,
               constraints: Constraints | None = None) -> Vetting:
@@ -109,7 +109,7 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 10_000,
         misses = tuple(near_misses(device, patch, gated, constraints=rules,
                                    budget_s=min(5.0, budget_s or 5.0)))
     excluded = tuple(n for n in patch.circuits if n not in core)
-    ranking = rank_placements(device, patch, search.placements)
+    ranking = rank_placements(device, patch, _best_of_orbits(device, patch, search))
     names = list(patch.circuits)
     off = off_coupler_counts(device, patch, ranking.placements, names)
     best = audit_placement(device, patch, ranking.placements[0]) if ranking.placements else None
@@ -117,3 +117,26 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 10_000,
     unconstrained = tuple(q for i, q in enumerate(patch.qubits) if i not in used)
     return Vetting(device, patch, tuple(fits), tuple(core), excluded, search, ranking, off, best,
                    unconstrained, rules, misses)
+
+
+def _best_of_orbits(device: Device, patch: Patch, search: SearchResult):
+    """Each distinct placement stands for its orbit under the patch's symmetries (of the
+    searched circuits); the circuits left out of the search, gate order and measurements
+    may still tell the members apart, so keep the best-scoring member of each orbit."""
+    from .rank import scores
+    from .search import Placement, placement_grid
+
+    placements = search.placements
+    k = len(search.symmetries)
+    if k <= 1 or not placements or len(placements) * k > 2_000_000:
+        return placements
+    grid = placement_grid(placements, patch.num_qubits)
+    perms = np.array(search.symmetries, dtype=np.int64)
+    members = grid[:, perms].reshape(len(placements) * k, patch.num_qubits)
+    terms, unscored = scores(device, patch, members)
+    total = sum(terms.values())
+    order = np.lexsort((-total, unscored))
+    orbit = order // k
+    _, first = np.unique(orbit, return_index=True)
+    chosen = order[np.sort(first)]
+    return tuple(Placement(tuple(int(x) for x in members[i])) for i in chosen)

@@ -218,8 +218,14 @@ def _circuit(doc: Document, name: str, spec: dict) -> Circuit:
                               "'stim' (a stim file)")
     if "qasm" in spec:
         text, file = spec["qasm"], doc.file
+        block = path + ("qasm", "<text>") in doc.lines
         first = doc.lines.get(path + ("qasm", "<text>"), doc.line(path + ("qasm",)))
-        return Circuit(name, tuple(read_qasm(text, file=file, first_line=first)), text, file)
+        ops = read_qasm(text, file=file, first_line=first)
+        if not block:
+            # A quoted or plain scalar folds its lines: only the key's line is known.
+            from dataclasses import replace
+            ops = [replace(op, line=first) for op in ops]
+        return Circuit(name, tuple(ops), text, file)
     key = given[0]
     target = Path(doc.file).parent / spec[key]
     if not target.is_file():

@@ -108,6 +108,14 @@ class _Walker:
             if stmt.qubit.name in self.registers or stmt.qubit.name in self.classical:
                 raise self.fail(stmt, f"register '{stmt.qubit.name}' is declared twice")
             self.check_register_name(stmt, stmt.qubit.name)
+            names = [stmt.qubit.name] if size is None else \
+                [f"{stmt.qubit.name}{i}" for i in range(size)]
+            taken = self.__dict__.setdefault("names", {})
+            for n in names:
+                if n in taken:
+                    raise self.fail(stmt, f"registers '{taken[n]}' and '{stmt.qubit.name}' both "
+                                          f"give a qubit named '{n}'; rename one")
+                taken[n] = stmt.qubit.name
             self.registers[stmt.qubit.name] = size
         elif isinstance(stmt, (ast.ClassicalDeclaration, getattr(ast, "IODeclaration", ()))):
             name = stmt.identifier.name
@@ -277,8 +285,8 @@ class _Walker:
         elif name in _KEEP:
             self.emit(stmt, "cx", qubits, "2q", conditional, written)
         else:
-            for kind, local in _unrolled(name, len(qubits), stmt, self):
-                self.emit(stmt, "cx" if kind == "2q" else "u",
+            for kind, local, gate in _unrolled(name, len(qubits), stmt, self):
+                self.emit(stmt, "cx" if kind == "2q" else gate,
                           tuple(qubits[i] for i in local), kind, conditional, written)
 
     def emit(self, stmt, name, qubits, kind, conditional, written, clbit=None):
@@ -317,8 +325,8 @@ def _standard_parameters(name: str) -> int | None:
 
 
 @lru_cache(maxsize=None)
-def _decomposition(name: str, width: int) -> tuple[tuple[str, tuple[int, ...]], ...]:
-    """(kind, local qubit indices) of a standard gate unrolled to cx + u by qiskit."""
+def _decomposition(name: str, width: int) -> tuple[tuple[str, tuple[int, ...], str], ...]:
+    """(kind, local qubit indices, gate) of a standard gate unrolled by qiskit."""
     from qiskit import QuantumCircuit, transpile
     from qiskit.circuit.library import get_standard_gate_name_mapping
 
@@ -329,9 +337,18 @@ def _decomposition(name: str, width: int) -> tuple[tuple[str, tuple[int, ...]], 
         gate = gate.__class__(*[0.3] * len(gate.params))
     qc = QuantumCircuit(width)
     qc.append(gate, range(width))
-    out = transpile(qc, basis_gates=["cx", "u"], optimization_level=0)
+    # Clifford gates (cz, cy, swap, ...) unroll to named Clifford gates, so a simulator
+    # can run them; everything else to cx and u.
+    try:
+        from qiskit.quantum_info import Clifford
+        Clifford(qc)
+        out = transpile(qc, basis_gates=["cx", "h", "s", "sdg", "x", "y", "z", "sx", "sxdg"],
+                        optimization_level=0)
+    except Exception:
+        out = transpile(qc, basis_gates=["cx", "u"], optimization_level=0)
     return tuple(("2q" if len(ins.qubits) == 2 else "1q",
-                  tuple(out.find_bit(q).index for q in ins.qubits)) for ins in out.data)
+                  tuple(out.find_bit(q).index for q in ins.qubits), ins.operation.name)
+                 for ins in out.data)
 
 
 def _bit_name(node) -> str | None:

@@ -174,9 +174,11 @@ class _Walker:
                 index = self.measured + t.value
                 self.observable ^= {index}
             return
-        if name == "MPAD":
-            self.measured += len(targets)
-            return
+        if name == "MPAD" or (data.produces_measurements and data.is_two_qubit_gate) \
+                or name == "MPP":
+            raise InputError(f"stim: {name} is not supported yet (it has no single-qubit "
+                             "measurement to place); write the circuit without it",
+                             file=self.file, line=line)
         if name in ("TICK", "QUBIT_COORDS", "SHIFT_COORDS") or \
                 (data.is_noisy_gate and not data.produces_measurements):
             return
