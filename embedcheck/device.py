@@ -233,8 +233,16 @@ class Device:
         """Every calibration figure as numpy arrays (see `CalibrationArrays`).
 
         Missing errors are 0 and missing durations 0; missing T1/T2 are infinite (no
-        idle error); pairs without a live coupler look up as NaN.
+        idle error); pairs without a live coupler look up as NaN. Built once per device
+        (the device is immutable) and shared by the ranking, audit and schedule.
         """
+        cached = self.__dict__.get("_arrays")
+        if cached is None:
+            cached = self._build_arrays()
+            object.__setattr__(self, "_arrays", cached)
+        return cached
+
+    def _build_arrays(self) -> "CalibrationArrays":
         n = max(self.qubits) + 1 if self.qubits else 0
         live = sorted(self.live_couplers)
         keys = np.array([a * n + b for a, b in live], dtype=np.int64)

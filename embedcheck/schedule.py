@@ -31,7 +31,6 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-import numpy as np
 
 from .device import Device, pair
 from .patch import Patch
@@ -79,15 +78,8 @@ def schedule_circuit(device: Device, patch: Patch, circuit: str, placement: Plac
 
 
 def _median_coupler_duration(device: Device) -> float | None:
-    cached = device.__dict__.get("_median_ns", "unset")
-    if cached != "unset":
-        return cached
-    values = [device.coupler_calibration[c].duration_ns for c in device.live_couplers
-              if c in device.coupler_calibration and device.coupler_calibration[c].duration_ns]
-    value = float(np.median(values)) if values else None
-    object.__setattr__(device, "_median_ns", value)      # the device is immutable
-    return value
-
+    """Median live-coupler duration (stands in for off-coupler gates), None when none is known."""
+    return device.calibration_arrays().median_two_qubit_ns or None
 
 def _duration(device, op, physical, median, missing) -> float:
     cal = device.qubit_calibration
