@@ -31,7 +31,6 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-
 from .device import Device, pair
 from .patch import Patch
 from .search import Placement
