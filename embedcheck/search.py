@@ -39,6 +39,7 @@ import rustworkx as rx
 
 from .constraints import Constraints
 from .device import Device
+from .matcher import Host, monomorphisms
 from .graphs import odd_cycle_nodes, shortest_cycle, shortest_cycle_nodes
 from .patch import Patch
 
@@ -107,27 +108,21 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
     found: list[Placement] = []
     seen: set = set()
     raw, stop = 0, "complete"
-    if pattern.num_nodes() == 0:
-        maps = iter([{}])
-    else:
-        matcher = (lambda phys, role: phys in allowed[role]) if allowed else None
-        maps = rx.vf2_mapping(chip, pattern, node_matcher=matcher, subgraph=True,
-                              induced=False, id_order=False)
     usable = rules.qubits(device)
     blocked = {i for i in chip.node_indices() if chip[i] not in usable}
     perms = np.array(autos, dtype=np.int64).reshape(len(autos), len(placed))
-    batch: list = []
-    for mapping in maps:
-        image = [c for _, c in sorted((p, c) for c, p in mapping.items())]
-        if arcs and not all(device.runs_natively(chip[image[a]], chip[image[b]])
-                            for a, b in arcs):
-            continue
-        raw += 1
-        batch.append(image)                     # chip node of pattern node 0, 1, ...
-        full = limit is not None and len(found) + len(batch) >= limit
-        if len(batch) >= 512 or full:
-            _take(batch, perms, seen, found, chip, patch, placed, blocked, allowed, limit)
-            batch = []
+    order = len(autos)                       # raw maps each representative stands for
+    for block in _maps(device, chip, pattern, placed, patch, allowed, blocked, arcs,
+                       None if directed else autos):
+        if budget_s is not None and clock() - start > budget_s:
+            stop = "budget"                  # checked first: budget_s=0 takes nothing
+            break
+        if len(block):
+            if max_maps is not None:
+                wanted = (max_maps - raw + order - 1) // order
+                block = block[:wanted]
+            raw += len(block) * order
+            _take(block, perms, seen, found, chip, patch, placed, blocked, allowed, limit)
             if progress is not None:
                 progress(raw)
         if limit is not None and len(found) >= limit:
@@ -136,11 +131,6 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
         if max_maps is not None and raw >= max_maps:
             stop = "budget"
             break
-        if budget_s is not None and raw % 256 == 0 and clock() - start > budget_s:
-            stop = "budget"
-            break
-    if batch:
-        _take(batch, perms, seen, found, chip, patch, placed, blocked, allowed, limit)
     if stop == "complete" and raw == 0:
         what = "the chip's live coupling graph" + (" under the constraints" if not rules.empty
                                                    else "")
@@ -160,11 +150,45 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
                         clock() - start, tuple(full))
 
 
+def _maps(device, chip, pattern, placed, patch, allowed, blocked, arcs, autos):
+    """Blocks of raw maps (rows: chip node of pattern node 0, 1, ...), one per symmetry
+    orbit when `autos` is given; maps whose directional gates run against a coupler's
+    native direction are dropped when `arcs` is given."""
+    n = chip.num_nodes()
+    host = Host.from_edges(n, list(chip.edge_list()))
+    live = np.ones(n, dtype=bool)
+    live[list(blocked)] = False
+    masks = None
+    if allowed is not None or blocked:
+        by_role = {}
+        for role in set(pattern.nodes()):
+            mask = live.copy()
+            if allowed is not None:
+                ok = np.zeros(n, dtype=bool)
+                ok[[i for i in range(n) if chip[i] in allowed[role]]] = True
+                mask &= ok
+            by_role[role] = mask
+        masks = [by_role[role] for role in pattern.nodes()]
+    native = None
+    if arcs:
+        native = np.array(sorted(a * n + b for a, b in chip.edge_list() for a, b in
+                                 ((a, b), (b, a)) if device.runs_natively(chip[a], chip[b])),
+                          dtype=np.int64)
+    for block in monomorphisms(host, pattern.num_nodes(), list(pattern.edge_list()),
+                               candidates=masks, symmetries=autos):
+        if native is not None and len(block):
+            ok = np.ones(len(block), dtype=bool)
+            for a, b in arcs:
+                ok &= np.isin(block[:, a].astype(np.int64) * n + block[:, b], native)
+            block = block[ok]
+        yield block
+
+
 def _take(batch, perms, seen, found, chip, patch, placed, blocked, allowed, limit) -> None:
     """Canonicalise a batch of raw maps (numpy, no per-map Python loop over the symmetry
     group) and keep the new ones: the canonical form of a map is the lexicographically
     smallest of its images under the patch's symmetries."""
-    images = np.array(batch, dtype=np.int64).reshape(len(batch), len(placed))
+    images = np.asarray(batch, dtype=np.int64).reshape(len(batch), len(placed))
     best = images[:, perms[0]]
     for perm in perms[1:]:
         cand = images[:, perm]
