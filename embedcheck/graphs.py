@@ -43,13 +43,16 @@ def _path_to_root(parent, node):
     return path
 
 
-def shortest_cycle_nodes(nodes, edges, max_length: int | None = None) -> list | None:
+def shortest_cycle_nodes(nodes, edges, max_length: int | None = None, *,
+                         first: bool = False) -> list | None:
     """The nodes of one shortest cycle, in order around it, or None for a forest.
 
     Breadth-first search from every node, stopped as soon as it cannot beat the best
     cycle found so far: fast on sparse chip lattices (each search sees only a ball of
     radius girth/2). With `max_length`, only cycles up to that length are looked for
-    (each search stops at depth max_length/2), which keeps cycle-free chips cheap.
+    (each search stops at depth max_length/2), which keeps cycle-free chips cheap;
+    `first=True` then returns the first such cycle found, shortest or not (enough to
+    show one exists).
 
     >>> shortest_cycle_nodes(5, [(0, 1), (1, 2), (2, 0), (2, 3), (3, 4)])
     [0, 1, 2]
@@ -78,8 +81,13 @@ def shortest_cycle_nodes(nodes, edges, max_length: int | None = None) -> list | 
                         continue
                     if best is None or len(cycle) < len(best):
                         best = cycle
-    if best is None:
-        return None
+                    if first and max_length is not None:
+                        return _rotated(best)
+    return None if best is None else _rotated(best)
+
+
+def _rotated(best: list) -> list:
+    """A cycle written from its smallest node, towards its smaller neighbour."""
     k = best.index(min(best))
     best = best[k:] + best[:k]
     return best if len(best) < 3 or best[1] < best[-1] else [best[0]] + best[:0:-1]

@@ -138,6 +138,19 @@ def _distances(nbrs, source) -> dict[int, int]:
     return dist
 
 
+def _centre(nbrs, source) -> int:
+    """A roughly central node of `source`'s part: the middle of a long shortest path
+    found by two breadth-first sweeps (linear time; exact on trees)."""
+    far = _distances(nbrs, source)
+    a = max(far, key=lambda v: (far[v], -v))
+    from_a = _distances(nbrs, a)
+    b = max(from_a, key=lambda v: (from_a[v], -v))
+    half, v = from_a[b] // 2, b
+    while from_a[v] > half:
+        v = min(w for w in nbrs[v] if from_a.get(w, -1) == from_a[v] - 1)
+    return v
+
+
 def _shortest_ear(nbrs, pos, order) -> list[int]:
     """Unmapped nodes, in path order, of a short path that leaves one mapped node and
     returns to a mapped node (another, or the same one by another edge); [] if none.
@@ -219,7 +232,8 @@ def plan(k: int, edges: Sequence[tuple[int, int]], counts: np.ndarray,
         rest = [v for v in range(k) if pos[v] < 0]
         fewest = min(counts[v] for v in rest)
         tied = [v for v in rest if counts[v] == fewest]
-        take(min(tied, key=lambda v: (max(_distances(nbrs, v).values()), -len(nbrs[v]), v)))
+        centre = _distances(nbrs, _centre(nbrs, tied[0]))
+        take(min(tied, key=lambda v: (centre.get(v, k), -len(nbrs[v]), v)))
     parent, extra, anchors = [], [], []
     for s, v in enumerate(order):
         earlier = sorted(pos[w] for w in nbrs[v] if pos[w] < s)

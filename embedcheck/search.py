@@ -3,15 +3,16 @@
 A placement maps each patch qubit to a distinct live physical qubit so that every
 pair of patch qubits that shares a two-qubit gate sits on a live coupler. That is a
 subgraph monomorphism from the patch's interaction graph into the chip's live
-coupling graph; we enumerate them with rustworkx's VF2 matcher (Cordella et al.,
-IEEE TPAMI 26, 1367 (2004)) with `induced=False`, because the chip may have extra
-couplers among the placed qubits that the patch simply leaves unused.
+coupling graph (not induced: the chip may have extra couplers among the placed qubits
+that the patch simply leaves unused). `matcher.py` enumerates them, anchored and in
+numpy batches; tests hold it to networkx's and rustworkx's VF2 matchers.
 
 Two maps that differ by a symmetry of the patch (a permutation of its qubits that
 keeps every role and every pair's gate count in every searched circuit) are the
-same placement for the experiment; we keep the lexicographically smallest map of
-each orbit and report the group's order. The group acts freely on injective maps,
-so for a complete search `raw_maps == len(placements) * symmetry_order`.
+same placement for the experiment. The matcher yields one map per orbit; we report
+the lexicographically smallest map of each orbit and the group's order. The group
+acts freely on injective maps, so for a complete search
+`raw_maps == len(placements) * symmetry_order`.
 
 Patch qubits with no two-qubit gate in the searched circuits are not constrained by
 any coupler; they are put on the nearest free live qubits (breadth-first from the
@@ -197,12 +198,17 @@ def _take(batch, perms, seen, found, chip, patch, placed, blocked, allowed, limi
         rows = np.arange(len(best))
         smaller = differ[rows, first] & (cand[rows, first] < best[rows, first])
         best = np.where(smaller[:, None], cand, best)
-    for row in best:
+    whole = len(placed) == patch.num_qubits          # every patch qubit interacts
+    physical = np.array(chip.nodes(), dtype=np.int64)[best] if whole else None
+    for i, row in enumerate(best):
         key = row.tobytes()
         if key in seen:
             continue
         seen.add(key)
-        placement = _complete(chip, patch, placed, tuple(int(x) for x in row), blocked, allowed)
+        if whole:
+            placement = Placement(tuple(physical[i].tolist()))
+        else:
+            placement = _complete(chip, patch, placed, row.tolist(), blocked, allowed)
         if placement is not None:
             found.append(placement)
         if limit is not None and len(found) >= limit:
@@ -319,7 +325,7 @@ def _cycle_reasons(patch: Patch, edges, couplers) -> list[str]:
         return []                        # a forest has neither short nor odd cycles
     chip_nodes = sorted({q for c in couplers for q in c})
     out = []
-    if shortest_cycle_nodes(chip_nodes, couplers, max_length=len(cycle)) is None:
+    if shortest_cycle_nodes(chip_nodes, couplers, max_length=len(cycle), first=True) is None:
         names = ", ".join(patch.qubits[i] for i in cycle)
         longer = shortest_cycle_nodes(chip_nodes, couplers, max_length=4 * len(cycle))
         chip_part = (f"has no cycle shorter than {len(longer)}" if longer else

@@ -1,0 +1,132 @@
+"""The monomorphism matcher against independent matchers: networkx's GraphMatcher (VF2,
+Cordella et al., IEEE TPAMI 26, 1367 (2004)) and rustworkx's VF2++ (Juettner & Madarasi,
+Discrete Applied Mathematics 242, 69 (2018)), on random graphs and lattice pieces."""
+import networkx as nx
+import numpy as np
+import pytest
+import rustworkx as rx
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from networkx.algorithms.isomorphism import GraphMatcher
+
+from embedcheck.lattices import heavy_hex, square_grid
+from embedcheck.matcher import Host, monomorphisms, plan
+from embedcheck.search import _automorphisms
+
+
+def _maps(host_n, host_edges, k, edges, **kw):
+    host = Host.from_edges(host_n, host_edges)
+    blocks = [b for b in monomorphisms(host, k, edges, **kw)]
+    return np.concatenate(blocks) if blocks else np.zeros((0, k), dtype=np.int64)
+
+
+def _networkx_maps(host_n, host_edges, k, edges, allowed=None):
+    h = nx.Graph()
+    h.add_nodes_from(range(host_n))
+    h.add_edges_from(host_edges)
+    p = nx.Graph()
+    p.add_nodes_from(range(k))
+    p.add_edges_from(edges)
+    if allowed is not None:
+        for v in h:
+            h.nodes[v]["ok"] = {j for j in range(k) if allowed[j][v]}
+        for j in p:
+            p.nodes[j]["j"] = j
+        matcher = GraphMatcher(h, p, node_match=lambda a, b: b["j"] in a["ok"])
+    else:
+        matcher = GraphMatcher(h, p)
+    return {tuple(inv[j] for j in range(k)) for inv in
+            ({j: v for v, j in m.items()} for m in matcher.subgraph_monomorphisms_iter())}
+
+
+@st.composite
+def graphs(draw):
+    k = draw(st.integers(2, 6))
+    edges = draw(st.lists(st.tuples(st.integers(0, k - 1), st.integers(0, k - 1)),
+                          min_size=1, max_size=10))
+    edges = sorted({tuple(sorted(e)) for e in edges if e[0] != e[1]}) or [(0, 1)]
+    n = draw(st.integers(2, 10))
+    host = draw(st.lists(st.tuples(st.integers(0, n - 1), st.integers(0, n - 1)), max_size=30))
+    host = sorted({tuple(sorted(e)) for e in host if e[0] != e[1]})
+    chunk = draw(st.sampled_from([1, 2, 5, 1 << 20]))
+    masks = draw(st.booleans())
+    allowed = None
+    if masks:
+        bits = draw(st.lists(st.booleans(), min_size=k * n, max_size=k * n))
+        allowed = [np.array(bits[j * n:(j + 1) * n]) for j in range(k)]
+    return k, edges, n, host, chunk, allowed
+
+
+@settings(max_examples=300, derandomize=True, deadline=None)
+@given(graphs())
+def test_every_map_once_as_networkx_finds_them(case):
+    # Isolated pattern nodes, disconnected patterns, tiny chunks (many splits) and
+    # per-node candidate masks (a node matcher in networkx's terms) included.
+    k, edges, n, host, chunk, allowed = case
+    ours = _maps(n, host, k, edges, chunk=chunk, candidates=allowed)
+    expected = _networkx_maps(n, host, k, edges, allowed)
+    assert len(ours) == len({tuple(r) for r in ours}) == len(expected)
+    assert {tuple(int(x) for x in r) for r in ours} == expected
+
+
+def _pattern_graph(k, edges):
+    g = rx.PyGraph()
+    g.add_nodes_from(["data"] * k)
+    g.add_edges_from([(a, b, ((1,),)) for a, b in edges])
+    return g
+
+
+def _orbit_check(host_n, host_edges, k, edges):
+    autos = _automorphisms(_pattern_graph(k, edges))
+    reps = _maps(host_n, host_edges, k, edges, symmetries=autos)
+    host = rx.PyGraph()
+    host.add_nodes_from(range(host_n))
+    host.add_edges_from_no_data(host_edges)
+    reference = {tuple(m_inv[j] for j in range(k)) for m_inv in
+                 ({j: v for v, j in m.items()} for m in rx.vf2_mapping(
+                     host, _pattern_graph(k, edges), subgraph=True, induced=False,
+                     id_order=False))}
+    images = {tuple(int(r[s[j]]) for j in range(k)) for r in reps for s in autos}
+    assert len(reps) * len(autos) == len(reference)
+    assert images == reference
+    return len(reps), len(autos)
+
+
+@pytest.mark.parametrize("rows,cols", [(2, 2), (2, 3)])
+def test_one_map_per_orbit_for_heavy_hex_pieces(rows, cols):
+    # A piece of the heavy-hex lattice on a bigger heavy-hex chip: every raw map
+    # rustworkx finds is a symmetry image of exactly one of our representatives.
+    piece, chip = heavy_hex(rows, cols), heavy_hex(5, 5)
+    index = {q: i for i, q in enumerate(piece.qubits)}
+    edges = [(index[a], index[b]) for a, b in piece.couplers]
+    chip_index = {q: i for i, q in enumerate(chip.qubits)}
+    chip_edges = [(chip_index[a], chip_index[b]) for a, b in chip.couplers]
+    reps, order = _orbit_check(len(chip.qubits), chip_edges, len(piece.qubits), edges)
+    assert reps > 0 and order > 1
+
+
+def test_one_map_per_orbit_for_square_cells_and_rings():
+    grid = square_grid(5, 5)
+    index = {q: i for i, q in enumerate(grid.qubits)}
+    grid_edges = [(index[a], index[b]) for a, b in grid.couplers]
+    square = [(0, 1), (1, 2), (2, 3), (3, 0)]
+    assert _orbit_check(25, grid_edges, 4, square) == (16, 8)      # 16 cells, dihedral D4
+    cross = [(0, 1), (0, 2), (0, 3), (0, 4)]
+    assert _orbit_check(25, grid_edges, 5, cross) == (9, 24)       # inner vertices, S4
+    ring8 = [(i, (i + 1) % 8) for i in range(8)]
+    reps, order = _orbit_check(25, grid_edges, 8, ring8)
+    assert order == 16 and reps > 0
+
+
+def test_plan_maps_each_part_connected_and_closes_cycles_early():
+    # Two 6-cycles sharing an edge, plus a separate edge: after a part's first node
+    # every step hangs off an earlier one; the first cycle closes by step 6.
+    edges = [(0, 1), (1, 2), (2, 3), (3, 4), (4, 5), (5, 0), (1, 6), (6, 7), (7, 8), (8, 2),
+             (9, 10)]
+    p = plan(11, edges, np.ones(11))
+    assert sorted(p.order) == list(range(11))
+    assert len(p.anchors) == 2
+    for s in range(11):
+        assert (p.parent[s] == -1) == (s in p.anchors)
+    first_close = min(s for s in range(11) if p.extra[s])
+    assert first_close <= 5
