@@ -83,7 +83,8 @@ def _parser() -> argparse.ArgumentParser:
     find.add_argument("--decode", action="store_true",
                       help="with --monte-carlo, also decode by matching (pymatching)")
     find.add_argument("--processes", type=_positive_int, default=1,
-                      help="worker processes for the logical scores (default 1)")
+                      help="worker processes for the placement search and the logical "
+                           "scores (default 1)")
     find.add_argument("--compare-sdk", action="store_true",
                       help="also run qiskit's VF2Layout on the whole experiment and say where "
                            "its choice ranks under our model")
@@ -361,7 +362,8 @@ def _run_find(args) -> int:
             _check_picture_path(target)
     progress = _progress()
     vetting = vet_patch(device, patch, limit=args.limit, budget_s=args.budget_s,
-                        progress=progress, constraints=_constraints_from(args, patch, device))
+                        progress=progress, constraints=_constraints_from(args, patch, device),
+                        processes=args.processes)
     if progress:
         print("\r" + " " * 40 + "\r", end="", file=sys.stderr)
     payload = report_data.find_dict(vetting, top=args.top)

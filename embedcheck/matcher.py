@@ -257,7 +257,8 @@ def plan(k: int, edges: Sequence[tuple[int, int]], counts: np.ndarray,
 def monomorphisms(host: Host, k: int, edges: Sequence[tuple[int, int]], *,
                   candidates: Sequence[np.ndarray] | None = None,
                   symmetries: Sequence[Sequence[int]] | None = None,
-                  chunk: int = 1 << 20) -> Iterator[np.ndarray]:
+                  chunk: int = 1 << 20, part: tuple[int, int] = (0, 1)
+                  ) -> Iterator[np.ndarray]:
     """Yield arrays of shape (m, k): row r maps pattern node j to host node [r, j].
 
     Every monomorphism of the pattern (k nodes, `edges`) into `host` is yielded once, or,
@@ -265,12 +266,32 @@ def monomorphisms(host: Host, k: int, edges: Sequence[tuple[int, int]], *,
     orbit. `candidates[j]` is an optional boolean mask over host nodes for pattern node j.
     Empty arrays are yielded now and then so a caller can check its budgets. `chunk`
     bounds the entries of one block of partial maps (memory stays near
-    k * max degree * chunk entries however many maps there are).
+    k * max degree * chunk entries however many maps there are). `part=(i, m)` searches
+    only every m-th anchor from the i-th: the m parts together find every map once, so
+    they can run in separate processes (see `prepare` and `grow`).
     """
+    yield from grow(prepare(host, k, edges, candidates=candidates, symmetries=symmetries),
+                    part=part, chunk=chunk)
+
+
+@dataclass(frozen=True)
+class Prepared:
+    """Everything a search needs, worked out once: the plan, each step's candidate mask
+    and the anchors that pass the pruning (picklable, for worker processes)."""
+
+    host: Host
+    k: int
+    plan: Plan
+    masks: tuple[np.ndarray, ...]        # candidate mask of the node mapped at each step
+    start: np.ndarray                    # host nodes the first node may map to
+
+
+def prepare(host: Host, k: int, edges: Sequence[tuple[int, int]], *,
+            candidates: Sequence[np.ndarray] | None = None,
+            symmetries: Sequence[Sequence[int]] | None = None) -> Prepared:
+    """Candidate masks (degree, neighbour degrees, caller's masks), the matching order
+    with its symmetry constraints, and the anchors whose balls are big enough."""
     edges = [(int(a), int(b)) for a, b in edges]
-    if k == 0:
-        yield np.zeros((1, 0), dtype=np.int64)
-        return
     pnbr: list[set[int]] = [set() for _ in range(k)]
     for a, b in set(tuple(sorted(e)) for e in edges if e[0] != e[1]):
         pnbr[a].add(b)
@@ -290,8 +311,8 @@ def monomorphisms(host: Host, k: int, edges: Sequence[tuple[int, int]], *,
         masks.append(ok)
     counts = np.array([int(m.sum()) for m in masks])
     p = plan(k, edges, counts, symmetries)
-    if (counts == 0).any():
-        return
+    if k == 0 or (counts == 0).any():
+        return Prepared(host, k, p, tuple(masks[v] for v in p.order), np.zeros(0, np.int64))
     pattern_host = Host(k, pindptr, pind, np.zeros(0, dtype=np.int64))
     first = p.order[0]
     start = np.flatnonzero(masks[first])
@@ -303,9 +324,22 @@ def monomorphisms(host: Host, k: int, edges: Sequence[tuple[int, int]], *,
             got = host.ball_sizes(start[lo:lo + 4096], radius)
             keep[lo:lo + 4096] = np.all(got >= need, axis=1)
         start = start[keep]
-    order_masks = [masks[v] for v in p.order]
-    free_nodes = [np.flatnonzero(order_masks[s]) for s in range(k)]
-    stack = [(1, start.reshape(-1, 1))]
+    return Prepared(host, k, p, tuple(masks[v] for v in p.order), start)
+
+
+def grow(prep: Prepared, *, part: tuple[int, int] = (0, 1),
+         chunk: int = 1 << 20) -> Iterator[np.ndarray]:
+    """The search itself (see `monomorphisms`): depth first over blocks of partial maps.
+
+    A block at step s has s columns: the images of the first s nodes of the plan's order."""
+    host, k, p, masks = prep.host, prep.k, prep.plan, prep.masks
+    if k == 0:
+        yield np.zeros((1, 0), dtype=np.int64)
+        return
+    hdeg = host.degree
+    free_nodes = [np.flatnonzero(masks[s]) if p.parent[s] < 0 else None for s in range(k)]
+    start = prep.start[part[0]::part[1]]
+    stack = [(1, start.reshape(-1, 1))] if len(start) else []
     inverse = np.argsort(np.array(p.order))
     pops = 0
     while stack:
@@ -321,7 +355,7 @@ def monomorphisms(host: Host, k: int, edges: Sequence[tuple[int, int]], *,
         else:
             fan = np.full(len(rows), len(free_nodes[s]), dtype=np.int64)
         total = int(fan.sum())
-        most = max(1, chunk // (s + 1))               # rows of s + 1 columns per piece
+        most = max(1, chunk // (s + 1))               # rows of s + 1 columns per block
         if total > most and len(rows) > 1:            # split: bounded memory, depth first
             cut = np.searchsorted(np.cumsum(fan), np.arange(1, total // most + 2) * most)
             pieces = np.split(rows, np.unique(np.clip(cut, 1, len(rows) - 1)))
@@ -333,7 +367,7 @@ def monomorphisms(host: Host, k: int, edges: Sequence[tuple[int, int]], *,
         else:
             which = np.repeat(np.arange(len(rows)), len(free_nodes[s]))
             cand = np.tile(free_nodes[s], len(rows))
-        keep = order_masks[s][cand]
+        keep = masks[s][cand]
         which, cand = which[keep], cand[keep]
         for t in p.extra[s]:
             keep = host.adjacent(cand, rows[which, t])
@@ -344,4 +378,7 @@ def monomorphisms(host: Host, k: int, edges: Sequence[tuple[int, int]], *,
         grown = rows[which]
         keep = ~(grown == cand[:, None]).any(axis=1)
         if keep.any():
-            stack.append((s + 1, np.column_stack([grown[keep], cand[keep]])))
+            out = np.empty((int(keep.sum()), s + 1), dtype=rows.dtype)
+            out[:, :s] = grown[keep]
+            out[:, s] = cand[keep]
+            stack.append((s + 1, out))

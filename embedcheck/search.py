@@ -40,7 +40,7 @@ import rustworkx as rx
 
 from .constraints import Constraints
 from .device import Device
-from .matcher import Host, monomorphisms
+from .matcher import Host, grow, prepare
 from .graphs import odd_cycle_nodes, shortest_cycle, shortest_cycle_nodes
 from .patch import Patch
 
@@ -83,14 +83,16 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
                     progress: Callable[[int], None] | None = None,
                     constraints: Constraints | None = None,
                     clock: Callable[[], float] = time.monotonic,
-                    max_maps: int | None = None) -> SearchResult:
+                    max_maps: int | None = None, processes: int = 1) -> SearchResult:
     """All distinct swap-free placements of `patch` for `circuits` (default: all).
 
     `limit` caps the number of distinct placements, `budget_s` the seconds spent (read
     from `clock`, which tests may replace), `max_maps` the raw maps examined (a step
     budget); the result says which one stopped the search. `constraints` restrict the
     chip qubits each role may use and the couplers pairs may use (see constraints.py).
-    `progress(n)` is called now and then with the number of raw maps seen.
+    `progress(n)` is called now and then with the number of raw maps seen. With
+    `processes > 1` the chip's anchors are split among that many worker processes (the
+    result is the same set; workers read the budget from the wall clock, not `clock`).
     """
     names = tuple(patch.circuits) if circuits is None else tuple(circuits)
     rules = constraints or Constraints()
@@ -113,9 +115,16 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
     blocked = {i for i in chip.node_indices() if chip[i] not in usable}
     perms = np.array(autos, dtype=np.int64).reshape(len(autos), len(placed))
     order = len(autos)                       # raw maps each representative stands for
-    for block in _maps(device, chip, pattern, placed, patch, allowed, blocked, arcs,
-                       None if directed else autos):
-        if budget_s is not None and clock() - start > budget_s:
+    cap = None                               # representatives a worker may stop at
+    if limit is not None or max_maps is not None:
+        cap = min(x for x in (limit, None if max_maps is None else -(-max_maps // order))
+                  if x is not None)
+    cut_short = None
+    for block, why in _maps(device, chip, pattern, placed, patch, allowed, blocked, arcs,
+                            None if directed else autos, processes=processes, cap=cap,
+                            seconds=budget_s):
+        cut_short = cut_short or why
+        if processes <= 1 and budget_s is not None and clock() - start > budget_s:
             stop = "budget"                  # checked first: budget_s=0 takes nothing
             break
         if len(block):
@@ -132,6 +141,11 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
         if max_maps is not None and raw >= max_maps:
             stop = "budget"
             break
+        if processes > 1 and budget_s is not None and clock() - start > budget_s:
+            stop = "budget"                  # workers kept the deadline: keep what came
+            break
+    if stop == "complete" and cut_short:
+        stop = cut_short          # a worker's part stopped early: the union is incomplete
     if stop == "complete" and raw == 0:
         what = "the chip's live coupling graph" + (" under the constraints" if not rules.empty
                                                    else "")
@@ -151,12 +165,14 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
                         clock() - start, tuple(full))
 
 
-def _maps(device, chip, pattern, placed, patch, allowed, blocked, arcs, autos):
-    """Blocks of raw maps (rows: chip node of pattern node 0, 1, ...), one per symmetry
-    orbit when `autos` is given; maps whose directional gates run against a coupler's
-    native direction are dropped when `arcs` is given."""
+def _maps(device, chip, pattern, placed, patch, allowed, blocked, arcs, autos, *,
+          processes=1, cap=None, seconds=None):
+    """(block, why) pairs: blocks of raw maps (rows: chip node of pattern node 0, 1, ...),
+    one per symmetry orbit when `autos` is given, without the maps whose directional
+    gates run against a coupler's native direction when `arcs` is given. `why` is None,
+    or 'limit' / 'budget' when a worker process stopped its part early (at `cap` maps,
+    or after `seconds`)."""
     n = chip.num_nodes()
-    host = Host.from_edges(n, list(chip.edge_list()))
     live = np.ones(n, dtype=bool)
     live[list(blocked)] = False
     masks = None
@@ -175,14 +191,53 @@ def _maps(device, chip, pattern, placed, patch, allowed, blocked, arcs, autos):
         native = np.array(sorted(a * n + b for a, b in chip.edge_list() for a, b in
                                  ((a, b), (b, a)) if device.runs_natively(chip[a], chip[b])),
                           dtype=np.int64)
-    for block in monomorphisms(host, pattern.num_nodes(), list(pattern.edge_list()),
-                               candidates=masks, symmetries=autos):
+    prep = prepare(Host.from_edges(n, list(chip.edge_list())), pattern.num_nodes(),
+                   list(pattern.edge_list()), candidates=masks, symmetries=autos)
+    job = (prep, arcs, native)
+    if processes <= 1 or len(prep.start) < 2 * processes:
+        for block in _filtered(job, (0, 1)):
+            yield block, None
+        return
+    from concurrent.futures import ProcessPoolExecutor, as_completed
+    deadline = None if seconds is None else time.monotonic() + seconds
+    with ProcessPoolExecutor(processes) as pool:
+        futures = [pool.submit(_run_part, job, (i, processes), cap, deadline)
+                   for i in range(processes)]
+        try:
+            for future in as_completed(futures):
+                yield future.result()
+        finally:
+            for future in futures:
+                future.cancel()
+
+
+def _filtered(job, part):
+    prep, arcs, native = job
+    n = prep.host.n
+    for block in grow(prep, part=part):
         if native is not None and len(block):
             ok = np.ones(len(block), dtype=bool)
             for a, b in arcs:
                 ok &= np.isin(block[:, a].astype(np.int64) * n + block[:, b], native)
             block = block[ok]
         yield block
+
+
+def _run_part(job, part, cap, deadline):
+    """One worker process's share of the anchors: every map it finds, unless `cap` maps
+    or the `deadline` (time.monotonic) come first; then also which one stopped it."""
+    blocks, count, why = [], 0, None
+    for block in _filtered(job, part):
+        blocks.append(block)
+        count += len(block)
+        if cap is not None and count >= cap:
+            why = "limit"
+            break
+        if deadline is not None and time.monotonic() > deadline:
+            why = "budget"
+            break
+    k = job[0].k
+    return (np.concatenate(blocks) if blocks else np.zeros((0, k), dtype=np.int64)), why
 
 
 def _take(batch, perms, seen, found, chip, patch, placed, blocked, allowed, limit) -> None:

@@ -70,10 +70,11 @@ class Vetting:
 def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
               budget_s: float | None = 60.0,
               progress: Callable[[int], None] | None = None,
-              constraints: Constraints | None = None) -> Vetting:
+              constraints: Constraints | None = None, processes: int = 1) -> Vetting:
     """Search, audit and rank `patch` on `device`; see the module docstring.
 
-    `constraints` (or, when not given, the patch's own) restrict every search.
+    `constraints` (or, when not given, the patch's own) restrict every search;
+    `processes` worker processes share the full search's anchors.
     """
     rules = constraints if constraints is not None else patch.constraints
     if patch.num_qubits > device.num_qubits:
@@ -100,7 +101,7 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
     if core or not gated:
         core += [n for n in order if n not in gated]
         search = find_placements(device, patch, circuits=core, limit=limit, budget_s=budget_s,
-                                 progress=progress, constraints=rules)
+                                 progress=progress, constraints=rules, processes=processes)
         misses = ()
     else:
         reasons = tuple(dict.fromkeys(r for f in fits for r in f.reasons)) or (

@@ -130,3 +130,29 @@ def test_plan_maps_each_part_connected_and_closes_cycles_early():
         assert (p.parent[s] == -1) == (s in p.anchors)
     first_close = min(s for s in range(11) if p.extra[s])
     assert first_close <= 5
+
+
+def test_worker_processes_find_the_same_placements():
+    # The anchors split between two processes: the same distinct placements, the same raw
+    # count, and honest stop reasons under a count limit.
+    from embedcheck import Device
+    from embedcheck.constraints import build
+    from embedcheck.search import find_placements
+    from helpers import patch_from_edges
+    piece = heavy_hex(2, 2)
+    patch = patch_from_edges(list(piece.couplers))
+    device = Device.from_lattice(heavy_hex(6, 6), name="hh")
+    serial = find_placements(device, patch, limit=None)
+    split = find_placements(device, patch, limit=None, processes=2)
+    assert split.complete and serial.complete
+    assert set(split.placements) == set(serial.placements) and len(serial.placements) > 10
+    assert split.raw_maps == serial.raw_maps
+    capped = find_placements(device, patch, limit=5, processes=2)
+    assert len(capped.placements) == 5 and capped.stop_reason == "limit"
+    ways = {c: c for c in device.couplers}                    # every coupler one way
+    directed = Device.from_lattice(heavy_hex(6, 6), name="hh", directed=ways)
+    rules = build(forbid_direction_fixes=True)
+    line = patch_from_edges([(0, 1), (1, 2), (2, 3)])
+    one = find_placements(directed, line, limit=None, constraints=rules)
+    two = find_placements(directed, line, limit=None, constraints=rules, processes=2)
+    assert set(one.placements) == set(two.placements) and one.raw_maps == two.raw_maps > 0
