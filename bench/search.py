@@ -42,7 +42,7 @@ def piece(rows, columns):
     return patch_from_edges(list(lat.couplers), name=f"piece{rows}x{columns}")
 
 
-def case(label, device, patch, circuits=None):
+def case(label, device, patch, circuits=None, processes=1):
     names = circuits or list(patch.circuits)
     pattern, placed = _pattern(patch, names)
     graph = device.live_graph()
@@ -51,7 +51,7 @@ def case(label, device, patch, circuits=None):
            for m in rx.vf2_mapping(graph, pattern, subgraph=True, induced=False, id_order=False)]
     base = time.perf_counter() - t
     t = time.perf_counter()
-    result = find_placements(device, patch, circuits=names, limit=None)
+    result = find_placements(device, patch, circuits=names, limit=None, processes=processes)
     rank_placements(device, patch, result.placements)
     ours = time.perf_counter() - t
     tracemalloc.start()                  # memory in a second run: tracing slows Python down
@@ -79,6 +79,7 @@ def main():
     case("(iii) 87-qubit piece on 2159-qubit chip", mid, piece(3, 4))
     case("(iv-a) 35-qubit piece on 8319-qubit chip", big, piece(2, 2))
     case("(iv-b) 87-qubit piece on 8319-qubit chip", big, piece(3, 4))
+    case("(iv-b) the same, anchors split over 2 processes", big, piece(3, 4), processes=2)
 
 
 if __name__ == "__main__":
