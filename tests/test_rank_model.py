@@ -227,6 +227,11 @@ def test_pictures_show_the_placement(tmp_path):
     assert drawn["free"] == dev.num_qubits - 7
     assert {"data", "flag", "ancilla", "free qubit", "dead coupler"} <= {
         t.get_text() for t in ax.get_legend().get_texts()}
+    numbers = [t for t in ax.texts if t.get_gid() == "qubit numbers"]
+    assert sorted(int(t.get_text()) for t in numbers) == sorted(dev.qubits)
+    best = vetting.ranking.placements[0].as_dict(patch)
+    at = {int(t.get_text()): t.xy for t in numbers}
+    assert at[best["a0"]] == tuple(dev.positions[best["a0"]])    # number sits on its qubit
     svg = tmp_path / "best.svg"
     draw_placement(dev, svg, patch=patch, placement=vetting.ranking.placements[0])
     assert svg.read_text().lstrip().startswith("<?xml")

@@ -50,6 +50,20 @@ def _positions(device: Device) -> dict:
     return {q: (float(x) * scale, float(y) * scale) for q, (x, y) in pos.items()}
 
 
+LABELLED_UP_TO = 200          # physical qubit numbers are printed on chips this small
+
+
+def _number_qubits(ax, device: Device, pos):
+    """Each qubit's physical number just below it, so a picture can be read against the
+    text report (left out on big chips, where they would overlap)."""
+    if device.num_qubits > LABELLED_UP_TO:
+        return
+    for q in device.qubits:
+        x, y = pos[q]
+        ax.annotate(str(q), (x, y), textcoords="offset points", xytext=(0, -11), ha="center",
+                    fontsize=5, color="#444444", zorder=4, gid="qubit numbers")
+
+
 def _draw_couplers(ax, device: Device, pos, highlight=frozenset()):
     import matplotlib as mpl
     from matplotlib.collections import LineCollection
@@ -109,6 +123,7 @@ def draw_placement(device: Device, path: str | Path | None = None, *, patch: Pat
                     x, y = pos[where[name]]
                     ax.annotate(name, (x, y), textcoords="offset points", xytext=(0, 9),
                                 ha="center", fontsize=7, zorder=4)
+    _number_qubits(ax, device, pos)
     fig.colorbar(sm, ax=ax, shrink=0.7, pad=0.02, label="two-qubit error (light: low)")
     ax.legend(loc="upper center", bbox_to_anchor=(0.5, 0.0), ncol=6, fontsize=8, frameon=False,
               markerscale=0.7)
@@ -144,6 +159,7 @@ def draw_score_map(device: Device, patch: Patch, placements, success, path=None,
     if dead:
         ax.scatter([pos[q][0] for q in dead], [pos[q][1] for q in dead], s=60, marker="x",
                    c=DEAD, zorder=2, label="dead qubit", gid="dead qubits")
+    _number_qubits(ax, device, pos)
     ax.legend(loc="upper center", bbox_to_anchor=(0.5, 0.0), ncol=6, fontsize=8, frameon=False,
               markerscale=0.7)
     ax.set_title(title or f"Where {patch.name} does best on {device.name}", fontsize=10)
