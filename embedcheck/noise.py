@@ -15,7 +15,8 @@ Conversions (each reported figure -> stim noise channel):
   pz = (1 - e^(-t/T2))/2 - (1 - e^(-t/T1))/4, the Pauli-twirled amplitude and phase
   damping channel (Ghosh, Fowler & Geller, Phys. Rev. A 86, 062318 (2012)), placed
   where the as-soon-as-possible schedule (`schedule.py`) has the qubit wait: before
-  an operation that starts after the qubit was free, and at the end of each circuit.
+  an operation that starts after the qubit was free (or after the circuit started,
+  for a qubit that already holds state), and at the end of each circuit.
 
 Gates that land off-coupler have no coupler error: a noisy circuit is only built for
 placements where every circuit is swap-free.
@@ -71,11 +72,11 @@ def noisy_circuit(device: Device, patch: Patch, placement: Placement, *, noise: 
     median = _median_coupler_duration(device) or 0.0
     circuit = stim.Circuit()
     measured = 0
-    for name, times in patch.experiment():
+    for name, again, times in patch.runs():
         body = stim.Circuit()
         count = 0
         free = {q: 0.0 for q in patch.qubits}
-        started: set = set()
+        started: set = set(patch.waiting(name, again))     # these idle from time 0
         for op in patch.circuits[name].operations:
             qs = op.qubits
             if op.kind == "barrier":

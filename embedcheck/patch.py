@@ -111,6 +111,35 @@ class Patch:
         times = {"prep": 1, "round": self.rounds, "readout": 1}
         return [(name, times[name]) for name in EXPERIMENT_ORDER if name in self.circuits]
 
+    def runs(self) -> list[tuple[str, bool, int]]:
+        """(circuit, again, count): the experiment's runs by kind. A circuit run more than
+        once is listed twice, its first run (again=False, count 1) and its later runs
+        (again=True), because they differ in which qubits already hold state."""
+        out = []
+        for name, times in self.experiment():
+            out.append((name, False, 1))
+            if times > 1:
+                out.append((name, True, times - 1))
+        return out
+
+    def waiting(self, circuit: str, again: bool = False) -> frozenset[str]:
+        """Qubits that hold state when `circuit` starts: touched by an earlier circuit of
+        the experiment (or by this one, on a later run) and not reset first thing in it.
+        Their wait before their first operation is idle time; a qubit still in its
+        initial |0> does not decay, and one about to be reset has nothing to lose."""
+        names = [n for n, _ in self.experiment()]
+        before = names[:names.index(circuit)] if circuit in names else []
+        if again:
+            before.append(circuit)
+        touched = {q for n in before for op in self.circuits[n].operations
+                   if op.kind != "barrier" for q in op.qubits}
+        first: dict = {}
+        for op in self.circuits[circuit].operations:
+            if op.kind != "barrier":
+                for q in op.qubits:
+                    first.setdefault(q, op.kind)
+        return frozenset(q for q in touched if first.get(q) != "reset")
+
     def interaction_counts(self, circuit_names: Sequence[str] | None = None,
                            weighted: bool = False) -> dict[tuple[int, int], int]:
         """Two-qubit gates per patch-qubit pair (index pairs, smaller first).

@@ -11,8 +11,9 @@ fidelities" estimate, common practice):
 
 over prep, `rounds` check rounds and readout. Idle times come from an
 as-soon-as-possible schedule of each circuit with the chip's durations (see
-`schedule.py`): a qubit idles from its first operation in a circuit to the circuit's
-end, whenever it is not busy. The idle error is the Pauli-twirled amplitude and
+`schedule.py`): a qubit idles from its first operation in a circuit (from the
+circuit's start when it already holds state) to the circuit's end, whenever it is not
+busy; the first and the later runs of a repeated circuit are scheduled apart. The idle error is the Pauli-twirled amplitude and
 phase damping channel (the Pauli twirling approximation, Ghosh, Fowler & Geller,
 Phys. Rev. A 86, 062318 (2012); the closed form is derived here and the tests check
 it against qiskit's Kraus operators twirled numerically):
@@ -119,15 +120,16 @@ def scores(device: Device, patch: Patch, grid: np.ndarray,
         terms["single_qubit"] = (np.log1p(-cal.single_qubit_error[grid]) * singles).sum(axis=1)
         terms["reset"] = (np.log1p(-cal.reset_error[grid]) * resets).sum(axis=1)
         idle = np.zeros(count)
-        for name, times in patch.experiment():
-            t_idle = idle_times(patch, name, grid, cal)
+        for name, again, times in patch.runs():
+            t_idle = idle_times(patch, name, grid, cal, again=again)
             p = idle_error(t_idle, cal.t1_us[grid], cal.t2_us[grid])
             idle += times * np.log1p(-p).sum(axis=1)
         terms["idle"] = idle
     return terms, unscored
 
 
-def idle_times(patch: Patch, circuit: str, grid: np.ndarray, cal: CalibrationArrays) -> np.ndarray:
+def idle_times(patch: Patch, circuit: str, grid: np.ndarray, cal: CalibrationArrays, *,
+               again: bool = False) -> np.ndarray:
     """Idle ns of each patch qubit in one run of `circuit`, for every placement at once.
 
     As-soon-as-possible schedule (same rules as `schedule.schedule_circuit`), looping
@@ -151,6 +153,7 @@ def idle_times(patch: Patch, circuit: str, grid: np.ndarray, cal: CalibrationArr
     busy = np.zeros((n, count))
     first = np.zeros((n, count))
     started = np.zeros(n, dtype=bool)
+    started[[idx[q] for q in patch.waiting(circuit, again)]] = True    # idle from time 0
     for op in ops:
         cols = [idx[q] for q in op.qubits]
         if op.kind == "barrier":
@@ -296,8 +299,8 @@ def sensitivity(device: Device, patch: Patch, placement: Placement,
             grid = placement_grid([placement], patch.num_qubits)
             arrays = device.calibration_arrays()      # built once per device, then cached
             part1 = part2 = d_t1 = d_t2 = 0.0
-            for name, times in patch.experiment():
-                t = idle_times(patch, name, grid, arrays)[0, i] / 1000.0
+            for name, again, times in patch.runs():
+                t = idle_times(patch, name, grid, arrays, again=again)[0, i] / 1000.0
                 p1 = -np.expm1(-t / cal.t1_us) / 4          # the T1 part of p_idle
                 p2 = -np.expm1(-t / cal.t2_us) / 2          # the T2 part
                 p_idle = p1 + p2

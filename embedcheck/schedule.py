@@ -8,9 +8,11 @@ common practice). A barrier makes its qubits wait for each other. A two-qubit ga
 off-coupler has no coupler duration: the chip's median coupler duration stands in and
 the schedule says so. Missing durations count as 0 and are listed in `missing`.
 
-Idle time of a qubit is the time from its first operation to the end of the circuit
-that it is not busy (the ranking's idle-error term uses it): a data qubit waits while
-the ancillas are measured.
+Idle time of a qubit is the time from its first operation (or from the circuit's
+start, when it already holds state: `Patch.waiting`) to the end of the circuit that it
+is not busy (the ranking's idle-error term uses it): a data qubit waits while the
+ancillas are reset and measured. `again=True` schedules a later run of a repeated
+circuit, where the qubits it used hold state from the run before.
 
     >>> from embedcheck.device import Device, QubitCalibration, CouplerCalibration
     >>> from embedcheck.lattices import line
@@ -47,12 +49,13 @@ class Schedule:
     missing: tuple[str, ...]      # durations the chip file does not give (counted as 0)
 
 
-def schedule_circuit(device: Device, patch: Patch, circuit: str, placement: Placement) -> Schedule:
+def schedule_circuit(device: Device, patch: Patch, circuit: str, placement: Placement, *,
+                     again: bool = False) -> Schedule:
     """ASAP-schedule `circuit` of `patch` on `placement` with the chip's durations."""
     where = placement.as_dict(patch)
     free = {q: 0.0 for q in patch.qubits}
     layer = {q: 0 for q in patch.qubits}
-    first: dict = {}
+    first: dict = dict.fromkeys(patch.waiting(circuit, again), 0.0)
     busy = {q: 0.0 for q in patch.qubits}
     missing: set = set()
     median = _median_coupler_duration(device)

@@ -17,8 +17,8 @@ def _product_by_hand(device, patch, placement):
     the idle factor from the per-placement schedule (schedule.py, not the vectorised one)."""
     where = placement.as_dict(patch)
     s = 1.0
-    for name, times in patch.experiment():
-        idle = schedule_circuit(device, patch, name, placement).idle_ns
+    for name, again, times in patch.runs():
+        idle = schedule_circuit(device, patch, name, placement, again=again).idle_ns
         for _ in range(times):
             for q, t in idle.items():
                 cal = device.qubit_calibration[where[q]]

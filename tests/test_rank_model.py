@@ -38,13 +38,18 @@ def test_worked_example_by_hand():
     (ranked,) = rank_placements(dev, patch, [Placement((0, 1))]).success
     # Per round: h on a (0..50 ns), cx (50..350), measure b (350..1350): the round ends at
     # 1350 ns; a is busy 350 ns from its start at 0, so idles 1000 ns; b starts at 50,
-    # is busy 1300 ns, idles 0. Readout: both measured at once, no idling.
+    # is busy 1300 ns. In the first round b is still in |0> before its cx (no decay); in
+    # the second it holds the first round's outcome, so it idles those 50 ns. Readout:
+    # both measured at once, no idling.
     p_idle_a = (1 - math.exp(-1.0 / 100)) / 4 + (1 - math.exp(-1.0 / 50)) / 2
-    by_hand = ((1 - 0.001) * (1 - 0.01) * (1 - 0.05) * (1 - p_idle_a)) ** 2 \
-        * (1 - 0.02) * (1 - 0.05)
+    p_idle_b = (1 - math.exp(-0.05 / 100)) / 4 + (1 - math.exp(-0.05 / 100)) / 2
+    one_round = (1 - 0.001) * (1 - 0.01) * (1 - 0.05) * (1 - p_idle_a)
+    by_hand = one_round ** 2 * (1 - p_idle_b) * (1 - 0.02) * (1 - 0.05)
     assert ranked == pytest.approx(by_hand, rel=1e-12)
     s = schedule_circuit(dev, patch, "round", Placement((0, 1)))
     assert s.duration_ns == 1350 and s.idle_ns == {"a": 1000.0, "b": 0.0}
+    later = schedule_circuit(dev, patch, "round", Placement((0, 1)), again=True)
+    assert later.idle_ns == {"a": 1000.0, "b": 50.0}
 
 
 def _kraus_twirled_error(t_us, t1_us, t2_us):
@@ -105,8 +110,8 @@ def _reference_log(dev, patch, placement):
     """log S one operation at a time, with the per-placement schedule of schedule.py."""
     where = placement.as_dict(patch)
     log = 0.0
-    for name, times in patch.experiment():
-        s = schedule_circuit(dev, patch, name, placement)
+    for name, again, times in patch.runs():
+        s = schedule_circuit(dev, patch, name, placement, again=again)
         one = 0.0
         for op in patch.circuits[name].operations:
             q = dev.qubit_calibration[where[op.qubits[0]]]
@@ -265,3 +270,20 @@ def test_sdk_choice_is_swap_free_and_ranked():
     from embedcheck.io.patchfile import load_patch as lp
     naive, status = sdk_layout(dev, lp(FIXED_PATCH.parent / "flagged_weight4.yaml"))
     assert naive is None and "no layout" in status
+
+
+def test_who_holds_state_when_a_circuit_starts():
+    # prep touches d; the round resets a first, then uses d and a; readout measures d.
+    prep = (Operation("h", ("d",), "1q"),)
+    round_ops = (Operation("reset", ("a",), "reset"), Operation("cx", ("d", "a"), "2q"),
+                 Operation("measure", ("a",), "measure"))
+    readout = (Operation("measure", ("d",), "measure"),)
+    patch = Patch("toy", ("d", "a"), {"d": "data", "a": "ancilla"},
+                  {"prep": Circuit("prep", prep), "round": Circuit("round", round_ops),
+                   "readout": Circuit("readout", readout)}, rounds=3)
+    assert patch.runs() == [("prep", False, 1), ("round", False, 1), ("round", True, 2),
+                            ("readout", False, 1)]
+    assert patch.waiting("prep") == frozenset()
+    assert patch.waiting("round") == {"d"}                  # a is reset first: nothing to lose
+    assert patch.waiting("round", again=True) == {"d"}
+    assert patch.waiting("readout") == {"d", "a"}
