@@ -123,22 +123,24 @@ class Patch:
         return out
 
     def waiting(self, circuit: str, again: bool = False) -> frozenset[str]:
-        """Qubits that hold state when `circuit` starts: touched by an earlier circuit of
-        the experiment (or by this one, on a later run) and not reset first thing in it.
-        Their wait before their first operation is idle time; a qubit still in its
-        initial |0> does not decay, and one about to be reset has nothing to lose."""
+        """Qubits that hold state when `circuit` starts and will be used again: touched by
+        an earlier circuit of the experiment (or by this one, on a later run), with a next
+        operation (in this circuit or a later one) that is not a reset. Their wait from
+        the circuit's start is idle time; a qubit still in its initial |0> does not decay,
+        and one that is reset next, or never used again, has nothing to lose."""
         names = [n for n, _ in self.experiment()]
-        before = names[:names.index(circuit)] if circuit in names else []
-        if again:
-            before.append(circuit)
+        at = names.index(circuit) if circuit in names else len(names)
+        before = names[:at] + ([circuit] if again else [])
         touched = {q for n in before for op in self.circuits[n].operations
                    if op.kind != "barrier" for q in op.qubits}
-        first: dict = {}
-        for op in self.circuits[circuit].operations:
-            if op.kind != "barrier":
-                for q in op.qubits:
-                    first.setdefault(q, op.kind)
-        return frozenset(q for q in touched if first.get(q) != "reset")
+        upcoming = [circuit] + names[at + 1:]
+        next_kind: dict = {}
+        for n in upcoming:
+            for op in self.circuits[n].operations:
+                if op.kind != "barrier":
+                    for q in op.qubits:
+                        next_kind.setdefault(q, op.kind)
+        return frozenset(q for q in touched if next_kind.get(q, "reset") != "reset")
 
     def interaction_counts(self, circuit_names: Sequence[str] | None = None,
                            weighted: bool = False) -> dict[tuple[int, int], int]:

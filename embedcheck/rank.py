@@ -120,23 +120,51 @@ def scores(device: Device, patch: Patch, grid: np.ndarray,
         terms["single_qubit"] = (np.log1p(-cal.single_qubit_error[grid]) * singles).sum(axis=1)
         terms["reset"] = (np.log1p(-cal.reset_error[grid]) * resets).sum(axis=1)
         idle = np.zeros(count)
-        for name, again, times in patch.runs():
-            t_idle = idle_times(patch, name, grid, cal, again=again)
-            p = idle_error(t_idle, cal.t1_us[grid], cal.t2_us[grid])
-            idle += times * np.log1p(-p).sum(axis=1)
+        t1, t2 = np.ascontiguousarray(cal.t1_us[grid].T), np.ascontiguousarray(cal.t2_us[grid].T)
+        for name, times in patch.experiment():
+            # One schedule per circuit; its runs differ only in which qubits idle from time
+            # 0, so the log factors are built once per qubit and swapped in per run.
+            finish, first, busy, started = circuit_timing(patch, name, grid, cal)
+            base = np.where(started[:, None], np.maximum(finish - first - busy, 0.0), 0.0)
+            log_base = np.log1p(-idle_error(base, t1, t2))           # (qubits, placements)
+            total = log_base.sum(axis=0)
+            for again, count in ((False, 1), (True, times - 1)):
+                if count <= 0:
+                    continue
+                run = total.copy()
+                for q in patch.waiting(name, again):
+                    i = patch.index[q]
+                    from_start = np.maximum(finish - busy[i], 0.0)
+                    run += np.log1p(-idle_error(from_start, t1[i], t2[i])) - log_base[i]
+                idle += count * run
         terms["idle"] = idle
     return terms, unscored
 
 
 def idle_times(patch: Patch, circuit: str, grid: np.ndarray, cal: CalibrationArrays, *,
-               again: bool = False) -> np.ndarray:
+               again: bool = False, timing=None) -> np.ndarray:
     """Idle ns of each patch qubit in one run of `circuit`, for every placement at once.
 
     As-soon-as-possible schedule (same rules as `schedule.schedule_circuit`), looping
     over the circuit's operations with numpy arrays over the placements. Durations
     are gathered once per qubit and per interacting pair; the working arrays are
-    (qubits x placements) so that each qubit's row is contiguous in memory.
+    (qubits x placements) so that each qubit's row is contiguous in memory. The
+    schedule does not depend on the run (only where idling starts does), so a caller
+    scoring several runs of one circuit passes `timing=circuit_timing(...)` once.
     """
+    finish, first, busy, started = timing or circuit_timing(patch, circuit, grid, cal)
+    started = started.copy()
+    first = first.copy()
+    waiting = [patch.index[q] for q in patch.waiting(circuit, again)]
+    started[waiting] = True                                   # these idle from time 0
+    first[waiting] = 0.0
+    idle = np.where(started[:, None], finish - first - busy, 0.0)
+    return np.maximum(idle, 0.0).T
+
+
+def circuit_timing(patch: Patch, circuit: str, grid: np.ndarray, cal: CalibrationArrays):
+    """(finish, first start, busy, started) of the ASAP schedule: arrays over (qubits x
+    placements), `finish` over placements, `started` over qubits."""
     count, n = grid.shape
     ops = patch.circuits[circuit].operations
     idx = patch.index
@@ -153,7 +181,6 @@ def idle_times(patch: Patch, circuit: str, grid: np.ndarray, cal: CalibrationArr
     busy = np.zeros((n, count))
     first = np.zeros((n, count))
     started = np.zeros(n, dtype=bool)
-    started[[idx[q] for q in patch.waiting(circuit, again)]] = True    # idle from time 0
     for op in ops:
         cols = [idx[q] for q in op.qubits]
         if op.kind == "barrier":
@@ -174,8 +201,7 @@ def idle_times(patch: Patch, circuit: str, grid: np.ndarray, cal: CalibrationArr
             np.add(start, length, out=free[c])
             busy[c] += length
     finish = free.max(axis=0) if n else free
-    idle = np.where(started[:, None], finish - first - busy, 0.0)
-    return np.maximum(idle, 0.0).T
+    return finish, first, busy, started
 
 
 def rank_placements(device: Device, patch: Patch, placements: Sequence[Placement]) -> Ranking:

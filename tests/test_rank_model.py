@@ -286,4 +286,14 @@ def test_who_holds_state_when_a_circuit_starts():
     assert patch.waiting("prep") == frozenset()
     assert patch.waiting("round") == {"d"}                  # a is reset first: nothing to lose
     assert patch.waiting("round", again=True) == {"d"}
-    assert patch.waiting("readout") == {"d", "a"}
+    assert patch.waiting("readout") == {"d"}                 # a is never used again
+
+
+def test_a_qubit_never_used_again_does_not_wait():
+    # f is measured in prep and never touched again: its decay cannot matter later.
+    prep = (Operation("h", ("d",), "1q"), Operation("cx", ("d", "f"), "2q"),
+            Operation("measure", ("f",), "measure"))
+    readout = (Operation("measure", ("d",), "measure"),)
+    patch = Patch("toy", ("d", "f"), {"d": "data", "f": "flag"},
+                  {"prep": Circuit("prep", prep), "readout": Circuit("readout", readout)})
+    assert patch.waiting("readout") == {"d"}
