@@ -14,6 +14,10 @@ best kept (fewest two-qubit gates, then two-qubit depth):
   Slater, Cockayne & Hedetniemi, SIAM J. Comput. 10, 692 (1981)); helper qubits are
   then returned to |0> by a CNOT from a neighbour that still holds the value; a
   Pauli correction found from the stabilizer signs fixes the rest.
+- **css**: when the state has a generating set of pure X and pure Z stabilizers (code
+  states such as |0>_L and |+>_L of CSS codes, cat states, Bell pairs): Steiner-tree
+  elimination of its X-type generators over the placement's coupling graph (see
+  `_css_circuit`), Hadamards on the pivots, the CNOTs reversed, a Pauli correction.
 - **routed**: any stabilizer state: qiskit's Clifford synthesis of the state's
   tableau, routed onto the placement's coupling graph by qiskit's SABRE router (Li,
   Ding & Xie, ASPLOS 2019) with its final permutation undone by approximate token
@@ -87,8 +91,21 @@ def repair_preparation(device: Device, patch: Patch, placement: Placement, *,
             results.append(("cat", ops))
     except _NotCat:
         pass
+    try:
+        results.append(("css", _css_circuit(patch, state, support, edges, known_zero)))
+    except _NotCSS:
+        pass
     if not results or len(support) <= 20:      # the general method is the fallback beyond 20
-        results.append(("routed", _routed_circuit(patch, state, edges, seed)))
+        routed = _routed_circuit(patch, state, edges, seed)
+        if routed is not None:
+            results.append(("routed", routed))
+    coupled = {frozenset(e) for e in edges}
+    results = [(m, ops) for m, ops in results          # every method must stay on couplers
+               if all(frozenset(qs) in coupled for _, qs in ops if len(qs) == 2)]
+    if not results:
+        raise InputError(f"no rewrite of '{circuit}' fits this placement: the couplers among "
+                         "the patch's qubits here do not connect the qubits the state "
+                         "entangles (try another placement)")
     scored = []
     for method, ops in results:
         used = {q for _, qs in ops if len(qs) == 2 for q in qs}
@@ -388,10 +405,161 @@ def _solve_gf2(a, b):
     return x
 
 
+# --- method: CSS states by Steiner-tree elimination ----------------------------------------
+
+class _NotCSS(Exception):
+    """The state has no generating set of pure X and pure Z stabilizers, or the coupling
+    graph cannot carry the elimination."""
+
+
+def _css_circuit(patch, state, support, edges, known_zero):
+    """A preparation of a CSS state (up to single-qubit Paulis) on the coupled pairs.
+
+    Its X-type stabilizers are the row space of a k x n matrix G. We disentangle: a
+    CNOT c -> t adds column c of G to column t, and we make every column but k zero,
+    one generator at a time, with CNOTs along a Steiner tree of the qubits that carry
+    it (fill the tree's inner qubits, then clear all but the tree's root, leaves
+    first: Steiner-Gauss elimination, Kissinger & Meijer-van de Griend, arXiv:1904.00633;
+    Nash, Gheorghiu & Mosca, Quantum 4, 290 (2020)). The root (the pivot) then leaves
+    the graph, so it must not be a cut vertex of what is left. The state is then |+> on
+    the k pivots and |0> elsewhere; the preparation is Hadamards on the pivots, the
+    CNOTs in reverse order, and a Pauli correction for the signs.
+    """
+    import networkx as nx
+
+    n = patch.num_qubits
+    tab = state.clifford
+    x, z = tab.stab_x.astype(np.uint8), tab.stab_z.astype(np.uint8)
+    reduced, pivots = _row_reduce(np.hstack([z, x]))
+    z_rank = sum(1 for c in pivots if c < n)
+    g = reduced[z_rank:, n:]                         # X-type generators: zero Z part
+    k = g.shape[0]
+    if k + (n - _rank(x)) != n:                      # X-type and Z-type parts must fill n
+        raise _NotCSS
+    index = patch.index
+    allowed = {index[q] for q in support} | {index[q] for q in known_zero}
+    graph = nx.Graph()
+    graph.add_nodes_from(allowed)
+    graph.add_edges_from((index[a], index[b]) for a, b in edges
+                         if index[a] in allowed and index[b] in allowed)
+    m = g.T.copy()                                   # rows: qubits; columns: generators
+    cnots: list[tuple[int, int]] = []
+
+    def add(control, target):                        # CNOT control -> target, on M's rows
+        m[target] ^= m[control]
+        cnots.append((control, target))
+
+    left = set(range(k))
+    roots = []
+    while left:
+        cut = set(nx.articulation_points(graph)) if len(left) > 1 else set()   # last: any root
+        best = None
+        for j in sorted(left):
+            terminals = [int(r) for r in np.flatnonzero(m[:, j]) if r in graph]
+            tree = _steiner_with_root(graph, terminals, cut)
+            if tree is not None and (best is None or len(tree[1]) < len(best[2])):
+                best = (j, tree[0], tree[1])
+        if best is None:
+            raise _NotCSS
+        j, root, parent = best
+        order = _post_order(parent, root)
+        for v in order:                              # fill: every tree qubit carries j
+            if v != root and m[v, j] and not m[parent[v], j]:
+                add(v, parent[v])
+        for v in order:                              # clear all but the root, leaves first
+            if v != root:
+                add(parent[v], v)
+        graph.remove_node(root)
+        roots.append(root)
+        left.discard(j)
+    if any(m[r].any() for r in range(n) if r not in roots):
+        raise _NotCSS                                # cannot happen for a CSS state
+    ops = [("h", (patch.qubits[r],)) for r in roots]
+    ops += [("cx", (patch.qubits[c], patch.qubits[t])) for c, t in reversed(cnots)]
+    correction = _pauli_correction(patch, state, ops)
+    if correction is None:
+        raise _NotCSS
+    return ops + correction
+
+
+def _steiner_with_root(graph, terminals, cut):
+    """(root, parent map) of a small tree in `graph` holding every terminal, rooted at a
+    qubit that is not a cut vertex (so it can leave the graph); shortest-path heuristic
+    (Takahashi & Matsuyama, Math. Japonica 24, 573 (1980)). None if the terminals are
+    not connected."""
+    if not terminals:
+        return None
+    component = _component(graph, terminals[0])
+    if any(t not in component for t in terminals):
+        return None
+    free = [v for v in component if v not in cut]
+    inside = [t for t in terminals if t not in cut]
+    if inside:
+        root = min(inside)
+    else:                                            # the non-cut qubit nearest the terminals
+        dist = _bfs(graph, terminals)
+        root = min(free, key=lambda v: (dist[v], v))
+    parent = {root: None}
+    want = set(terminals) - {root}
+    while want:
+        dist, back = _bfs(graph, list(parent), with_parent=True)
+        t = min(want, key=lambda v: (dist[v], v))
+        path = [t]
+        while path[-1] not in parent:
+            path.append(back[path[-1]])
+        for i in range(len(path) - 1, 0, -1):        # from the tree outwards
+            parent[path[i - 1]] = path[i]
+        want -= set(path)
+    return root, parent
+
+
+def _component(graph, start):
+    seen, queue = {start}, deque([start])
+    while queue:
+        v = queue.popleft()
+        for w in graph[v]:
+            if w not in seen:
+                seen.add(w)
+                queue.append(w)
+    return seen
+
+
+def _bfs(graph, sources, with_parent=False):
+    dist = {s: 0 for s in sources}
+    back = {}
+    queue = deque(sources)
+    while queue:
+        v = queue.popleft()
+        for w in sorted(graph[v]):
+            if w not in dist:
+                dist[w] = dist[v] + 1
+                back[w] = v
+                queue.append(w)
+    return (dist, back) if with_parent else dist
+
+
+def _post_order(parent, root):
+    """Tree nodes with every node after all of its descendants (leaves first)."""
+    children: dict = {}
+    for v, up in parent.items():
+        if up is not None:
+            children.setdefault(up, []).append(v)
+    out, stack = [], [(root, False)]
+    while stack:
+        v, done = stack.pop()
+        if done:
+            out.append(v)
+            continue
+        stack.append((v, True))
+        stack.extend((c, False) for c in sorted(children.get(v, ()), reverse=True))
+    return out
+
+
 # --- method: synthesis and routing ----------------------------------------------------------
 
 def _routed_circuit(patch, state, edges, seed):
-    """qiskit's Clifford synthesis, routed onto the coupled pairs, final permutation undone."""
+    """qiskit's Clifford synthesis, routed onto the coupled pairs, final permutation undone
+    (None when qiskit cannot route it there)."""
     import rustworkx as rx
     from qiskit import transpile
     from qiskit.transpiler import CouplingMap
@@ -408,10 +576,14 @@ def _routed_circuit(patch, state, edges, seed):
         if q not in cmap.physical_qubits:
             cmap.add_physical_qubit(q)
     circ = state.clifford.to_circuit()
-    out = transpile(circ, coupling_map=cmap, basis_gates=["cx", "h", "s", "sdg", "x", "y", "z",
-                                                          "sx", "sxdg"],
-                    initial_layout=list(range(n)), optimization_level=1, seed_transpiler=seed,
-                    layout_method="trivial")
+    from qiskit.transpiler.exceptions import TranspilerError
+    try:
+        out = transpile(circ, coupling_map=cmap, basis_gates=["cx", "h", "s", "sdg", "x", "y",
+                                                              "z", "sx", "sxdg"],
+                        initial_layout=list(range(n)), optimization_level=1,
+                        seed_transpiler=seed, layout_method="trivial")
+    except TranspilerError:
+        return None                     # e.g. the couplers here fall apart into pieces
     final = out.layout.final_index_layout() if out.layout is not None else list(range(n))
     ops = []
     for ins in out.data:
