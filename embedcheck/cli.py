@@ -776,7 +776,7 @@ def _run_code(args) -> int:
     from pathlib import Path
 
     from .codes import family_yaml
-    from .simulate import check_detectors, fault_distance
+    from .simulate import check_detectors, fault_distance, fault_distance_at_most
     try:
         text = family_yaml(args.family, distance=args.distance, rounds=args.rounds,
                            basis=args.basis, prep=args.prep)
@@ -790,21 +790,30 @@ def _run_code(args) -> int:
         print(f"embedcheck: internal error: {problems[0]}", file=sys.stderr)
         return 3
     distance = fault_distance(patch)
+    bound = None
+    if distance is None and patch.observable:         # too big for the exhaustive search
+        bound = fault_distance_at_most(patch)
     if args.output:
         if Path(args.output).exists():
             raise InputError("will not overwrite an existing file", file=args.output)
         write_atomic(args.output, text)
-        shown = "infinite" if distance == float("inf") else distance
+        if bound is not None:
+            shown = (f"at most {bound} (graphlike faults only: the exhaustive search is "
+                     f"skipped above 150 detectors)")
+        else:
+            shown = "infinite" if distance == float("inf") else distance
         print(f"wrote {args.output}: patch '{patch.name}', {patch.num_qubits} qubits, "
               f"{len(patch.detectors)} detectors (all deterministic without noise), "
               f"circuit-level fault distance {shown}", file=sys.stderr)
-        if args.family != "flagged" and isinstance(distance, int) and distance < args.distance:
-            print(f"embedcheck: warning: fault distance {distance} is below the code distance "
-                  f"{args.distance}", file=sys.stderr)
+        low = distance if isinstance(distance, int) else bound
+        if args.family != "flagged" and isinstance(low, int) and low < args.distance:
+            print(f"embedcheck: warning: fault distance {'' if low == distance else 'at most '}"
+                  f"{low} is below the code distance {args.distance}", file=sys.stderr)
     if args.format == "json":
         _emit(args, {"tool": "embedcheck", "version": __version__, "command": "code",
                      "name": patch.name, "file": args.output, "text": text,
-                     "fault_distance": "infinite" if distance == float("inf") else distance}, "")
+                     "fault_distance": "infinite" if distance == float("inf") else distance,
+                     "fault_distance_at_most": bound}, "")
     elif not args.output:
         sys.stdout.write(text)
     return 0

@@ -9,7 +9,7 @@ from embedcheck import Device, audit_placement, find_placements, heavy_hex
 from embedcheck.cli import main
 from embedcheck.codes import build_patch, family_yaml
 from embedcheck.io.patchfile import patch_from_stim
-from embedcheck.simulate import check_detectors, fault_distance
+from embedcheck.simulate import check_detectors, fault_distance, fault_distance_at_most
 
 
 def _round_graph(patch):
@@ -72,6 +72,19 @@ def test_fault_distance_equals_the_distance_as_for_stims_circuits(family, task, 
     theirs = fault_distance(patch_from_stim(stim.Circuit.generated(task, distance=distance,
                                                                    rounds=3)))
     assert ours == theirs == distance
+
+
+def test_big_circuits_get_a_graphlike_bound_like_stims_own(tmp_path, capsys):
+    # Above 150 detectors the exhaustive search is skipped; the bound from graphlike faults
+    # must agree with the same bound on stim's generated circuit of that size.
+    ours = build_patch("surface", distance=7, rounds=7)
+    assert len(ours.detectors) > 150 and fault_distance(ours) is None
+    theirs = patch_from_stim(stim.Circuit.generated("surface_code:rotated_memory_z",
+                                                    distance=7, rounds=7))
+    assert fault_distance_at_most(ours) == fault_distance_at_most(theirs) == 7
+    out = tmp_path / "s7.yaml"
+    assert main(["code", "surface", "--distance", "7", "--rounds", "7", "-o", str(out)]) == 0
+    assert "fault distance at most 7 (graphlike" in capsys.readouterr().err
 
 
 def test_the_flagged_family_fits_heavy_hex_with_no_added_gates():
