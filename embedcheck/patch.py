@@ -186,7 +186,9 @@ def infer_roles(circuits: Mapping[str, Circuit], rounds: int = 1) -> dict[str, s
     """Roles from what the circuits do to each qubit (used when a patch gives none).
 
     A qubit that is measured and then acted on again later in the experiment (reset,
-    reused, or measured in a round that repeats) is a measured helper; the rest are
+    reused, or measured in a round that repeats) is a measured helper, and so is one
+    measured inside the check round (data are read out at the end, not in the round;
+    common practice) unless the round measures every qubit it touches; the rest are
     data. A helper that shares gates with data and with other helpers is a `flag`;
     any other helper is an `ancilla`. Qubits touched only by barriers are left out.
 
@@ -194,6 +196,9 @@ def infer_roles(circuits: Mapping[str, Circuit], rounds: int = 1) -> dict[str, s
     >>> text = 'OPENQASM 2.0; include "qelib1.inc"; qreg q[3]; creg c[1]; '
     >>> text += 'cx q[0], q[1]; cx q[2], q[1]; measure q[1] -> c[0]; reset q[1];'
     >>> infer_roles({"round": Circuit("round", tuple(read_qasm(text)))})
+    {'q0': 'data', 'q1': 'ancilla', 'q2': 'data'}
+    >>> once = text.replace(" reset q[1];", "")          # measured once, never reset
+    >>> infer_roles({"round": Circuit("round", tuple(read_qasm(once)))})
     {'q0': 'data', 'q1': 'ancilla', 'q2': 'data'}
     """
     sequence = []
@@ -211,6 +216,11 @@ def infer_roles(circuits: Mapping[str, Circuit], rounds: int = 1) -> dict[str, s
                 helper.add(q)
         if op.kind == "measure":
             measured.add(op.qubits[0])
+    if "round" in circuits:                  # one round, ancillas measured only at its end
+        ops = [op for op in circuits["round"].operations if op.kind != "barrier"]
+        in_round = {op.qubits[0] for op in ops if op.kind == "measure"}
+        if in_round != {q for op in ops for q in op.qubits}:
+            helper |= in_round
     partners: dict[str, set] = {q: set() for q in order}
     for op in sequence:
         if op.kind == "2q":

@@ -206,3 +206,18 @@ def test_show_patch_reports_inferred_roles(tmp_path, capsys):
     assert main(["show", str(tmp_path / "round.stim")]) == 0
     out = capsys.readouterr().out
     assert "inferred" in out and "flag     q4, q5" in out
+
+
+def test_a_single_round_file_calls_its_measured_qubits_helpers(tmp_path):
+    # One round, ancilla measured once at the end and never reset: still the ancilla,
+    # since data are read out after the rounds, not in them.
+    from embedcheck import load_patch
+    path = tmp_path / "one.qasm"
+    path.write_text('OPENQASM 2.0;\ninclude "qelib1.inc";\nqreg d[2];\nqreg a[1];\ncreg c[1];\n'
+                    'cx d[0], a[0];\ncx d[1], a[0];\nmeasure a[0] -> c[0];\n')
+    patch = load_patch(path)
+    assert patch.roles == {"d0": "data", "d1": "data", "a0": "ancilla"} and patch.roles_inferred
+    everything = tmp_path / "all.qasm"                 # a file measuring every qubit it uses
+    everything.write_text('OPENQASM 2.0;\ninclude "qelib1.inc";\nqreg q[2];\ncreg c[2];\n'
+                          'cx q[0], q[1];\nmeasure q[0] -> c[0];\nmeasure q[1] -> c[1];\n')
+    assert set(load_patch(everything).roles.values()) == {"data"}

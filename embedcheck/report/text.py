@@ -258,8 +258,8 @@ def render_chip(d: dict) -> str:
 def render_patch(d: dict) -> str:
     out = [f"Patch '{d['name']}' ({d['file']}): {d['qubits']} qubits, {d['rounds']} round(s)"]
     if d.get("roles_inferred"):
-        out.append("  roles inferred from the circuits (measured and then reused: helper; "
-                   "helper beside data and helpers: flag)")
+        out.append("  roles inferred from the circuits (measured in the round, or measured "
+                   "and then reused: helper; helper beside data and helpers: flag)")
     for role, names in d["roles"].items():
         if names:
             out.append(f"  {role:<8} {', '.join(names)}")
