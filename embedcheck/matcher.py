@@ -75,7 +75,7 @@ class Host:
 
     def adjacent(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
         """Elementwise: is there an edge a-b?"""
-        key = a * self.n + b
+        key = a.astype(np.int64) * self.n + b
         at = np.searchsorted(self.keys, key)
         at = np.minimum(at, len(self.keys) - 1)
         return self.keys[at] == key if len(self.keys) else np.zeros(len(key), bool)
@@ -265,8 +265,8 @@ def monomorphisms(host: Host, k: int, edges: Sequence[tuple[int, int]], *,
     with `symmetries` (the pattern's automorphism group, as permutations), exactly one per
     orbit. `candidates[j]` is an optional boolean mask over host nodes for pattern node j.
     Empty arrays are yielded now and then so a caller can check its budgets. `chunk`
-    bounds the entries of one block of partial maps (memory stays near
-    k * max degree * chunk entries however many maps there are). `part=(i, m)` searches
+    bounds the entries of one block of partial maps (see `grow` for the memory bound).
+    `part=(i, m)` searches
     only every m-th anchor from the i-th: the m parts together find every map once, so
     they can run in separate processes (see `prepare` and `grow`).
     """
@@ -327,43 +327,60 @@ def prepare(host: Host, k: int, edges: Sequence[tuple[int, int]], *,
     return Prepared(host, k, p, tuple(masks[v] for v in p.order), start)
 
 
-def grow(prep: Prepared, *, part: tuple[int, int] = (0, 1),
-         chunk: int = 1 << 20) -> Iterator[np.ndarray]:
+def node_dtype(n: int):
+    """The smallest integer type that holds host node ids 0..n-1 (less memory traffic:
+    every step copies each partial map)."""
+    return np.int16 if n <= np.iinfo(np.int16).max else np.int32
+
+
+def grow(prep: Prepared, *, part: tuple[int, int] = (0, 1), chunk: int = 1 << 20,
+         held: int = 1 << 24) -> Iterator[np.ndarray]:
     """The search itself (see `monomorphisms`): depth first over blocks of partial maps.
 
-    A block at step s has s columns: the images of the first s nodes of the plan's order."""
+    A block at step s has s columns: the images of the first s nodes of the plan's order.
+    A block is split so that its extension holds at most `chunk` entries, and the pieces
+    waiting on the stack hold at most about `held` entries in all (when they would hold
+    more, the next splits make smaller pieces), so memory stays bounded (16 MiB of
+    2-byte entries by default, plus one block) however deep or wide the search grows."""
     host, k, p, masks = prep.host, prep.k, prep.plan, prep.masks
     if k == 0:
         yield np.zeros((1, 0), dtype=np.int64)
         return
+    dtype = node_dtype(host.n)
     hdeg = host.degree
-    free_nodes = [np.flatnonzero(masks[s]) if p.parent[s] < 0 else None for s in range(k)]
-    start = prep.start[part[0]::part[1]]
+    neighbours = host.indices.astype(dtype)
+    free_nodes = [np.flatnonzero(masks[s]).astype(dtype) if p.parent[s] < 0 else None
+                  for s in range(k)]
+    start = prep.start[part[0]::part[1]].astype(dtype)
     stack = [(1, start.reshape(-1, 1))] if len(start) else []
+    waiting = start.size
     inverse = np.argsort(np.array(p.order))
     pops = 0
     while stack:
         s, rows = stack.pop()
+        waiting -= rows.size
         pops += 1
         if pops % 64 == 0:
             yield np.zeros((0, k), dtype=np.int64)
         if s == k:
-            yield rows[:, inverse]
+            yield rows[:, inverse].astype(np.int64)
             continue
         if p.parent[s] >= 0:
             fan = hdeg[rows[:, p.parent[s]]]
         else:
             fan = np.full(len(rows), len(free_nodes[s]), dtype=np.int64)
         total = int(fan.sum())
-        most = max(1, chunk // (s + 1))               # rows of s + 1 columns per block
+        room = max(chunk // 16, min(chunk, held - waiting))
+        most = max(1, room // (s + 1))                # extended rows per piece
         if total > most and len(rows) > 1:            # split: bounded memory, depth first
             cut = np.searchsorted(np.cumsum(fan), np.arange(1, total // most + 2) * most)
             pieces = np.split(rows, np.unique(np.clip(cut, 1, len(rows) - 1)))
             stack.extend((s, piece) for piece in reversed(pieces) if len(piece))
+            waiting += rows.size
             continue
         if p.parent[s] >= 0:
             which = np.repeat(np.arange(len(rows)), fan)
-            cand = host.indices[_ragged(host.indptr[rows[:, p.parent[s]]], fan)]
+            cand = neighbours[_ragged(host.indptr[rows[:, p.parent[s]]], fan)]
         else:
             which = np.repeat(np.arange(len(rows)), len(free_nodes[s]))
             cand = np.tile(free_nodes[s], len(rows))
@@ -378,7 +395,8 @@ def grow(prep: Prepared, *, part: tuple[int, int] = (0, 1),
         grown = rows[which]
         keep = ~(grown == cand[:, None]).any(axis=1)
         if keep.any():
-            out = np.empty((int(keep.sum()), s + 1), dtype=rows.dtype)
+            out = np.empty((int(keep.sum()), s + 1), dtype=dtype)
             out[:, :s] = grown[keep]
             out[:, s] = cand[keep]
             stack.append((s + 1, out))
+            waiting += out.size

@@ -88,7 +88,8 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
 
     `limit` caps the number of distinct placements, `budget_s` the seconds spent (read
     from `clock`, which tests may replace), `max_maps` the raw maps examined (a step
-    budget); the result says which one stopped the search. `constraints` restrict the
+    budget, counted in whole symmetry orbits, so the count may pass it by less than
+    the symmetry order); the result says which one stopped the search. `constraints` restrict the
     chip qubits each role may use and the couplers pairs may use (see constraints.py).
     `progress(n)` is called now and then with the number of raw maps seen. With
     `processes > 1` the chip's anchors are split among that many worker processes (the
@@ -115,8 +116,10 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
     blocked = {i for i in chip.node_indices() if chip[i] not in usable}
     perms = np.array(autos, dtype=np.int64).reshape(len(autos), len(placed))
     order = len(autos)                       # raw maps each representative stands for
-    cap = None                               # representatives a worker may stop at
-    if limit is not None or max_maps is not None:
+    # A worker may stop at `cap` representatives only when each one is sure to become a
+    # placement (every patch qubit interacts, so none is left to place and fail).
+    cap = None
+    if (limit is not None or max_maps is not None) and len(placed) == patch.num_qubits:
         cap = min(x for x in (limit, None if max_maps is None else -(-max_maps // order))
                   if x is not None)
     cut_short = None
@@ -131,8 +134,9 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
             if max_maps is not None:
                 wanted = (max_maps - raw + order - 1) // order
                 block = block[:wanted]
-            raw += len(block) * order
-            _take(block, perms, seen, found, chip, patch, placed, blocked, allowed, limit)
+            used = _take(block, perms, seen, found, chip, patch, placed, blocked, allowed,
+                         limit)
+            raw += used * order              # each representative stands for its orbit
             if progress is not None:
                 progress(raw)
         if limit is not None and len(found) >= limit:
@@ -198,17 +202,28 @@ def _maps(device, chip, pattern, placed, patch, allowed, blocked, arcs, autos, *
         for block in _filtered(job, (0, 1)):
             yield block, None
         return
+    import multiprocessing
     from concurrent.futures import ProcessPoolExecutor, as_completed
     deadline = None if seconds is None else time.monotonic() + seconds
-    with ProcessPoolExecutor(processes) as pool:
+    halt = multiprocessing.get_context().Event()     # set when the caller has enough
+    with ProcessPoolExecutor(processes, initializer=_start_worker, initargs=(halt,)) as pool:
         futures = [pool.submit(_run_part, job, (i, processes), cap, deadline)
                    for i in range(processes)]
         try:
             for future in as_completed(futures):
                 yield future.result()
         finally:
+            halt.set()                       # running workers stop at their next block
             for future in futures:
                 future.cancel()
+
+
+_HALT = None
+
+
+def _start_worker(halt) -> None:
+    global _HALT
+    _HALT = halt
 
 
 def _filtered(job, part):
@@ -236,14 +251,18 @@ def _run_part(job, part, cap, deadline):
         if deadline is not None and time.monotonic() > deadline:
             why = "budget"
             break
+        if _HALT is not None and _HALT.is_set():
+            why = "budget"                   # the caller stopped (its result says why)
+            break
     k = job[0].k
     return (np.concatenate(blocks) if blocks else np.zeros((0, k), dtype=np.int64)), why
 
 
-def _take(batch, perms, seen, found, chip, patch, placed, blocked, allowed, limit) -> None:
+def _take(batch, perms, seen, found, chip, patch, placed, blocked, allowed, limit) -> int:
     """Canonicalise a batch of raw maps (numpy, no per-map Python loop over the symmetry
     group) and keep the new ones: the canonical form of a map is the lexicographically
-    smallest of its images under the patch's symmetries."""
+    smallest of its images under the patch's symmetries. Returns how many rows of the
+    batch were looked at (all, unless the limit was reached first)."""
     images = np.asarray(batch, dtype=np.int64).reshape(len(batch), len(placed))
     best = images[:, perms[0]]
     for perm in perms[1:]:
@@ -267,7 +286,8 @@ def _take(batch, perms, seen, found, chip, patch, placed, blocked, allowed, limi
         if placement is not None:
             found.append(placement)
         if limit is not None and len(found) >= limit:
-            return
+            return i + 1
+    return len(best)
 
 
 def _parts(device, patch, names, rules, clock, budget_s, pattern, placed) -> list[str]:

@@ -156,3 +156,40 @@ def test_worker_processes_find_the_same_placements():
     one = find_placements(directed, line, limit=None, constraints=rules)
     two = find_placements(directed, line, limit=None, constraints=rules, processes=2)
     assert set(one.placements) == set(two.placements) and one.raw_maps == two.raw_maps > 0
+
+
+def test_raw_counts_stand_for_what_was_looked_at():
+    # A 6-qubit line (symmetry order 2) on a heavy-hex chip: with limit=1 one orbit was
+    # taken, so 2 raw maps; a step budget is met in whole orbits.
+    from embedcheck import Device
+    from embedcheck.search import find_placements
+    from helpers import patch_from_edges
+    device = Device.from_lattice(heavy_hex(4, 4), name="hh")
+    line = patch_from_edges([(i, i + 1) for i in range(5)])
+    one = find_placements(device, line, limit=1)
+    assert len(one.placements) == 1 and one.raw_maps == 2 and one.stop_reason == "limit"
+    stepped = find_placements(device, line, limit=None, max_maps=25)
+    assert stepped.stop_reason == "budget" and stepped.raw_maps == 26
+
+
+def test_worker_caps_never_fake_a_limit():
+    # A spider (centre 0, legs 0-i-(i+6)): every 3-qubit line uses the centre, the only
+    # qubit the lone ancilla may use, so nothing fits; worker processes must still say
+    # 'complete', not stop at a count of maps that never became placements.
+    import networkx as nx
+    from embedcheck import Device
+    from embedcheck.constraints import build
+    from embedcheck.device import QubitCalibration
+    from embedcheck.patch import Circuit, Operation, Patch
+    from embedcheck.search import find_placements
+    g = nx.Graph([(0, i) for i in range(1, 7)] + [(i, i + 6) for i in range(1, 7)])
+    cal = {q: QubitCalibration(readout_error=0.01 if q == 0 else 0.1) for q in g}
+    device = Device.from_graph(g, name="spider", qubit_calibration=cal)
+    ops = (Operation("cx", ("a", "b"), "2q"), Operation("cx", ("b", "c"), "2q"))
+    patch = Patch("p", ("a", "b", "c", "m"), {"a": "data", "b": "data", "c": "data",
+                                              "m": "ancilla"}, {"round": Circuit("round", ops)})
+    rules = build(["ancilla: readout_error <= 0.05"])
+    for processes in (1, 2):
+        result = find_placements(device, patch, limit=1, constraints=rules,
+                                 processes=processes)
+        assert result.stop_reason == "complete" and not result.placements, processes
