@@ -122,7 +122,9 @@ def check_pair(device: Device, patch: Patch, rules: Rules, *, limit: int = 10_00
         if audit is None:
             ops = len(patch.circuits[name].two_qubit_gates)
             ok = ops == 0
-            why = "; ".join(vetting.search.reasons) or "no placement found"
+            why = "; ".join(vetting.search.reasons) or (
+                "no placement found" if vetting.complete else
+                "the time budget ran out before any placement was found")
             outcomes.append(RuleOutcome("max_off_coupler_gates", name, ok,
                                         "no two-qubit gates" if ok else f"no placement: {why}"))
             continue
@@ -133,8 +135,8 @@ def check_pair(device: Device, patch: Patch, rules: Rules, *, limit: int = 10_00
             msg += _repair_hint(device, patch, name, audit.placement)
         outcomes.append(RuleOutcome("max_off_coupler_gates", name, n <= limit_n, msg,
                                     c.off_coupler))
-    complete = "" if vetting.search.complete else \
-        f" (search incomplete: {vetting.search.stop_reason})"
+    complete = "" if vetting.complete else \
+        f" (search incomplete: {vetting.search.stop_reason if not vetting.search.complete else 'budget'})"
     outcomes.append(RuleOutcome(
         "min_placements", None, allowed >= rules.min_placements,
         f"{allowed} distinct placement(s) keep every allowance, at least "

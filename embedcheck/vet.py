@@ -41,7 +41,7 @@ class CircuitFit:
 
     circuit: str
     two_qubit_gates: int
-    fits_alone: bool
+    fits_alone: bool | None          # None: the time budget ran out before an answer
     reasons: tuple[str, ...]
 
 
@@ -61,10 +61,16 @@ class Vetting:
     unconstrained: tuple[str, ...] = ()   # patch qubits with no two-qubit gate in the core
     constraints: Constraints | None = None
     near_misses: tuple[NearMiss, ...] = ()
+    inconclusive: tuple[str, ...] = ()    # circuits whose checks ran out of time budget
 
     @property
     def all_swap_free(self) -> bool:
         return not self.excluded and bool(self.ranking.placements)
+
+    @property
+    def complete(self) -> bool:
+        """True when every stage finished: the verdicts are answers, not budget cut-offs."""
+        return self.search.complete and not self.inconclusive
 
 
 def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
@@ -80,12 +86,24 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
     if patch.num_qubits > device.num_qubits:
         raise InputError(f"the patch has {patch.num_qubits} qubits but chip '{device.name}' has "
                          f"only {device.num_qubits}", file=patch.source)
-    fits = []
+    import time
+    deadline = None if budget_s is None else time.monotonic() + budget_s
+
+    def left():                              # one budget for every stage, not one each
+        return None if deadline is None else max(0.0, deadline - time.monotonic())
+
+    fits, inconclusive = [], []
     for name, circuit in patch.circuits.items():
-        alone = find_placements(device, patch, circuits=[name], limit=1, budget_s=budget_s,
+        if not circuit.two_qubit_gates:       # nothing to place: swap-free anywhere
+            fits.append(CircuitFit(name, 0, True, ()))
+            continue
+        alone = find_placements(device, patch, circuits=[name], limit=1, budget_s=left(),
                                 constraints=rules)
-        fits.append(CircuitFit(name, len(circuit.two_qubit_gates), bool(alone.placements),
-                               alone.reasons))
+        known = bool(alone.placements) or alone.complete
+        fits.append(CircuitFit(name, len(circuit.two_qubit_gates),
+                               bool(alone.placements) if known else None, alone.reasons))
+        if not known:
+            inconclusive.append(name)
     # The core: circuits with two-qubit gates that fit together, check round first.
     # Circuits without two-qubit gates are swap-free anywhere and join any core.
     order = sorted(patch.circuits, key=lambda n: (_CORE_ORDER.index(n)
@@ -94,14 +112,24 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
     fitting = {f.circuit for f in fits if f.fits_alone}
     core: list[str] = []
     for name in gated:
-        if name in fitting and (not core or find_placements(
-                device, patch, circuits=core + [name], limit=1, budget_s=budget_s,
-                constraints=rules).placements):
+        if name not in fitting:
+            continue
+        if not core:
             core.append(name)
+            continue
+        joint = find_placements(device, patch, circuits=core + [name], limit=1,
+                                budget_s=left(), constraints=rules)
+        if joint.placements:
+            core.append(name)
+        elif not joint.complete:
+            inconclusive.append(name)
     if core or not gated:
         core += [n for n in order if n not in gated]
-        search = find_placements(device, patch, circuits=core, limit=limit, budget_s=budget_s,
+        search = find_placements(device, patch, circuits=core, limit=limit, budget_s=left(),
                                  progress=progress, constraints=rules, processes=processes)
+        misses = ()
+    elif inconclusive:
+        search = SearchResult(tuple(gated), (), 0, 1, "budget", (), 0.0)
         misses = ()
     else:
         reasons = tuple(dict.fromkeys(r for f in fits for r in f.reasons)) or (
@@ -117,7 +145,7 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
     used = {q for pair in patch.interaction_counts(core or list(patch.circuits)) for q in pair}
     unconstrained = tuple(q for i, q in enumerate(patch.qubits) if i not in used)
     return Vetting(device, patch, tuple(fits), tuple(core), excluded, search, ranking, off, best,
-                   unconstrained, rules, misses)
+                   unconstrained, rules, misses, tuple(inconclusive))
 
 
 def _best_of_orbits(device: Device, patch: Patch, search: SearchResult):

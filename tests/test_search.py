@@ -113,3 +113,25 @@ def test_qubits_without_gates_are_placed_nearby_on_free_qubits():
     result = find_placements(device, patch, limit=None)
     for p in result.placements:
         assert len(set(p.physical)) == 3 and 1 not in p.physical
+
+
+def test_a_tiny_budget_never_reads_as_no_placement(capsys):
+    # With too little time the verdict is 'unknown' and the report says INCOMPLETE, never
+    # that nothing fits; a circuit without two-qubit gates fits without a search.
+    import json
+    from embedcheck import load_device, load_patch, vet_patch
+    from embedcheck.cli import main
+    from helpers import DEMO_CHIP, FIXED_PATCH
+    device, patch = load_device(DEMO_CHIP), load_patch(FIXED_PATCH)
+    v = vet_patch(device, patch, budget_s=0.0)
+    assert not v.complete
+    fits = {f.circuit: f.fits_alone for f in v.fits}
+    assert fits["readout"] is True and fits["round"] is None
+    assert main(["find", str(DEMO_CHIP), str(FIXED_PATCH), "--budget-s", "0.000001"]) == 0
+    out = capsys.readouterr().out
+    assert "INCOMPLETE" in out and "No placement makes" not in out and "unknown" in out
+    main(["find", str(DEMO_CHIP), str(FIXED_PATCH), "--budget-s", "0.000001", "--format", "json"])
+    data = json.loads(capsys.readouterr().out)
+    assert data["complete"] is False and data["search"]["complete"] is False
+    full = vet_patch(device, patch)
+    assert full.complete and all(f.fits_alone for f in full.fits)

@@ -90,6 +90,8 @@ def find_dict(v: Vetting, top: int | None = 10) -> dict:
         "chip": chip_summary(v.device), "patch": patch_summary(v.patch),
         "circuits": circuits,
         "all_swap_free": v.all_swap_free,
+        "complete": v.complete,
+        "inconclusive_circuits": list(v.inconclusive),
         "search": {"circuits": list(s.circuits), "distinct_placements": len(s.placements),
                    "raw_maps": s.raw_maps, "symmetry_order": s.symmetry_order,
                    "complete": s.complete, "stop_reason": s.stop_reason,

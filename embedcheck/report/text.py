@@ -58,13 +58,24 @@ def render_find(d: dict) -> str:
         else:
             verdict = f"NEEDS ROUTING ({c['off_coupler_min']}-{c['off_coupler_max']} off-coupler)"
         out.append(f"  {c['circuit']:<12} {c['times_run']:>4} {c['two_qubit_gates']:>8} "
-                   f"{c['measurements']:>8}  {'yes' if c['fits_alone'] else 'no':<10}  {verdict}")
+                   f"{c['measurements']:>8}  {_fits(c['fits_alone']):<10}  {verdict}")
         for reason in c["reasons"]:
             out.append(f"      why not: {reason}")
     s = d["search"]
     out.append("")
     if d.get("constraints"):
         out.append("Constraints: " + "; ".join(d["constraints"]))
+    if d.get("inconclusive_circuits"):
+        out.append(f"INCOMPLETE: the time budget (--budget-s) ran out before "
+                   f"{', '.join(d['inconclusive_circuits'])} could be settled; the verdicts "
+                   "below may change with a larger budget.")
+    if not s["distinct_placements"] and not s["complete"]:
+        lead = "" if d.get("inconclusive_circuits") else \
+            "INCOMPLETE: the time budget (--budget-s) ran out. "
+        out.append(f"{lead}No swap-free placement was found in that time; this does not mean "
+                   "none exists. Raise the budget.")
+        out += ["", d["caution"]]
+        return "\n".join(_fold(line) for line in out)
     if not s["distinct_placements"]:
         out.append("No placement makes any circuit with two-qubit gates swap-free on this chip.")
         for reason in s["reasons"]:
@@ -253,6 +264,10 @@ def render_chip(d: dict) -> str:
             out.append(f"  {name:<26} {s['given']:>6} {_figure(s['median']):>10} "
                        f"{_figure(s['worst']):>10}  {s['worst_at']}")
     return "\n".join(out)
+
+
+def _fits(value) -> str:
+    return "unknown" if value is None else "yes" if value else "no"
 
 
 def render_patch(d: dict) -> str:
