@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import os
 import re
 import sys
 
@@ -47,6 +48,12 @@ def main(argv: list[str] | None = None) -> int:
         return 130
     except BrokenPipeError:
         return 0
+    except Exception as err:                 # a bug of ours: one line, exit 3
+        if os.environ.get("EMBEDCHECK_TRACEBACK"):
+            raise
+        print(f"embedcheck: internal error: {type(err).__name__}: {err} (please report it; "
+              "set EMBEDCHECK_TRACEBACK=1 for the traceback)", file=sys.stderr)
+        return 3
 
 
 def _parser() -> argparse.ArgumentParser:
@@ -374,12 +381,23 @@ def _run_find(args) -> int:
         payload["logical"] = report_data.logical_dict(patch, logical, args.top,
                                                       sampled=bool(args.monte_carlo))
         payload["ranked_by"] = logical.figure
+        if logical.figure == "undetected" and not np.any(logical.undetected):
+            payload["logical_note"] = ("every placement scores 0 on 'undetected' (no one or two "
+                                       "faults flip the observable unseen), so that column does "
+                                       "not rank them; ties are broken by 'kept'")
     elif patch.detectors and patch.observable and vetting.all_swap_free:
         from .simulate import _spanned_by_detectors
         if _spanned_by_detectors(patch):
             payload["logical_note"] = ("the logical observable is a parity of the declared "
                                        "detectors, so no fault flips it unseen and the logical "
                                        "figures are 0 everywhere; ranked by fidelity_product")
+        elif getattr(args, "undetected_is_zero", False):
+            payload["logical_note"] = ("no one or two faults flip the logical observable "
+                                       "unseen (the circuit's fault distance is above 2), so "
+                                       "the 'undetected' figure, taken to second order, is 0 on "
+                                       "every placement and cannot rank them; ranked by "
+                                       "fidelity_product (--monte-carlo SHOTS --decode samples "
+                                       "decoded logical errors)")
     if args.monte_carlo and logical is None:
         payload.setdefault("logical_note", "--monte-carlo needs a patch with detectors and an "
                            "observable on which every circuit is swap-free; nothing sampled")
@@ -428,6 +446,13 @@ def _logical_ranking(args, device, patch, vetting):
             return None
         from .simulate import _spanned_by_detectors
         if _spanned_by_detectors(patch):     # no fault flips it unseen: every score is 0
+            return None
+        from .logical import fast_score
+        # The detector error model has the same fault signatures on every placement (same
+        # circuit, same noise locations; only the rates differ), so when no one or two
+        # faults flip the observable unseen on the best placement, none do anywhere.
+        if fast_score(device, patch, swap_free[0]).undetected == 0:
+            args.undetected_is_zero = True
             return None
         figure = "undetected"
     if not swap_free:

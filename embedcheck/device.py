@@ -18,6 +18,8 @@ from typing import Mapping
 import numpy as np
 import rustworkx as rx
 
+from ._pickle import reduce_frozen
+
 Pair = tuple[int, int]
 
 
@@ -131,6 +133,9 @@ class Device:
     description: str = ""
     calibration_timestamp: str | None = None
     source: str | None = None
+
+    def __reduce__(self):
+        return reduce_frozen(self)    # worker processes get copies
 
     def __post_init__(self) -> None:
         for name in ("positions", "qubit_calibration", "coupler_calibration", "directed"):

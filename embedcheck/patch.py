@@ -23,6 +23,8 @@ from dataclasses import dataclass, field
 from types import MappingProxyType
 from typing import Mapping, Sequence
 
+from ._pickle import reduce_frozen
+
 ROLES = ("data", "flag", "ancilla")
 EXPERIMENT_ORDER = ("prep", "round", "readout")
 
@@ -95,6 +97,9 @@ class Patch:
     roles_inferred: bool = False
     constraints: object = None        # a constraints.Constraints, from the patch file
     index: Mapping[str, int] = field(init=False, repr=False, compare=False)
+
+    def __reduce__(self):
+        return reduce_frozen(self)    # worker processes get copies
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "roles", MappingProxyType(dict(self.roles)))

@@ -168,3 +168,14 @@ def test_find_ranks_by_the_logical_figure(tmp_path, capsys):
     naive = FIXED_PATCH.parent / "flagged_weight4.yaml"
     assert main(["find", str(DEMO_CHIP), str(naive), "--figure", "undetected"]) == 2
     assert "no placement makes every circuit swap-free" in capsys.readouterr().err
+
+
+def test_fast_scores_in_worker_processes_match(tmp_path):
+    # Devices and patches are pickled for the workers (their mappings are read-only views).
+    from embedcheck.logical import fast_scores
+    patch = _syndrome_detector_patch(tmp_path)
+    device = _random_calibration(load_device(DEMO_CHIP), seed=3)
+    placements = list(vet_patch(device, patch).ranking.placements)
+    assert len(placements) > 64                       # enough to use the worker pool
+    assert fast_scores(device, patch, placements, processes=2) == \
+        fast_scores(device, patch, placements)

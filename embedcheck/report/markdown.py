@@ -1,6 +1,8 @@
 """Markdown summary of a `check` report, short enough for a code-review comment."""
 from __future__ import annotations
 
+from .text import format_score
+
 
 def _off(entry: dict) -> str:
     bad = [f"{c['circuit']} {c['off_coupler_count']} ({c['allowed']} allowed)"
@@ -20,7 +22,7 @@ def render_markdown(d: dict, max_gates: int = 20) -> str:
            f"best {d['results'][0]['figure'] if d['results'] else 'score'} |",
            "|---|---|---|---|---|---|"]
     for e in results:
-        score = f"{e['best_score']:.4f}" if e["best_score"] is not None else "-"
+        score = format_score(e["best_score"]) if e["best_score"] is not None else "-"
         out.append(f"| {'pass' if e['passed'] else '**FAIL**'} | {e['patch']} | {e['chip']} | "
                    f"{_off(e)} | {e['placements_within_allowance']} | {score} |")
     gates = [(e, c, g) for e in results for c in e["circuits"] for g in c["gates"]]

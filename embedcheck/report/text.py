@@ -118,7 +118,7 @@ def render_find(d: dict) -> str:
     for row in d["placements"]:
         off = sum(row["off_coupler_gates"].values())
         t = row["terms"]
-        out.append(f"  {row['rank']:>4} {row['success']:>8.4f}  {t['two_qubit']:>8.4f} "
+        out.append(f"  {row['rank']:>4} {format_score(row['success']):>8}  {t['two_qubit']:>8.4f} "
                    f"{t['readout']:>7.4f} {t['single_qubit']:>7.4f} {t['reset']:>7.4f} "
                    f"{t['idle']:>7.4f} {off:>7}")
         out.append(f"       {_placement(row['qubits'])}")
@@ -164,7 +164,7 @@ def render_find(d: dict) -> str:
         out += ["", f"Across {snap['count']} calibration snapshots, ranked by the {snap['by']} "
                     f"{snap['figure']}:"]
         for r in snap["top"]:
-            each = " ".join(f"{x:.4f}" for x in r["per_snapshot_success"])
+            each = " ".join(format_score(x) for x in r["per_snapshot_success"])
             out.append(f"  {r['rank']:>4}  per snapshot {each}  {_placement(r['qubits'])}")
         kept = round(snap["stability"] * snap["count"])
         out.append(f"  The winner is in the top {snap['top_k']} of {kept} of {snap['count']} "
@@ -178,7 +178,7 @@ def render_find(d: dict) -> str:
         out.append("")
         if sdk["found"]:
             out.append(f"qiskit's VF2Layout picks {_placement(sdk['qubits'])}: est. success "
-                       f"{sdk['success']:.4f}, rank {sdk['our_rank']} of {sdk['of']} under our "
+                       f"{format_score(sdk['success'])}, rank {sdk['our_rank']} of {sdk['of']} under our "
                        f"{sdk['figure']}.")
         else:
             out.append(f"qiskit's VF2Layout: {sdk['status']}.")
@@ -217,7 +217,7 @@ def render_audit(d: dict) -> str:
     score = d.get("score")
     if score:
         terms = ", ".join(f"{k.replace('_', ' ')} {v:.4f}" for k, v in score["terms"].items())
-        out += ["", f"Estimated success ({score['figure']}): {score['success']:.4f} "
+        out += ["", f"Estimated success ({score['figure']}): {format_score(score['success'])} "
                     f"(log terms: {terms})"]
         if not math.isclose(score["unscored_gates"], 0):
             out.append(f"  {score['unscored_gates']} off-coupler gate(s) are not in the score.")
@@ -237,6 +237,11 @@ def render_audit(d: dict) -> str:
 
 def _figure(value: float) -> str:
     return f"{value:.4g}"
+
+
+def format_score(value: float) -> str:
+    """A success estimate: 4 decimals, or 3 significant figures when that would read 0."""
+    return f"{value:.4f}" if value >= 1e-3 or value == 0 else f"{value:.3e}"
 
 
 def render_chip(d: dict) -> str:
@@ -356,8 +361,8 @@ def render_repair(d) -> str:
              f"  {'two-qubit gates':<22} {b['two_qubit_gates']:>10} {a['two_qubit_gates']:>10}",
              f"  {'two-qubit depth':<22} {b['two_qubit_depth']:>10} {a['two_qubit_depth']:>10}",
              f"  {'off-coupler gates':<22} {b['off_coupler_gates']:>10} {a['off_coupler_gates']:>10}",
-             f"  {'fidelity_product':<22} {b['fidelity_product']:>10.4f} "
-             f"{a['fidelity_product']:>10.4f}"]
+             f"  {'fidelity_product':<22} {format_score(b['fidelity_product']):>10} "
+             f"{format_score(a['fidelity_product']):>10}"]
     if "fault_distance" in b:
         lines.append(f"  fault distance (fewest faults flipping the observable unseen): before "
                      f"{fd(b)}, after {fd(a)}")
