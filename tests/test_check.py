@@ -252,3 +252,17 @@ def test_exact_audit_agrees_with_qiskit_on_family_patches(family, options):
         for c in audit_placement(device, patch, placement).circuits:
             after = transpile_on_placement(device, patch, c.circuit, placement)["two_qubit_gates"]
             assert (after == c.two_qubit_gates) == c.swap_free, (family, c.circuit)
+
+
+def test_a_typo_in_the_project_rules_points_at_its_own_line(project_dir, capsys):
+    # The override on the patch line does not name 'rund'; the project rules below do.
+    path = project_dir / "project.yaml"
+    text = path.read_text().replace(
+        "  - flagged_weight4.yaml\n",
+        "  - {file: flagged_weight4.yaml, rules: {max_off_coupler_gates: {prep: 3}}}\n").replace(
+        "  max_off_coupler_gates: 0 ", "  max_off_coupler_gates: {prep: 0, rund: 1} ")
+    path.write_text(text)
+    line = next(i for i, l in enumerate(text.splitlines(), 1) if "rund" in l)
+    code, out, _ = _run_check(project_dir, capsys)
+    assert code == 2 and f"project.yaml:{line}: rules.max_off_coupler_gates.rund" in out.err
+    assert "did you mean 'round'" in out.err

@@ -72,8 +72,10 @@ def load_project(path: str | Path) -> Project:
         if isinstance(entry, dict) and "rules" in entry:
             rules = _rules(doc, ("patches", i, "rules"), entry["rules"], _as_raw(project_rules))
         patches.append(PatchEntry(str(full), rules, doc.line(("patches", i))))
-        rule_lines[str(full)] = ("patches", i, "rules", "max_off_coupler_gates") \
-            if isinstance(entry, dict) and "rules" in entry else ("rules", "max_off_coupler_gates")
+        own = isinstance(entry, dict) and isinstance(entry.get("rules"), dict) and \
+            isinstance(entry["rules"].get("max_off_coupler_gates"), dict)
+        rule_lines[str(full)] = ((("patches", i, "rules", "max_off_coupler_gates"),) if own
+                                 else ()) + (("rules", "max_off_coupler_gates"),)
     reports = {kind: str(base / target) for kind, target in data.get("reports", {}).items()}
     for kind, target in reports.items():
         if not Path(target).parent.is_dir():
@@ -97,7 +99,9 @@ def _check_rule_circuits(doc, patches, rule_lines) -> None:
         circuits = list(load_patch(entry.file).circuits)
         for name in named:
             if name not in circuits:
-                raise doc.error(rule_lines[entry.file] + (name,),
+                where = next((path for path in rule_lines[entry.file]      # where it is written
+                              if name in (_at(doc.data, path) or {})), rule_lines[entry.file][-1])
+                raise doc.error(where + (name,),
                                 f"patch {Path(entry.file).name} has no circuit '{name}'"
                                 f"{did_you_mean(name, circuits)}")
 
@@ -106,6 +110,16 @@ def _as_raw(rules: Rules) -> dict:
     return {"max_off_coupler_gates": dict(rules.max_off_coupler_gates),
             "min_placements": rules.min_placements, "score_floor": rules.score_floor,
             "required_circuits": list(rules.required_circuits)}
+
+
+def _at(data, path):
+    """The value at a key path of the parsed file, or None."""
+    for key in path:
+        try:
+            data = data[key]
+        except (KeyError, IndexError, TypeError):
+            return None
+    return data if isinstance(data, dict) else None
 
 
 def _rules(doc: Document, path, given: dict, inherited: dict) -> Rules:
