@@ -511,7 +511,9 @@ def _run_repair(args) -> int:
     for figures in (repair.before, repair.after):       # JSON has no infinity
         if figures.get("fault_distance") == float("inf"):
             figures["fault_distance"] = "infinite"
-    new_text = _repaired_yaml(Path(args.patch), out, args.circuit, qasm_path.name)
+    new_text = _repaired_yaml(Path(args.patch), out, args.circuit, qasm_path.name,
+                              how=f"rewritten by 'embedcheck repair' ({repair.method} method) "
+                                  "to use only the couplers of one placement")
     header = (f"// Repaired by embedcheck: circuit '{args.circuit}' of patch '{patch.name}' "
               f"rewritten onto the couplers of\n// chip '{device.name}' at "
               + " ".join(f"{q}={p}" for q, p in placement.as_dict(patch).items())
@@ -536,7 +538,9 @@ def _run_projection(args, device, patch, placement, out, qasm_path) -> int:
     projection, fixed = project_preparation(patch, circuit=args.circuit)
     audit = audit_placement(device, fixed, placement)
     text = _repaired_yaml(Path(args.patch), out, args.circuit, qasm_path.name,
-                          drop=projection.dropped_detectors)
+                          drop=projection.dropped_detectors,
+                          how="replaced by 'embedcheck repair' with a product state that the "
+                              "check rounds project")
     header = (f"// Product-state preparation by embedcheck for circuit '{args.circuit}' of "
               f"patch '{patch.name}';\n// the check rounds project it; {projection.proof}\n")
     write_atomic(qasm_path, header + projection.qasm)
@@ -558,7 +562,7 @@ def _run_projection(args, device, patch, placement, out, qasm_path) -> int:
     return 0
 
 
-def _repaired_yaml(source, target, circuit, qasm_name, drop=()) -> str:
+def _repaired_yaml(source, target, circuit, qasm_name, drop=(), how="rewritten") -> str:
     """The patch file re-written for `target`: the circuit now from `qasm_name`, other file
     paths re-based; comments are not kept."""
     import os
@@ -577,6 +581,9 @@ def _repaired_yaml(source, target, circuit, qasm_name, drop=()) -> str:
         data["detectors"] = [d for i, d in enumerate(data["detectors"])
                              if d.get("name", f"D{i}") not in set(drop)]
     data["name"] = f"{data['name']}-repaired"
+    old = str(data.get("description", "")).strip()
+    data["description"] = f"Circuit '{circuit}' {how}." + (f" The original patch: {old}"
+                                                            if old else "")
     return (f"# Written by 'embedcheck repair' from {source.name}; circuit '{circuit}' is now "
             f"{qasm_name}.\n" + yaml.safe_dump(data, sort_keys=False, width=100))
 
@@ -722,19 +729,28 @@ def _parse_placement(text: str, patch, device) -> Placement:
 
 
 def _run_validate(args) -> int:
-    results = []
+    """Every file is checked (not only up to the first bad one): valid ones on stdout,
+    each bad one as its one-line error on stderr; exit 2 if any is bad."""
+    results, bad = [], 0
     for path in args.files:
-        kind = _kind_of(path)
-        obj = load_device(path) if kind == "chip" else load_patch(path)
-        if kind == "patch" and obj.detectors:
-            _sanity(obj, path)
+        try:
+            kind = _kind_of(path)
+            obj = load_device(path) if kind == "chip" else load_patch(path)
+            if kind == "patch" and obj.detectors:
+                _sanity(obj, path)
+        except InputError as err:
+            bad += 1
+            print(f"embedcheck: error: {err}", file=sys.stderr)
+            results.append({"file": path, "valid": False, "error": str(err)})
+            continue
         results.append({"file": path, "kind": kind, "name": obj.name,
                         "qubits": obj.num_qubits, "valid": True})
     text = "\n".join(f"{r['file']}: valid {r['kind']} file '{r['name']}' ({r['qubits']} qubits)"
-                     for r in results)
-    _emit(args, {"tool": "embedcheck", "version": __version__, "command": "validate",
-                 "files": results}, text)
-    return 0
+                     for r in results if r["valid"])
+    if text or args.format == "json":
+        _emit(args, {"tool": "embedcheck", "version": __version__, "command": "validate",
+                     "files": results}, text)
+    return 2 if bad else 0
 
 
 def _run_check(args) -> int:

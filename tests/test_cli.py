@@ -257,3 +257,12 @@ def test_worker_processes_scores_and_internal_errors(tmp_path, capsys, monkeypat
     assert main(["find", str(DEMO_CHIP), str(rep)]) == 3
     err = capsys.readouterr().err
     assert err.startswith("embedcheck: internal error: ZeroDivisionError") and err.count("\n") == 1
+
+
+def test_validate_reports_every_file(tmp_path, capsys):
+    bad = tmp_path / "bad.yaml"
+    bad.write_text(DEMO_CHIP.read_text().replace("native_two_qubit_gate", "natve_two_qubit_gate"))
+    assert main(["validate", str(DEMO_CHIP), str(bad), str(DEMO_PATCH)]) == 2
+    out = capsys.readouterr()
+    assert out.out.count("valid") == 2 and "did you mean 'native_two_qubit_gate'" in out.err
+    assert out.err.count("\n") == 1

@@ -28,8 +28,8 @@ def _figure(device: Device):
 
     xs = [xy[0] for xy in device.positions.values()] or [0]
     ys = [xy[1] for xy in device.positions.values()] or [0]
-    width = max(5.0, min(18.0, (max(xs) - min(xs) + 2) * 0.45))
-    height = max(3.5, min(18.0, (max(ys) - min(ys) + 2) * 0.45 + 1.0))
+    width = max(5.0, min(24.0, (max(xs) - min(xs) + 2) * 0.6))
+    height = max(3.5, min(24.0, (max(ys) - min(ys) + 2) * 0.6 + 1.0))
     fig, ax = plt.subplots(figsize=(width, height), dpi=100)
     ax.set_aspect("equal")
     ax.invert_yaxis()                       # row 0 at the top, as the qubits are numbered
@@ -60,7 +60,7 @@ def _number_qubits(ax, device: Device, pos):
         return
     for q in device.qubits:
         x, y = pos[q]
-        ax.annotate(str(q), (x, y), textcoords="offset points", xytext=(0, -11), ha="center",
+        ax.annotate(str(q), (x, y), textcoords="offset points", xytext=(0, -12), ha="center",
                     fontsize=5, color="#444444", zorder=4, gid="qubit numbers")
 
 
@@ -116,13 +116,16 @@ def draw_placement(device: Device, path: str | Path | None = None, *, patch: Pat
     for role, (marker, colour) in ROLE_STYLE.items():
         qs = [where[q] for q in patch.qubits_with_role(role)] if patch and where else []
         if qs:
-            ax.scatter([pos[q][0] for q in qs], [pos[q][1] for q in qs], s=150, marker=marker,
+            ax.scatter([pos[q][0] for q in qs], [pos[q][1] for q in qs], s=190, marker=marker,
                        c=colour, edgecolors="black", linewidths=1.0, zorder=3, label=role, gid=role)
-            if len(qs) <= 60:
+            if len(qs) <= 60:                # names inside the markers: they never overlap
+                ink = "black" if role == "flag" else "white"
                 for name in patch.qubits_with_role(role):
                     x, y = pos[where[name]]
-                    ax.annotate(name, (x, y), textcoords="offset points", xytext=(0, 9),
-                                ha="center", fontsize=7, zorder=4)
+                    ax.annotate(name, (x, y), textcoords="offset points",
+                                xytext=(0, -1 if marker == "^" else 0), ha="center",
+                                va="center", fontsize=6 if len(name) <= 3 else 4.5, color=ink,
+                                zorder=4, gid="patch qubit names")
     _number_qubits(ax, device, pos)
     fig.colorbar(sm, ax=ax, shrink=0.7, pad=0.02, label="two-qubit error (light: low)")
     ax.legend(loc="upper center", bbox_to_anchor=(0.5, 0.0), ncol=6, fontsize=8, frameon=False,
