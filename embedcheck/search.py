@@ -72,6 +72,7 @@ class SearchResult:
     reasons: tuple[str, ...]
     elapsed_s: float
     symmetries: tuple[tuple[int, ...], ...] = ()   # permutations of patch qubit indices
+    notes: tuple[str, ...] = ()                    # caveats on how the result was counted
 
     @property
     def complete(self) -> bool:
@@ -108,6 +109,11 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
     # the native way (a symmetric gate such as cz has no direction); no symmetry merging.
     arcs = _directional_arcs(patch, names, placed) if directed else []
     autos = [tuple(range(len(placed)))] if directed else _automorphisms(pattern)
+    notes = ()
+    if not directed and len(autos) == 1 and len(placed) > 1 and _has_symmetry(pattern):
+        notes = (f"the patch's symmetry group has more than {MAX_SYMMETRIES} elements, so "
+                 "maps are not merged by symmetry: each placement may appear in several "
+                 "relabelled copies",)
     allowed = rules.allowed_by_role(device, set(patch.roles.values())) if rules.roles else None
     found: list[Placement] = []
     seen: set = set()
@@ -166,7 +172,7 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
             perm[q] = placed[sigma[i]]
         full.append(tuple(perm))
     return SearchResult(names, tuple(found), raw, len(autos), stop, tuple(reasons),
-                        clock() - start, tuple(full))
+                        clock() - start, tuple(full), notes)
 
 
 def _maps(device, chip, pattern, placed, patch, allowed, blocked, arcs, autos, *,
@@ -466,14 +472,33 @@ def _chip_graph(device: Device, rules: Constraints):
     graph.add_edges_from_no_data([(index[a], index[b]) for a, b in couplers])
     return graph
 
+MAX_SYMMETRIES = 20_000
+
+
+def _has_symmetry(pattern: rx.PyGraph) -> bool:
+    """True when the pattern has a symmetry other than the identity."""
+    n = pattern.num_nodes()
+    for m in rx.vf2_mapping(pattern, pattern, node_matcher=lambda a, b: a == b,
+                            edge_matcher=lambda a, b: a == b, subgraph=False, id_order=True):
+        if any(m[i] != i for i in range(n)):
+            return True
+    return False
+
+
 def _automorphisms(pattern: rx.PyGraph) -> list[tuple[int, ...]]:
-    """Permutations of the pattern's nodes that keep roles and per-circuit gate counts."""
+    """Permutations of the pattern's nodes that keep roles and per-circuit gate counts.
+
+    A group larger than MAX_SYMMETRIES (a big tree, a star of many leaves) is not listed:
+    only the identity is returned and maps are then not merged by symmetry (find says so).
+    """
+    import itertools
     n = pattern.num_nodes()
     if n == 0:
         return [()]
     autos = rx.vf2_mapping(pattern, pattern, node_matcher=lambda a, b: a == b,
                            edge_matcher=lambda a, b: a == b, subgraph=False, id_order=True)
-    return [tuple(m[i] for i in range(n)) for m in autos]
+    listed = [tuple(m[i] for i in range(n)) for m in itertools.islice(autos, MAX_SYMMETRIES + 1)]
+    return listed if len(listed) <= MAX_SYMMETRIES else [tuple(range(n))]
 
 
 def _complete(chip, patch: Patch, placed, image, blocked, allowed) -> Placement:

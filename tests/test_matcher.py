@@ -193,3 +193,20 @@ def test_worker_caps_never_fake_a_limit():
         result = find_placements(device, patch, limit=1, constraints=rules,
                                  processes=processes)
         assert result.stop_reason == "complete" and not result.placements, processes
+
+
+def test_a_huge_symmetry_group_is_not_listed():
+    # A star with 8 leaves has 8! = 40320 symmetries: more than the search lists, so maps
+    # are not merged and the result says so (and every map is still found, per networkx).
+    from embedcheck import Device
+    from embedcheck.search import MAX_SYMMETRIES, find_placements
+    from helpers import patch_from_edges
+    import math
+    assert math.factorial(8) > MAX_SYMMETRIES
+    star = patch_from_edges([(0, k) for k in range(1, 9)])
+    hub = nx.star_graph(8)                               # centre 0 with 8 leaves
+    device = Device.from_graph(hub, name="hub")
+    result = find_placements(device, star, limit=None)
+    assert result.symmetry_order == 1 and result.notes
+    expected = sum(1 for _ in GraphMatcher(hub, nx.star_graph(8)).subgraph_monomorphisms_iter())
+    assert result.raw_maps == len(result.placements) == expected

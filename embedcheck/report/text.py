@@ -102,6 +102,8 @@ def render_find(d: dict) -> str:
                    f"{', '.join(s['circuits'])} ({s['raw_maps']} maps seen, {s['elapsed_s']:.2f} s).")
         out.append("The ranking covers only these; better placements may exist. Raise the "
                    "limit or the budget for a complete answer.")
+    for note in s.get("notes", ()):
+        out.append(f"Note: {note}.")
     if d.get("unconstrained_qubits"):
         out.append(f"{', '.join(d['unconstrained_qubits'])}: no two-qubit gate in "
                    f"{', '.join(s['circuits'])}, so no coupler constrains them; they are put on "
