@@ -23,9 +23,11 @@ of u_i under G_{i-1}. Exactly one map of each orbit meets all of these (the one 
 image of u_i is the smallest of its orbit, level by level), so a complete run yields
 |maps| / |G| representatives. (Lex-leader constraints from a stabiliser chain; see
 Crawford, Ginsberg, Luks & Roy, KR 1996, for the symmetry-breaking idea, and Sims'
-stabiliser chains, Computational Problems in Abstract Algebra, 1970.)
+stabiliser chains, Computational Problems in Abstract Algebra, 1970; both cited from
+memory. The tests check the claim against networkx and rustworkx.)
 
-Memory is bounded: rows are processed depth-first in chunks of at most `chunk` rows.
+Memory is bounded: blocks of rows are processed depth first, with a cap on what waits
+on the stack (see `grow`).
 
     >>> import numpy as np
     >>> square = [(0, 1), (1, 2), (2, 3), (3, 0)]

@@ -420,7 +420,8 @@ def _css_circuit(patch, state, support, edges, known_zero):
     one generator at a time, with CNOTs along a Steiner tree of the qubits that carry
     it (fill the tree's inner qubits, then clear all but the tree's root, leaves
     first: Steiner-Gauss elimination, Kissinger & Meijer-van de Griend, arXiv:1904.00633;
-    Nash, Gheorghiu & Mosca, Quantum 4, 290 (2020)). The root (the pivot) then leaves
+    Nash, Gheorghiu & Mosca, Quantum 4, 290 (2020); references from memory, and the tests
+    prove every result by tableau instead of trusting them). The root (the pivot) then leaves
     the graph, so it must not be a cut vertex of what is left. The state is then |+> on
     the k pivots and |0> elsewhere; the preparation is Hadamards on the pivots, the
     CNOTs in reverse order, and a Pauli correction for the signs.
@@ -485,8 +486,8 @@ def _css_circuit(patch, state, support, edges, known_zero):
 def _steiner_with_root(graph, terminals, cut):
     """(root, parent map) of a small tree in `graph` holding every terminal, rooted at a
     qubit that is not a cut vertex (so it can leave the graph); shortest-path heuristic
-    (Takahashi & Matsuyama, Math. Japonica 24, 573 (1980)). None if the terminals are
-    not connected."""
+    (Takahashi & Matsuyama, Math. Japonica 24, 573 (1980), from memory). None if the
+    terminals are not connected."""
     if not terminals:
         return None
     component = _component(graph, terminals[0])
