@@ -66,8 +66,9 @@ def _parser() -> argparse.ArgumentParser:
     _common(find)
     _search_options(find)
     _constraint_options(find)
-    find.add_argument("--top", type=_positive_int, default=10,
-                      help="placements to list (default 10)")
+    find.add_argument("--top", type=_top, default=10,
+                      help="placements to list (default 10; 'all' lists every one, e.g. "
+                           "for --format json)")
     find.add_argument("--strict", action="store_true",
                       help="exit 1 unless every circuit is swap-free on the best placement")
     find.add_argument("--over-snapshots", default="worst", metavar="HOW",
@@ -319,6 +320,16 @@ def _common(p):
     p.add_argument("--format", choices=("text", "json"), default="text")
 
 
+def _top(text: str):
+    """--top: a positive count, or 'all' (None)."""
+    if text == "all":
+        return None
+    try:
+        return _positive_int(text)
+    except argparse.ArgumentTypeError:
+        raise argparse.ArgumentTypeError(f"'{text}' is neither a whole number nor 'all'") from None
+
+
 def _positive_int(text):
     try:
         value = int(text)
@@ -373,12 +384,13 @@ def _run_find(args) -> int:
                         processes=args.processes)
     if progress:
         print("\r" + " " * 40 + "\r", end="", file=sys.stderr)
-    payload = report_data.find_dict(vetting, top=args.top)
+    top = args.top if args.top is not None else max(1, len(vetting.ranking.placements))
+    payload = report_data.find_dict(vetting, top=top)
     if args.decode and not args.monte_carlo:
         raise InputError("--decode decodes sampled shots: give --monte-carlo SHOTS too")
     logical = _logical_ranking(args, device, patch, vetting)
     if logical is not None:
-        payload["logical"] = report_data.logical_dict(patch, logical, args.top,
+        payload["logical"] = report_data.logical_dict(patch, logical, top,
                                                       sampled=bool(args.monte_carlo))
         payload["ranked_by"] = logical.figure
         if logical.figure == "undetected" and not np.any(logical.undetected):
@@ -408,7 +420,7 @@ def _run_find(args) -> int:
         from .rank import rank_across_snapshots
         payload["snapshots"] = report_data.snapshot_dict(
             patch, rank_across_snapshots(snapshots, patch, vetting.ranking.placements, by=by),
-            top=min(args.top, 5))
+            top=min(top, 5))
     if args.compare_sdk:
         payload["sdk_choice"] = report_data.sdk_dict(device, patch, vetting)
     from .report.picture import draw_placement, draw_score_map
@@ -461,7 +473,8 @@ def _logical_ranking(args, device, patch, vetting):
     _sanity(patch, patch.source)
     progress = _progress()
     out = rank_by_logical(device, patch, swap_free, figure=figure,
-                          monte_carlo_shots=args.monte_carlo or 0, top=args.top,
+                          monte_carlo_shots=args.monte_carlo or 0,
+                          top=args.top if args.top is not None else len(swap_free),
                           decode=args.decode, processes=args.processes,
                           progress=(lambda n: print(f"\r  scoring: {n} placements ...", end="",
                                                     file=sys.stderr, flush=True))

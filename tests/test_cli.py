@@ -266,3 +266,12 @@ def test_validate_reports_every_file(tmp_path, capsys):
     out = capsys.readouterr()
     assert out.out.count("valid") == 2 and "did you mean 'native_two_qubit_gate'" in out.err
     assert out.err.count("\n") == 1
+
+
+def test_top_all_lists_every_placement(capsys):
+    assert main(["find", str(DEMO_CHIP), str(FIXED_PATCH), "--top", "all", "--format",
+                 "json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert len(data["placements"]) == data["search"]["distinct_placements"] > 10
+    assert main(["find", str(DEMO_CHIP), str(FIXED_PATCH), "--top", "al"]) == 2
+    assert "neither a whole number nor 'all'" in capsys.readouterr().err
