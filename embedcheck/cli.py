@@ -51,8 +51,9 @@ def main(argv: list[str] | None = None) -> int:
     except Exception as err:                 # a bug of ours: one line, exit 3
         if os.environ.get("EMBEDCHECK_TRACEBACK"):
             raise
-        print(f"embedcheck: internal error: {type(err).__name__}: {err} (please report it; "
-              "set EMBEDCHECK_TRACEBACK=1 for the traceback)", file=sys.stderr)
+        message = " ".join(str(err).split())          # one line, whatever the message
+        print(f"embedcheck: internal error: {type(err).__name__}: {message} (please report "
+              "it; set EMBEDCHECK_TRACEBACK=1 for the traceback)", file=sys.stderr)
         return 3
 
 
@@ -459,11 +460,8 @@ def _logical_ranking(args, device, patch, vetting):
         from .simulate import _spanned_by_detectors
         if _spanned_by_detectors(patch):     # no fault flips it unseen: every score is 0
             return None
-        from .logical import fast_score
-        # The detector error model has the same fault signatures on every placement (same
-        # circuit, same noise locations; only the rates differ), so when no one or two
-        # faults flip the observable unseen on the best placement, none do anywhere.
-        if fast_score(device, patch, swap_free[0]).undetected == 0:
+        from .logical import undetected_zero_everywhere
+        if undetected_zero_everywhere(patch):  # one circuit with every fault: 0 there, 0 anywhere
             args.undetected_is_zero = True
             return None
         figure = "undetected"

@@ -105,6 +105,14 @@ def fast_score(device: Device, patch: Patch, placement: Placement) -> FastScore:
     """The first-order undetected-fault rate and kept fraction from stim's DEM."""
     dem = noisy_circuit(device, patch, placement).detector_error_model(
         approximate_disjoint_errors=True)
+    undetected, keep_log, count = _dem_figures(dem)
+    return FastScore(undetected, math.exp(keep_log), count)
+
+
+def _dem_figures(dem):
+    """(undetected to second order, log of the kept fraction, mechanisms) of a DEM: single
+    mechanisms that flip the observable and no detector, plus pairs that flip the same
+    detectors (so cancel there) and differ in the observable."""
     first, keep_log, count = 0.0, 0.0, 0
     groups: dict = {}
     for inst in dem.flattened():
@@ -122,7 +130,34 @@ def fast_score(device: Device, patch: Patch, placement: Placement) -> FastScore:
         elif flips_observable:
             first += p
     second = sum(p0 * p1 for p0, p1 in groups.values())
-    return FastScore(first + second, math.exp(keep_log), count)
+    return first + second, keep_log, count
+
+
+def undetected_zero_everywhere(patch: Patch, noise: float = 1e-3) -> bool:
+    """True when the 'undetected' figure is 0 on every placement of `patch`, whatever the
+    calibration: no one or two faults flip the observable unseen even when every qubit
+    may suffer any Pauli after every operation (and every two-qubit gate any two-qubit
+    Pauli). Each placement's noise channels are Pauli channels at some of these places,
+    so its error mechanisms are a subset of these; a zero here is a zero there."""
+    import stim
+
+    from .simulate import to_stim
+    n = patch.num_qubits
+    everyone = list(range(n))
+    universal = stim.Circuit()
+    universal.append("DEPOLARIZE1", everyone, noise)
+    for inst in to_stim(patch).flattened():
+        universal.append(inst)
+        gate = stim.gate_data(inst.name)
+        if gate.is_noisy_gate or inst.name in ("DETECTOR", "OBSERVABLE_INCLUDE", "TICK",
+                                               "QUBIT_COORDS", "SHIFT_COORDS", "MPAD"):
+            continue
+        if gate.is_two_qubit_gate:
+            qubits = [t.value for t in inst.targets_copy() if t.is_qubit_target]
+            universal.append("DEPOLARIZE2", qubits, noise)
+        universal.append("DEPOLARIZE1", everyone, noise)
+    dem = universal.detector_error_model(approximate_disjoint_errors=True)
+    return _dem_figures(dem)[0] == 0
 
 
 def fast_scores(device: Device, patch: Patch, placements: Sequence[Placement], *,

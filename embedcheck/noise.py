@@ -31,7 +31,7 @@ import math
 from .device import Device, pair
 from .io.errors import InputError
 from .patch import Patch
-from .schedule import _median_coupler_duration
+from .schedule import _duration, _median_coupler_duration
 from .search import Placement
 from .simulate import _STIM, append_detectors
 
@@ -69,7 +69,7 @@ def noisy_circuit(device: Device, patch: Patch, placement: Placement, *, noise: 
     where = placement.as_dict(patch)
     index = patch.index
     qcal = device.qubit_calibration
-    median = _median_coupler_duration(device) or 0.0
+    median = _median_coupler_duration(device)
     circuit = stim.Circuit()
     measured = 0
     for name, again, times in patch.runs():
@@ -91,7 +91,7 @@ def noisy_circuit(device: Device, patch: Patch, placement: Placement, *, noise: 
                                  "simulated here", file=op.file, line=op.line)
             phys = [where[q] for q in qs]
             targets = [index[q] for q in qs]
-            length = _length(device, op, phys, median)
+            length = _duration(device, op, phys, median, set())   # the schedule's rule
             start = max(free[q] for q in qs)
             if noise:
                 for q in qs:
@@ -112,16 +112,6 @@ def noisy_circuit(device: Device, patch: Patch, placement: Placement, *, noise: 
         measured += count * times
     append_detectors(circuit, patch, measured)
     return circuit
-
-
-def _length(device, op, phys, median) -> float:
-    cal = device.qubit_calibration
-    if op.kind == "2q":
-        c = device.coupler_calibration.get(pair(*phys))
-        return float(c.duration_ns) if c is not None and c.duration_ns else median
-    key = "single_qubit_duration_ns" if op.kind == "1q" else "measurement_duration_ns"
-    value = getattr(cal.get(phys[0]), key, None) if phys[0] in cal else None
-    return float(value or 0.0)
 
 
 def _idle(body, target, t_ns, cal) -> None:

@@ -129,15 +129,20 @@ class Patch:
 
     def waiting(self, circuit: str, again: bool = False) -> frozenset[str]:
         """Qubits that hold state when `circuit` starts and will be used again: touched by
-        an earlier circuit of the experiment (or by this one, on a later run), with a next
-        operation (in this circuit or a later one) that is not a reset. Their wait from
+        an earlier circuit of the experiment (or by this one, on a later run) and not reset
+        last, with a next operation (in this circuit or a later one) that is not a reset. Their wait from
         the circuit's start is idle time; a qubit still in its initial |0> does not decay,
         and one that is reset next, or never used again, has nothing to lose."""
         names = [n for n, _ in self.experiment()]
         at = names.index(circuit) if circuit in names else len(names)
         before = names[:at] + ([circuit] if again else [])
-        touched = {q for n in before for op in self.circuits[n].operations
-                   if op.kind != "barrier" for q in op.qubits}
+        last: dict = {}                          # each qubit's last operation so far
+        for n in before:
+            for op in self.circuits[n].operations:
+                if op.kind != "barrier":
+                    for q in op.qubits:
+                        last[q] = op.kind
+        touched = {q for q, kind in last.items() if kind != "reset"}   # reset: back in |0>
         upcoming = [circuit] + names[at + 1:]
         next_kind: dict = {}
         for n in upcoming:

@@ -162,9 +162,10 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
         reasons = ["no cheap condition rules it out, and an exhaustive search found no "
                    f"placement: the interaction graph of {', '.join(names)} is not a subgraph of "
                    f"{what}"]
-        reasons += _parts(device, patch, names, rules, clock, budget_s, pattern, placed)
+        left = None if budget_s is None else max(0.0, budget_s - (clock() - start))
+        reasons += _parts(device, patch, names, rules, clock, left, pattern, placed)
         if not rules.empty:
-            reasons += _blame(device, patch, names, rules, clock, budget_s)
+            reasons += _blame(device, patch, names, rules, clock, left)
     full = []
     for sigma in autos:                      # as permutations of all patch qubit indices
         perm = list(range(patch.num_qubits))
@@ -308,9 +309,14 @@ def _parts(device, patch, names, rules, clock, budget_s, pattern, placed) -> lis
         piece = _sub_patch(patch, names, {patch.qubits[q] for q in members})
         alone = find_placements(device, piece, limit=1, constraints=rules, clock=clock,
                                 budget_s=budget_s)
-        if not alone.placements:
-            out.append("the part " + ", ".join(sorted(patch.qubits[q] for q in members))
-                       + " cannot be placed even on its own")
+        named = ", ".join(sorted(patch.qubits[q] for q in members))
+        if not alone.placements and alone.complete:
+            out.append(f"the part {named} cannot be placed even on its own")
+        elif not alone.placements:
+            out.append(f"the part {named} could not be tried on its own within the time "
+                       "budget")
+    if any("within the time budget" in line for line in out):
+        return out
     if not out:
         out.append(f"each of the patch's {len(parts)} unconnected parts fits on its own, but "
                    "not all of them side by side on distinct qubits")
@@ -336,7 +342,7 @@ def _blame(device, patch, names, rules: Constraints, clock, budget_s) -> list[st
     out = []
     for label, relaxed in trials:
         found = find_placements(device, patch, circuits=names, limit=1, constraints=relaxed,
-                                budget_s=budget_s, clock=clock)
+                                budget_s=budget_s, clock=clock)     # what is left of it
         if found.placements:
             out.append(f"the constraint '{label}' removes every placement: without it the "
                        f"patch fits")

@@ -136,7 +136,7 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
             "no circuit with two-qubit gates has a swap-free placement",)
         search = SearchResult(tuple(gated), (), 0, 1, "complete", reasons, 0.0)
         misses = tuple(near_misses(device, patch, gated, constraints=rules,
-                                   budget_s=min(5.0, budget_s or 5.0)))
+                                   budget_s=min(5.0, 5.0 if deadline is None else left())))
     excluded = tuple(n for n in patch.circuits if n not in core)
     ranking = rank_placements(device, patch, _best_of_orbits(device, patch, search))
     names = list(patch.circuits)

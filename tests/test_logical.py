@@ -179,3 +179,20 @@ def test_fast_scores_in_worker_processes_match(tmp_path):
     assert len(placements) > 64                       # enough to use the worker pool
     assert fast_scores(device, patch, placements, processes=2) == \
         fast_scores(device, patch, placements)
+
+
+def test_auto_figure_falls_back_only_when_zero_on_every_placement(capsys):
+    # Distance 2: one data flip is undetected, so 'undetected' ranks (even though the
+    # placement on the zero-error end of the chip scores 0); distance 5: it cannot, and
+    # find says so and keeps the fidelity product.
+    from pathlib import Path
+    from embedcheck.cli import main
+    from embedcheck.codes import build_patch
+    from embedcheck.logical import undetected_zero_everywhere
+    data = Path(__file__).parent / "data"
+    assert not undetected_zero_everywhere(load_patch(data / "rep2_one_round.yaml"))
+    assert undetected_zero_everywhere(build_patch("repetition", distance=5, rounds=3))
+    assert main(["find", str(data / "line5_zero_errors.yaml"),
+                 str(data / "rep2_one_round.yaml")]) == 0
+    out = capsys.readouterr().out
+    assert "Ranked by undetected" in out and "no one or two faults" not in out

@@ -297,3 +297,12 @@ def test_a_qubit_never_used_again_does_not_wait():
     patch = Patch("toy", ("d", "f"), {"d": "data", "f": "flag"},
                   {"prep": Circuit("prep", prep), "readout": Circuit("readout", readout)})
     assert patch.waiting("readout") == {"d"}
+
+
+def test_a_qubit_reset_at_the_end_of_a_round_is_back_in_zero():
+    # h d; cx d, a; measure a; reset a: a starts every round in |0>, as in the first.
+    ops = (Operation("h", ("d",), "1q"), Operation("cx", ("d", "a"), "2q"),
+           Operation("measure", ("a",), "measure"), Operation("reset", ("a",), "reset"))
+    patch = Patch("toy", ("d", "a"), {"d": "data", "a": "ancilla"},
+                  {"round": Circuit("round", ops)}, rounds=3)
+    assert patch.waiting("round", again=True) == {"d"}

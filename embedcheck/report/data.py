@@ -231,7 +231,10 @@ def check_dict(result, baseline: dict | None = None) -> dict:
             "placements_within_allowance": pair.allowed_placements,
             "search": {"circuits": list(v.search.circuits),
                        "distinct_placements": len(v.search.placements),
-                       "complete": v.search.complete, "stop_reason": v.search.stop_reason},
+                       "complete": v.complete,
+                       "stop_reason": v.search.stop_reason if not v.search.complete else
+                       ("budget" if v.inconclusive else "complete"),
+                       "inconclusive_circuits": list(v.inconclusive)},
             "chosen_placement": chosen.placement.as_dict(pair.patch) if chosen else None,
             "figure": v.ranking.figure, "best_score": score,
             "circuits": circuits,

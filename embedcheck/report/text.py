@@ -111,6 +111,11 @@ def render_find(d: dict) -> str:
     excluded = [c["circuit"] for c in d["circuits"] if not c["in_core"]]
     if d["all_swap_free"]:
         out.append("Every circuit is swap-free on every placement listed: no added two-qubit gates.")
+    elif d.get("inconclusive_circuits"):
+        out.append(f"None of the placements listed makes every circuit swap-free: "
+                   f"{', '.join(excluded)} need(s) routing on all of them (see the gates "
+                   "below); the budget ran out before a joint search, so a larger one may "
+                   "find a placement that does.")
     else:
         out.append(f"No placement makes every circuit swap-free: {', '.join(excluded)} "
                    f"need(s) routing on all of them (see the gates below).")
