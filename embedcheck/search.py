@@ -108,9 +108,10 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
     # Native directions: search undirected, keep the maps whose directional gates all run
     # the native way (a symmetric gate such as cz has no direction); no symmetry merging.
     arcs = _directional_arcs(patch, names, placed) if directed else []
-    autos = [tuple(range(len(placed)))] if directed else _automorphisms(pattern)
+    autos, too_big = ([tuple(range(len(placed)))], False) if directed else \
+        _symmetry_group(pattern)
     notes = ()
-    if not directed and len(autos) == 1 and len(placed) > 1 and _has_symmetry(pattern):
+    if too_big:
         notes = (f"the patch's symmetry group has more than {MAX_SYMMETRIES} elements, so "
                  "maps are not merged by symmetry: each placement may appear in several "
                  "relabelled copies",)
@@ -129,7 +130,7 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
         cap = min(x for x in (limit, None if max_maps is None else -(-max_maps // order))
                   if x is not None)
     cut_short = None
-    for block, why in _maps(device, chip, pattern, placed, patch, allowed, blocked, arcs,
+    for block, why in _maps(device, chip, pattern, allowed, blocked, arcs,
                             None if directed else autos, processes=processes, cap=cap,
                             seconds=budget_s):
         cut_short = cut_short or why
@@ -176,8 +177,8 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
                         clock() - start, tuple(full), notes)
 
 
-def _maps(device, chip, pattern, placed, patch, allowed, blocked, arcs, autos, *,
-          processes=1, cap=None, seconds=None):
+def _maps(device, chip, pattern, allowed, blocked, arcs, autos, *, processes=1, cap=None,
+          seconds=None):
     """(block, why) pairs: blocks of raw maps (rows: chip node of pattern node 0, 1, ...),
     one per symmetry orbit when `autos` is given, without the maps whose directional
     gates run against a coupler's native direction when `arcs` is given. `why` is None,
@@ -481,30 +482,26 @@ def _chip_graph(device: Device, rules: Constraints):
 MAX_SYMMETRIES = 20_000
 
 
-def _has_symmetry(pattern: rx.PyGraph) -> bool:
-    """True when the pattern has a symmetry other than the identity."""
-    n = pattern.num_nodes()
-    for m in rx.vf2_mapping(pattern, pattern, node_matcher=lambda a, b: a == b,
-                            edge_matcher=lambda a, b: a == b, subgraph=False, id_order=True):
-        if any(m[i] != i for i in range(n)):
-            return True
-    return False
-
-
 def _automorphisms(pattern: rx.PyGraph) -> list[tuple[int, ...]]:
-    """Permutations of the pattern's nodes that keep roles and per-circuit gate counts.
+    """Permutations of the pattern's nodes that keep roles and per-circuit gate counts
+    (only the identity when the group is too big to list; see `_symmetry_group`)."""
+    return _symmetry_group(pattern)[0]
 
-    A group larger than MAX_SYMMETRIES (a big tree, a star of many leaves) is not listed:
-    only the identity is returned and maps are then not merged by symmetry (find says so).
-    """
+
+def _symmetry_group(pattern: rx.PyGraph) -> tuple[list[tuple[int, ...]], bool]:
+    """(the symmetries, too_big). A group larger than MAX_SYMMETRIES (a big tree, a star of
+    many leaves) is not listed: only the identity is returned, with too_big set, and maps
+    are then not merged by symmetry (find says so)."""
     import itertools
     n = pattern.num_nodes()
     if n == 0:
-        return [()]
+        return [()], False
     autos = rx.vf2_mapping(pattern, pattern, node_matcher=lambda a, b: a == b,
                            edge_matcher=lambda a, b: a == b, subgraph=False, id_order=True)
     listed = [tuple(m[i] for i in range(n)) for m in itertools.islice(autos, MAX_SYMMETRIES + 1)]
-    return listed if len(listed) <= MAX_SYMMETRIES else [tuple(range(n))]
+    if len(listed) > MAX_SYMMETRIES:
+        return [tuple(range(n))], True
+    return listed, False
 
 
 def _complete(chip, patch: Patch, placed, image, blocked, allowed) -> Placement:
