@@ -19,6 +19,7 @@ for the report:
 """
 from __future__ import annotations
 
+import time
 from dataclasses import dataclass
 from typing import Callable
 
@@ -86,7 +87,6 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
     if patch.num_qubits > device.num_qubits:
         raise InputError(f"the patch has {patch.num_qubits} qubits but chip '{device.name}' has "
                          f"only {device.num_qubits}", file=patch.source)
-    import time
     deadline = None if budget_s is None else time.monotonic() + budget_s
 
     def left():                              # one budget for every stage, not one each
