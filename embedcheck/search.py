@@ -525,14 +525,18 @@ def _complete(chip, patch: Patch, placed, image, blocked, allowed) -> Placement:
 
 
 def _nearest_free(chip: rx.PyGraph, sources, blocked):
-    """Free live chip nodes in breadth-first order from `sources` (then any others)."""
+    """Free live chip nodes in breadth-first order from `sources` (then any others).
+
+    Neighbours are taken in index order: rustworkx returns them in hash order, which
+    changes from run to run, and placements must not."""
+    sources = sorted(sources)
     queue, seen = deque(sources), set(sources)
     neighbours = chip.neighbors
     while queue:
         node = queue.popleft()
         if node not in blocked:
             yield node
-        for nb in neighbours(node):
+        for nb in sorted(neighbours(node)):
             if nb not in seen:
                 seen.add(nb)
                 queue.append(nb)

@@ -275,3 +275,34 @@ def test_top_all_lists_every_placement(capsys):
     assert len(data["placements"]) == data["search"]["distinct_placements"] > 10
     assert main(["find", str(DEMO_CHIP), str(FIXED_PATCH), "--top", "al"]) == 2
     assert "neither a whole number nor 'all'" in capsys.readouterr().err
+
+
+def test_find_gives_the_same_answer_every_run(tmp_path):
+    # Unplaced qubits go on the nearest free qubits; rustworkx lists neighbours in hash
+    # order, which changes between processes, so the order must be fixed by us.
+    patch = tmp_path / "idle.qasm"
+    patch.write_text('OPENQASM 2.0;\ninclude "qelib1.inc";\nqreg q[5];\ncreg c[5];\nh q[0];\n'
+                     'cx q[0], q[1];\ncx q[1], q[2];\nx q[3];\nh q[4];\nmeasure q -> c;\n')
+    outs = []
+    for seed in ("1", "2", "3"):
+        done = subprocess.run([sys.executable, "-m", "embedcheck", "find", str(DEMO_CHIP),
+                               str(patch), "--top", "all", "--format", "json"],
+                              capture_output=True, text=True, check=True,
+                              env={**__import__("os").environ, "PYTHONHASHSEED": seed})
+        data = json.loads(done.stdout)
+        outs.append([row["qubits"] for row in data["placements"]])
+    assert outs[0] == outs[1] == outs[2] and len(outs[0]) > 10
+
+
+def test_a_round_that_cannot_fit_ranks_no_layout_for_the_rest(capsys):
+    # The rotated surface code's round needs degree-4 qubits, which heavy-hex lacks; its
+    # CSS preparation would fit alone, but no layout is ranked for the preparation alone.
+    from pathlib import Path
+    patch = Path(__file__).parent / "data" / "surface3_css_prep.yaml"
+    assert main(["find", str(DEMO_CHIP), str(patch), "--format", "json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    fits = {c["circuit"]: c["fits_alone"] for c in data["circuits"]}
+    assert fits["round"] is False and fits["prep"] is True
+    assert data["search"]["distinct_placements"] == 0 and not data["placements"]
+    assert main(["find", str(DEMO_CHIP), str(patch)]) == 0
+    assert "No placement makes the check round swap-free" in capsys.readouterr().out

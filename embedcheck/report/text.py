@@ -76,8 +76,18 @@ def render_find(d: dict) -> str:
                    "none exists. Raise the budget.")
         out += ["", d["caution"]]
         return "\n".join(_fold(line) for line in out)
+    round_fails = any(c["circuit"] == "round" and c["fits_alone"] is False
+                      for c in d["circuits"])
+    others_fit = [c["circuit"] for c in d["circuits"]
+                  if c["two_qubit_gates"] and c["fits_alone"] and c["circuit"] != "round"]
     if not s["distinct_placements"]:
-        out.append("No placement makes any circuit with two-qubit gates swap-free on this chip.")
+        if round_fails and others_fit:
+            out.append(f"No placement makes the check round swap-free on this chip. "
+                       f"{', '.join(others_fit)} would fit alone, but a layout is chosen for "
+                       "its rounds, so none is ranked for that.")
+        else:
+            out.append("No placement makes any circuit with two-qubit gates swap-free on this "
+                       "chip.")
         for reason in s["reasons"]:
             out.append(f"  why: {reason}")
         if d.get("near_misses"):
