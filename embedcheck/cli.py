@@ -430,6 +430,14 @@ def _run_find(args) -> int:
         draw_placement(device, args.draw, patch=patch, placement=best,
                        title=f"{patch.name} on {device.name}: best placement")
         payload["pictures"] = {**payload.get("pictures", {}), "placement": args.draw}
+    elif args.draw:                          # nothing to place: the chip alone, titled so
+        draw_placement(device, args.draw,
+                       title=f"{device.name}: no placement of {patch.name} to draw")
+        payload["pictures"] = {**payload.get("pictures", {}), "placement": args.draw}
+    if args.score_map and not vetting.ranking.placements:
+        payload["logical_note"] = (payload.get("logical_note", "") + "; " if
+                                   payload.get("logical_note") else "") + \
+            f"no placement to shade, so --score-map wrote nothing to {args.score_map}"
     if args.score_map and vetting.ranking.placements:
         if logical is not None:
             values = -np.log10(np.maximum(logical.undetected, 1e-12)) \
@@ -537,6 +545,7 @@ def _run_repair(args) -> int:
                "placement": placement.as_dict(patch), "before": repair.before,
                "after": repair.after, "candidates": {k: list(v) if v else None
                                                      for k, v in repair.candidates.items()},
+               "rejected_for_fault_distance": list(repair.rejected),
                "wrote": {"patch": str(out), "circuit": str(qasm_path)}, "caution": CAUTION}
     _emit(args, payload, render_repair(payload))
     return 0

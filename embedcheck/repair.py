@@ -66,6 +66,7 @@ class Repair:
     after: dict
     helpers: tuple[str, ...]          # patch qubits borrowed and returned to |0>
     candidates: dict = field(default_factory=dict)   # method -> (2q gates, 2q depth)
+    rejected: tuple[str, ...] = ()    # cheaper rewrites dropped: they lower the fault distance
 
 
 def repair_preparation(device: Device, patch: Patch, placement: Placement, *,
@@ -148,7 +149,7 @@ def repair_preparation(device: Device, patch: Patch, placement: Placement, *,
     if check_distance:
         after["fault_distance"] = distance
     return Repair(circuit, method, text, tuple(ops), proven, proof, before, after, helpers,
-                  candidates)
+                  candidates, tuple(lowered))
 
 
 def repaired_patch(patch: Patch, repair: Repair, *, file: str | None = None) -> Patch:

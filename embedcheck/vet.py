@@ -84,9 +84,8 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
     `processes` worker processes share the full search's anchors.
     """
     rules = constraints if constraints is not None else patch.constraints
-    if patch.num_qubits > device.num_qubits:
-        raise InputError(f"the patch has {patch.num_qubits} qubits but chip '{device.name}' has "
-                         f"only {device.num_qubits}", file=patch.source)
+    # A patch bigger than the chip is a finding (the search's first reason says so), not a
+    # bad input: a project may list chips of every size.
     deadline = None if budget_s is None else time.monotonic() + budget_s
 
     def left():                              # one budget for every stage, not one each

@@ -115,8 +115,10 @@ def test_undeclared_patch_qubit(tmp_path, capsys):
 def test_patch_larger_than_chip(tmp_path, capsys):
     chip = tmp_path / "tiny.yaml"
     chip.write_text(GOOD_CHIP)
+    # A finding, not a bad input: a project may list chips of every size.
     code, out, err = run(capsys, "find", chip, DEMO_PATCH)
-    assert code == 2 and "the patch has 7 qubits but chip 'tiny' has only 3" in err
+    assert code == 0 and "the patch has 7 qubits but the chip has only 3 live qubits" in out
+    assert "No placement" in out
 
 
 def test_usage_errors_exit_2(capsys):
@@ -306,3 +308,16 @@ def test_a_round_that_cannot_fit_ranks_no_layout_for_the_rest(capsys):
     assert data["search"]["distinct_placements"] == 0 and not data["placements"]
     assert main(["find", str(DEMO_CHIP), str(patch)]) == 0
     assert "No placement makes the check round swap-free" in capsys.readouterr().out
+
+
+def test_bare_chips_and_empty_pictures_are_findings(tmp_path, capsys):
+    # A chip file without calibration is valid; --draw with nothing to place draws the chip
+    # alone, and --score-map says it wrote nothing.
+    bare = tmp_path / "bare.yaml"
+    bare.write_text("embedcheck_chip: 1\nname: bare\nqubits: 3\ncouplers: [[0, 1], [1, 2]]\n")
+    assert main(["validate", str(bare)]) == 0
+    picture, heat = tmp_path / "none.png", tmp_path / "heat.png"
+    assert main(["find", str(bare), str(DEMO_PATCH), "--draw", str(picture),
+                 "--score-map", str(heat)]) == 0
+    out = capsys.readouterr().out
+    assert picture.exists() and not heat.exists() and "--score-map wrote nothing" in out

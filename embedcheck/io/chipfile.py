@@ -97,7 +97,10 @@ def devices_from_document(doc: Document) -> list[Device]:
 
 
 def _get(data, path):
+    """The value at a key path, or None where a key is absent (calibration is optional)."""
     for key in path:
+        if not isinstance(data, (dict, list)) or (isinstance(data, dict) and key not in data):
+            return None
         data = data[key]
     return data
 

@@ -64,7 +64,9 @@ def _number_qubits(ax, device: Device, pos):
                     fontsize=5, color="#444444", zorder=4, gid="qubit numbers")
 
 
-def _draw_couplers(ax, device: Device, pos, highlight=frozenset()):
+def _draw_couplers(ax, device: Device, pos, highlight=frozenset(), plain=False):
+    """Live couplers shaded by two-qubit error (or plain grey, where another quantity owns
+    the colour map), dead ones dotted."""
     import matplotlib as mpl
     from matplotlib.collections import LineCollection
 
@@ -79,7 +81,7 @@ def _draw_couplers(ax, device: Device, pos, highlight=frozenset()):
         cal = device.coupler_calibration.get(c)
         err = cal.two_qubit_error if cal and cal.two_qubit_error is not None else lo
         live.append([pos[c[0]], pos[c[1]]])
-        colours.append(cmap(norm(err)))
+        colours.append("#C8C8C8" if plain else cmap(norm(err)))
         widths.append(4.5 if c in highlight else 2.0)
     ax.add_collection(LineCollection(live, colors=colours, linewidths=widths, zorder=1,
                                      gid="couplers"))
@@ -142,7 +144,7 @@ def draw_score_map(device: Device, patch: Patch, placements, success, path=None,
 
     plt, fig, ax = _figure(device)
     pos = _positions(device)
-    _draw_couplers(ax, device, pos)
+    _draw_couplers(ax, device, pos, plain=True)       # the colour map is the score's here
     grid = np.array([p.physical for p in placements], dtype=np.int64).reshape(len(placements), -1)
     top = np.full(max(device.qubits) + 1, -np.inf)
     for col in range(grid.shape[1]):                 # per patch qubit, not per placement

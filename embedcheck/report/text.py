@@ -98,6 +98,8 @@ def render_find(d: dict) -> str:
                 out.append(f"  {m['off_coupler_gates']} off-coupler gate(s) over the experiment; "
                            f"pairs without a coupler: {pairs}")
                 out.append(f"       {_placement(m['qubits'])}")
+        if d.get("logical_note"):
+            out += ["", f"Note: {d['logical_note']}."]
         out += ["", d["caution"]]
         return "\n".join(_fold(line) for line in out)
     if s["complete"]:
@@ -383,6 +385,9 @@ def render_repair(d) -> str:
     if "fault_distance" in b:
         lines.append(f"  fault distance (fewest faults flipping the observable unseen): before "
                      f"{fd(b)}, after {fd(a)}")
+    for dropped in d.get("rejected_for_fault_distance", ()):
+        lines.append(f"  not kept, though cheaper: {dropped} (fault distance before -> after; "
+                     "a rewrite must not lower it)")
     if b["fidelity_product_note"]:
         lines.append(f"  (before: {b['fidelity_product_note']})")
     lines += [f"Wrote {d['wrote']['patch']} and {d['wrote']['circuit']} (your patch file is "
