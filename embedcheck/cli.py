@@ -394,7 +394,12 @@ def _run_find(args) -> int:
         payload["logical"] = report_data.logical_dict(patch, logical, top,
                                                       sampled=bool(args.monte_carlo))
         payload["ranked_by"] = logical.figure
-        if logical.figure == "undetected" and not np.any(logical.undetected):
+        if getattr(args, "undetected_is_zero", False):
+            payload["logical_note"] = ("no one or two faults flip the logical observable "
+                                       "unseen, so 'undetected' is 0 on every placement; ranked "
+                                       "by 'kept', with the sampled (decoded) logical errors of "
+                                       "the placements listed")
+        elif logical.figure == "undetected" and not np.any(logical.undetected):
             payload["logical_note"] = ("every placement scores 0 on 'undetected' (no one or two "
                                        "faults flip the observable unseen), so that column does "
                                        "not rank them; ties are broken by 'kept'")
@@ -409,8 +414,8 @@ def _run_find(args) -> int:
                                        "unseen (the circuit's fault distance is above 2), so "
                                        "the 'undetected' figure, taken to second order, is 0 on "
                                        "every placement and cannot rank them; ranked by "
-                                       "fidelity_product (--monte-carlo SHOTS --decode samples "
-                                       "decoded logical errors)")
+                                       "fidelity_product (add --monte-carlo SHOTS --decode to "
+                                       "sample decoded logical errors of the placements listed)")
     if args.monte_carlo and logical is None:
         payload.setdefault("logical_note", "--monte-carlo needs a patch with detectors and an "
                            "observable on which every circuit is swap-free; nothing sampled")
@@ -471,8 +476,11 @@ def _logical_ranking(args, device, patch, vetting):
         from .logical import undetected_zero_everywhere
         if undetected_zero_everywhere(patch):  # one circuit with every fault: 0 there, 0 anywhere
             args.undetected_is_zero = True
-            return None
-        figure = "undetected"
+            if not args.monte_carlo:
+                return None
+            figure = "kept"                      # sampled below, ranked by what is kept
+        else:
+            figure = "undetected"
     if not swap_free:
         return None
     require_detectors(patch)

@@ -81,13 +81,17 @@ def wilson(k: int, n: int, z: float = 1.96) -> tuple[float, float]:
 
     >>> tuple(round(x, 4) for x in wilson(5, 100))
     (0.0215, 0.1118)
+    >>> wilson(0, 2000)[0], wilson(7, 7)[1]
+    (0.0, 1.0)
     """
     if n == 0:
         return 0.0, 1.0
     p = k / n
     centre = (p + z * z / (2 * n)) / (1 + z * z / n)
     half = z * math.sqrt(p * (1 - p) / n + z * z / (4 * n * n)) / (1 + z * z / n)
-    return max(0.0, centre - half), min(1.0, centre + half)
+    low = 0.0 if k == 0 else max(0.0, centre - half)      # exact ends, not rounding dust
+    high = 1.0 if k == n else min(1.0, centre + half)
+    return low, high
 
 
 def require_detectors(patch: Patch) -> None:

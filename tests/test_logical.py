@@ -196,3 +196,22 @@ def test_auto_figure_falls_back_only_when_zero_on_every_placement(capsys):
                  str(data / "rep2_one_round.yaml")]) == 0
     out = capsys.readouterr().out
     assert "Ranked by undetected" in out and "no one or two faults" not in out
+
+
+def test_monte_carlo_is_sampled_when_the_lowest_order_is_zero(capsys):
+    # Distance 5: 'undetected' is 0 everywhere, so with --monte-carlo the placements are
+    # ranked by 'kept' and sampled, and decoded logical errors are reported.
+    import json
+    import tempfile
+    from pathlib import Path
+    from embedcheck.cli import main
+    from embedcheck.codes import family_yaml
+    with tempfile.TemporaryDirectory() as tmp:
+        path = Path(tmp) / "rep5.yaml"
+        path.write_text(family_yaml("repetition", distance=5, rounds=3))
+        assert main(["find", str(DEMO_CHIP), str(path), "--monte-carlo", "500", "--decode",
+                     "--top", "2", "--format", "json"]) == 0
+    data = json.loads(capsys.readouterr().out)
+    assert data["ranked_by"] == "kept" and "sampled" in data["logical_note"]
+    assert all(row["monte_carlo"]["decoded_logical_error"] is not None
+               for row in data["logical"]["top"])
