@@ -30,7 +30,7 @@ import numpy as np
 from .device import Device
 from .patch import Patch
 from .schedule import schedule_circuit
-from .search import SYMMETRIC_GATES, Placement, placement_grid
+from .search import SYMMETRIC_GATES, Placement, check_placements, placement_grid
 
 
 @dataclass(frozen=True)
@@ -92,6 +92,7 @@ class AuditReport:
 def audit_placement(device: Device, patch: Patch, placement: Placement, *,
                     router_estimate: bool = False, seed: int = 11) -> AuditReport:
     """Audit every circuit of `patch` on `placement` (exact), optionally with a router estimate."""
+    check_placements(device, patch, [placement])
     where = placement.as_dict(patch)
     times = dict(patch.experiment())
     audits = []

@@ -149,6 +149,21 @@ def parse_requirement(text: str) -> tuple[str, Bound]:
 def build(requirements=(), *, exclude_qubits=(), exclude_couplers=(), region=None,
           region_box=None, forbid_direction_fixes=False) -> Constraints:
     """Constraints from requirement strings and lists (what the command line and files give)."""
+    if isinstance(requirements, str):
+        requirements = [requirements]
+    for label, value in (("exclude_qubits", exclude_qubits), ("region", region)):
+        if isinstance(value, str) or (value is not None and not all(
+                isinstance(q, int) and not isinstance(q, bool) for q in value)):
+            raise InputError(f"{label} must be a list of qubit numbers, not {value!r}")
+    for c in exclude_couplers:
+        if isinstance(c, str) or len(tuple(c)) != 2:
+            raise InputError(f"exclude_couplers must be pairs of qubit numbers, not {c!r}")
+    if region_box is not None:
+        box = tuple(region_box)
+        if len(box) != 4 or not all(isinstance(x, (int, float)) for x in box) \
+                or box[0] > box[2] or box[1] > box[3]:
+            raise InputError(f"region_box must be (x0, y0, x1, y1) with x0 <= x1 and y0 <= y1, "
+                             f"not {region_box!r}")
     roles: dict[str, list] = {}
     couplers = []
     for text in requirements:

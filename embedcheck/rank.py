@@ -54,7 +54,7 @@ import numpy as np
 
 from .device import CalibrationArrays, Device
 from .patch import Patch
-from .search import Placement, placement_grid
+from .search import Placement, check_placements, placement_grid
 
 FIGURE = "fidelity_product"
 TERMS = ("two_qubit", "readout", "single_qubit", "reset", "idle")
@@ -206,7 +206,7 @@ def circuit_timing(patch: Patch, circuit: str, grid: np.ndarray, cal: Calibratio
 
 def rank_placements(device: Device, patch: Patch, placements: Sequence[Placement]) -> Ranking:
     """Score every placement with the cost model above and sort best first."""
-    grid = placement_grid(placements, patch.num_qubits)
+    grid = check_placements(device, patch, placements)
     terms, unscored = scores(device, patch, grid)
     total = sum(terms.values()) if terms else np.zeros(len(placements))
     # Fewest off-coupler (unscored) gates first, then best score; ties broken by the

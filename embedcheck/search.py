@@ -42,6 +42,7 @@ from .constraints import Constraints
 from .device import Device
 from .matcher import Host, grow, prepare
 from .graphs import odd_cycle_nodes, shortest_cycle, shortest_cycle_nodes
+from .io.errors import InputError, did_you_mean
 from .patch import Patch
 
 
@@ -96,7 +97,7 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
     `processes > 1` the chip's anchors are split among that many worker processes (the
     result is the same set; workers read the budget from the wall clock, not `clock`).
     """
-    names = tuple(patch.circuits) if circuits is None else tuple(circuits)
+    names = _check_request(patch, circuits, limit, budget_s, processes, max_maps)
     rules = constraints or Constraints()
     start = clock()
     reasons = necessary_conditions(device, patch, names, rules)
@@ -352,8 +353,55 @@ def _blame(device, patch, names, rules: Constraints, clock, budget_s) -> list[st
 
 def placement_grid(placements: Sequence[Placement], num_qubits: int) -> np.ndarray:
     """Placements as an int array of shape (placements, patch qubits), for vectorised scoring."""
-    return np.array([p.physical for p in placements], dtype=np.int64).reshape(
-        len(placements), num_qubits)
+    rows = [p.physical for p in placements]
+    if any(len(r) != num_qubits for r in rows):
+        bad = next(r for r in rows if len(r) != num_qubits)
+        raise InputError(f"a placement gives {len(bad)} physical qubits for a patch of "
+                         f"{num_qubits}")
+    return np.array(rows, dtype=np.int64).reshape(len(placements), num_qubits)
+
+
+def check_placements(device: Device, patch: Patch, placements: Sequence[Placement]) -> np.ndarray:
+    """The placements' grid (see `placement_grid`), after refusing (InputError) any that
+    is not one distinct chip qubit per patch qubit: the API takes placements from users,
+    not only from the search."""
+    grid = placement_grid(placements, patch.num_qubits)
+    if not len(grid):
+        return grid
+    top = max(max(device.qubits, default=0), int(grid.max()), 0) + 1
+    known = np.zeros(top + 1, dtype=bool)
+    known[list(device.qubits)] = True
+    inside = known[np.clip(grid, -1, top)]          # -1 lands on the last (False) entry
+    if not inside.all():
+        row, col = map(int, np.argwhere(~inside)[0])
+        raise InputError(f"placement {row + 1}: {patch.qubits[col]}={grid[row, col]} is not a "
+                         f"qubit of chip '{device.name}'")
+    ordered = np.sort(grid, axis=1)
+    repeated = (ordered[:, 1:] == ordered[:, :-1]).any(axis=1)
+    if repeated.any():
+        row = int(np.argmax(repeated))
+        raise InputError(f"placement {row + 1} puts two patch qubits on one chip qubit: "
+                         f"{placements[row].as_dict(patch)}")
+    return grid
+
+
+def _check_request(patch: Patch, circuits, limit, budget_s, processes, max_maps) -> tuple:
+    """The searched circuit names, after refusing what the CLI would refuse."""
+    if isinstance(circuits, str):
+        circuits = [circuits]
+    names = tuple(patch.circuits) if circuits is None else tuple(circuits)
+    for name in names:
+        if name not in patch.circuits:
+            raise InputError(f"the patch has no circuit '{name}'"
+                             f"{did_you_mean(str(name), list(patch.circuits))}")
+    for label, value, low in (("limit", limit, 1), ("max_maps", max_maps, 1),
+                              ("processes", processes, 1)):
+        if value is not None and (not isinstance(value, int) or isinstance(value, bool)
+                                  or value < low):
+            raise InputError(f"{label} must be a whole number of at least {low}, not {value!r}")
+    if budget_s is not None and not (isinstance(budget_s, (int, float)) and budget_s >= 0):
+        raise InputError(f"budget_s must be a number of seconds >= 0, not {budget_s!r}")
+    return names
 
 
 def necessary_conditions(device: Device, patch: Patch, circuits: Sequence[str],

@@ -135,3 +135,26 @@ def test_a_tiny_budget_never_reads_as_no_placement(capsys):
     assert data["complete"] is False and data["search"]["complete"] is False
     full = vet_patch(device, patch)
     assert full.complete and all(f.fits_alone for f in full.fits)
+
+
+def test_the_api_refuses_what_the_command_line_refuses():
+    # Bad requests and impossible placements are InputErrors with a reason, not KeyErrors,
+    # TypeErrors or silently accepted nonsense.
+    from embedcheck import InputError, audit_placement, load_device, load_patch, rank_placements
+    from embedcheck.search import Placement
+    from helpers import DEMO_CHIP, FIXED_PATCH
+    device, patch = load_device(DEMO_CHIP), load_patch(FIXED_PATCH)
+    for kwargs, words in (({"circuits": ["rund"]}, "did you mean 'round'"),
+                          ({"limit": "10"}, "limit must be a whole number"),
+                          ({"processes": 0}, "processes must be"),
+                          ({"budget_s": -1}, "budget_s must be")):
+        with pytest.raises(InputError, match=words):
+            find_placements(device, patch, **kwargs)
+    assert find_placements(device, patch, circuits="round", limit=1).circuits == ("round",)
+    for physical, words in (((1,) * 7, "two patch qubits on one chip qubit"),
+                            ((0, 1, 2, 3, 4, 5, 1000), "a0=1000 is not a qubit"),
+                            ((0, 1, 2), "gives 3 physical qubits for a patch of 7")):
+        with pytest.raises(InputError, match=words):
+            audit_placement(device, patch, Placement(physical))
+        with pytest.raises(InputError, match=words):
+            rank_placements(device, patch, [Placement(physical)])

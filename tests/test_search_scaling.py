@@ -231,3 +231,12 @@ def test_parts_that_fit_alone_but_not_side_by_side():
     odd = patch_from_edges([(0, 1), (1, 2), (2, 0), (3, 4)])
     result = find_placements(line5, odd)
     assert not result.placements
+
+
+def test_constraints_from_python_are_checked_like_the_command_line():
+    from embedcheck import InputError
+    for kwargs in ({"exclude_qubits": "3,17"}, {"region_box": (5, 0, 1, 1)},
+                   {"region_box": (0, 0, 1)}, {"exclude_couplers": ["3-4"]}):
+        with pytest.raises(InputError):
+            build(**kwargs)
+    assert build("ancilla: readout_error <= 0.03").roles     # one requirement as a string
