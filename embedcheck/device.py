@@ -150,21 +150,34 @@ class Device:
     @classmethod
     def from_graph(cls, graph, *, name: str, **kwargs) -> "Device":
         """A device from a networkx or rustworkx graph; node i (or node label i) is qubit i.
+        A directed graph's one-way arcs become native coupler directions.
 
         >>> import networkx as nx
         >>> Device.from_graph(nx.cycle_graph(4), name="square").couplers
         ((0, 1), (0, 3), (1, 2), (2, 3))
         """
+        from .io.errors import InputError
         if hasattr(graph, "edge_list"):               # rustworkx
             qubits = tuple(graph.node_indices())
-            edges = graph.edge_list()
+            edges = list(graph.edge_list())
+            directed = hasattr(graph, "in_degree")       # a PyDiGraph
         else:                                         # networkx
             qubits = tuple(graph.nodes)
-            edges = graph.edges()
-        if not all(isinstance(q, int) and q >= 0 for q in qubits):
-            raise ValueError("graph nodes must be non-negative integers "
+            edges = list(graph.edges())
+            directed = graph.is_directed()
+        if not all(isinstance(q, int) and not isinstance(q, bool) and q >= 0 for q in qubits):
+            raise InputError("graph nodes must be non-negative integers "
                              "(networkx.convert_node_labels_to_integers helps)")
-        couplers = tuple(sorted({pair(a, b) for a, b in edges if a != b}))
+        if not qubits:
+            raise InputError(f"the graph for chip '{name}' has no nodes")
+        loops = [a for a, b in edges if a == b]
+        if loops:
+            raise InputError(f"the graph for chip '{name}' has a self-loop at node {loops[0]}: a "
+                             "coupler joins two different qubits")
+        couplers = tuple(sorted({pair(a, b) for a, b in edges}))
+        if directed and "directed" not in kwargs:      # arcs one way only: native directions
+            arcs = set(edges)
+            kwargs["directed"] = {pair(a, b): (a, b) for a, b in arcs if (b, a) not in arcs}
         return cls(name=name, qubits=tuple(sorted(qubits)), couplers=couplers, **kwargs)
 
     def to_target(self):

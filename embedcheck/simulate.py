@@ -144,9 +144,9 @@ def fault_distance_at_most(patch: Patch, *, noise: float = 1e-3) -> int | None:
         return None
     if _spanned_by_detectors(patch):
         return math.inf
+    noisy = _generic_noise(patch, noise)         # outside the try: our errors stay ours
     try:
-        errors = _generic_noise(patch, noise).shortest_graphlike_error(
-            ignore_ungraphlike_errors=True)
+        errors = noisy.shortest_graphlike_error(ignore_ungraphlike_errors=True)
     except ValueError:
         return None
     return len(errors)

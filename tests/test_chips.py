@@ -191,3 +191,16 @@ def test_show_demo_chip_names_the_dead_coupler(capsys):
     assert main(["show", str(DEMO_CHIP)]) == 0
     out = capsys.readouterr().out
     assert "dead couplers 19-30" in out and "shortest cycle: 12" in out and "median" in out
+
+
+def test_graphs_become_chips_or_say_why_not():
+    # Reference: networkx's own graph (a directed one keeps its one-way arcs as directions).
+    import networkx as nx
+    from embedcheck import Device, InputError
+    d = Device.from_graph(nx.DiGraph([(0, 1), (1, 2), (2, 1)]), name="dg")
+    assert d.couplers == ((0, 1), (1, 2)) and dict(d.directed) == {(0, 1): (0, 1)}
+    assert d.runs_natively(0, 1) and not d.runs_natively(1, 0) and d.runs_natively(2, 1)
+    for graph, words in ((nx.Graph([((0, 0), (0, 1))]), "non-negative integers"),
+                         (nx.Graph(), "no nodes"), (nx.Graph([(0, 0), (0, 1)]), "self-loop")):
+        with pytest.raises(InputError, match=words):
+            Device.from_graph(graph, name="x")

@@ -4,7 +4,7 @@ from __future__ import annotations
 import difflib
 
 
-class InputError(Exception):
+class InputError(ValueError):
     """Bad input from a user file or argument. The command line prints `str(err)` and exits 2.
 
     >>> str(InputError("lost coupler", file="chip.yaml", line=7, key="couplers[3]"))
