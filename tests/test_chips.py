@@ -191,6 +191,7 @@ def test_show_demo_chip_names_the_dead_coupler(capsys):
     assert main(["show", str(DEMO_CHIP)]) == 0
     out = capsys.readouterr().out
     assert "dead couplers 19-30" in out and "shortest cycle: 12" in out and "median" in out
+    assert "drawing positions: x 0 to 18, y 0 to 6" in out          # for --region-box
 
 
 def test_graphs_become_chips_or_say_why_not():

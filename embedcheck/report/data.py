@@ -153,6 +153,15 @@ def calibration_summary(device: Device) -> dict:
     return out
 
 
+def _box(device: Device):
+    """[x0, y0, x1, y1] of the drawing positions (what --region-box selects in), or None."""
+    if not device.positions:
+        return None
+    xs = [xy[0] for xy in device.positions.values()]
+    ys = [xy[1] for xy in device.positions.values()]
+    return [min(xs), min(ys), max(xs), max(ys)]
+
+
 def chip_details(snapshots) -> dict:
     """What `show` prints for a chip: graph facts, dead parts, calibration per snapshot."""
     device = snapshots[-1]
@@ -165,6 +174,7 @@ def chip_details(snapshots) -> dict:
         "degree_histogram": {str(k): v for k, v in
                              degree_histogram(device.live_qubits, live).items()},
         "shortest_cycle": shortest_cycle(device.live_qubits, live),
+        "drawing_box": _box(device),
         "snapshots": [{"timestamp": d.calibration_timestamp,
                        "dead_qubits": sorted(d.dead_qubits),
                        "dead_couplers": [list(c) for c in sorted(d.dead_couplers)],

@@ -270,6 +270,10 @@ def render_chip(d: dict) -> str:
            f"({d['live_couplers']} live), native gate {d['native_two_qubit_gate']}",
            f"  live qubits by degree: {hist}",
            f"  shortest cycle: {cycle}"]
+    if d.get("drawing_box"):
+        x0, y0, x1, y1 = d["drawing_box"]
+        out.append(f"  drawing positions: x {x0:g} to {x1:g}, y {y0:g} to {y1:g} (what "
+                   "--region-box selects in; 'draw' shows them)")
     if d["directed_couplers"]:
         out.append(f"  directed couplers (native gate one way only): {len(d['directed_couplers'])}")
     for snap in d["snapshots"]:
