@@ -321,3 +321,22 @@ def test_bare_chips_and_empty_pictures_are_findings(tmp_path, capsys):
                  "--score-map", str(heat)]) == 0
     out = capsys.readouterr().out
     assert picture.exists() and not heat.exists() and "--score-map wrote nothing" in out
+
+
+@pytest.mark.parametrize("extra", [[], ["--budget-s", "0.000001"], ["--top", "all"],
+                                   ["--limit", "3"]])
+def test_find_json_follows_its_schema(capsys, extra, tmp_path):
+    # Reference: the JSON Schema validator (draft 2020-12) on our shipped schema.
+    import importlib.resources
+    import jsonschema
+    schema = json.loads(importlib.resources.files("embedcheck.schemas")
+                        .joinpath("find-report.schema.json").read_text())
+    jsonschema.Draft202012Validator.check_schema(schema)
+    for patch in (DEMO_PATCH, FIXED_PATCH):
+        assert main(["find", str(DEMO_CHIP), str(patch), "--format", "json",
+                     "--draw", str(tmp_path / "p.png")] + extra) == 0
+        jsonschema.validate(json.loads(capsys.readouterr().out), schema)
+    tiny = tmp_path / "tiny.yaml"
+    tiny.write_text(GOOD_CHIP)
+    assert main(["find", str(tiny), str(DEMO_PATCH), "--format", "json"] + extra) == 0
+    jsonschema.validate(json.loads(capsys.readouterr().out), schema)
