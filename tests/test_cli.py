@@ -340,3 +340,15 @@ def test_find_json_follows_its_schema(capsys, extra, tmp_path):
     tiny.write_text(GOOD_CHIP)
     assert main(["find", str(tiny), str(DEMO_PATCH), "--format", "json"] + extra) == 0
     jsonschema.validate(json.loads(capsys.readouterr().out), schema)
+
+
+def test_audit_json_follows_its_schema(capsys, tmp_path):
+    import importlib.resources
+    import jsonschema
+    schema = json.loads(importlib.resources.files("embedcheck.schemas")
+                        .joinpath("audit-report.schema.json").read_text())
+    jsonschema.Draft202012Validator.check_schema(schema)
+    for extra in ([], ["--router-estimate"], ["--write-qasm", str(tmp_path)]):
+        assert main(["audit", str(DEMO_CHIP), str(DEMO_PATCH), "--pick", "1", "--format",
+                     "json"] + extra) == 0
+        jsonschema.validate(json.loads(capsys.readouterr().out), schema)
