@@ -131,10 +131,12 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
         cap = min(x for x in (limit, None if max_maps is None else -(-max_maps // order))
                   if x is not None)
     cut_short = None
-    for block, why in _maps(device, chip, pattern, allowed, blocked, arcs,
-                            None if directed else autos, processes=processes, cap=cap,
-                            seconds=budget_s):
+    for block, why, reported in _maps(device, chip, pattern, allowed, blocked, arcs,
+                                      None if directed else autos, processes=processes,
+                                      cap=cap, seconds=budget_s):
         cut_short = cut_short or why
+        if reported and progress is not None:    # workers' count while they still run
+            progress(reported * order)
         if processes <= 1 and budget_s is not None and clock() - start > budget_s:
             stop = "budget"                  # checked first: budget_s=0 takes nothing
             break
@@ -180,11 +182,12 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
 
 def _maps(device, chip, pattern, allowed, blocked, arcs, autos, *, processes=1, cap=None,
           seconds=None):
-    """(block, why) pairs: blocks of raw maps (rows: chip node of pattern node 0, 1, ...),
-    one per symmetry orbit when `autos` is given, without the maps whose directional
-    gates run against a coupler's native direction when `arcs` is given. `why` is None,
-    or 'limit' / 'budget' when a worker process stopped its part early (at `cap` maps,
-    or after `seconds`)."""
+    """(block, why, reported) triples: blocks of raw maps (rows: chip node of pattern node
+    0, 1, ...), one per symmetry orbit when `autos` is given, without the maps whose
+    directional gates run against a coupler's native direction when `arcs` is given.
+    `why` is None, or 'limit' / 'budget' when a worker process stopped its part early (at
+    `cap` maps, or after `seconds`); `reported` is, while workers still run, how many maps
+    they have found so far (for progress), else 0."""
     n = chip.num_nodes()
     live = np.ones(n, dtype=bool)
     live[list(blocked)] = False
@@ -209,18 +212,26 @@ def _maps(device, chip, pattern, allowed, blocked, arcs, autos, *, processes=1, 
     job = (prep, arcs, native)
     if processes <= 1 or len(prep.start) < 2 * processes:
         for block in _filtered(job, (0, 1)):
-            yield block, None
+            yield block, None, 0
         return
     import multiprocessing
-    from concurrent.futures import ProcessPoolExecutor, as_completed
+    from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
     deadline = None if seconds is None else time.monotonic() + seconds
-    halt = multiprocessing.get_context().Event()     # set when the caller has enough
-    with ProcessPoolExecutor(processes, initializer=_start_worker, initargs=(halt,)) as pool:
+    context = multiprocessing.get_context()
+    halt = context.Event()                   # set when the caller has enough
+    counted = context.Value("q", 0)          # maps found by all workers so far (progress)
+    with ProcessPoolExecutor(processes, initializer=_start_worker,
+                             initargs=(halt, counted)) as pool:
         futures = [pool.submit(_run_part, job, (i, processes), cap, deadline)
                    for i in range(processes)]
         try:
-            for future in as_completed(futures):
-                yield future.result()
+            pending = set(futures)
+            while pending:
+                done, pending = wait(pending, timeout=0.5, return_when=FIRST_COMPLETED)
+                for future in done:
+                    yield future.result() + (0,)
+                if not done:                 # nothing back yet: tell how far the workers are
+                    yield np.zeros((0, prep.k), dtype=np.int64), None, counted.value
         finally:
             halt.set()                       # running workers stop at their next block
             for future in futures:
@@ -228,11 +239,12 @@ def _maps(device, chip, pattern, allowed, blocked, arcs, autos, *, processes=1, 
 
 
 _HALT = None
+_COUNTED = None
 
 
-def _start_worker(halt) -> None:
-    global _HALT
-    _HALT = halt
+def _start_worker(halt, counted) -> None:
+    global _HALT, _COUNTED
+    _HALT, _COUNTED = halt, counted
 
 
 def _filtered(job, part):
@@ -254,6 +266,9 @@ def _run_part(job, part, cap, deadline):
     for block in _filtered(job, part):
         blocks.append(block)
         count += len(block)
+        if _COUNTED is not None and len(block):
+            with _COUNTED.get_lock():
+                _COUNTED.value += len(block)
         if cap is not None and count >= cap:
             why = "limit"
             break

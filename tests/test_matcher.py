@@ -143,8 +143,10 @@ def test_worker_processes_find_the_same_placements():
     patch = patch_from_edges(list(piece.couplers))
     device = Device.from_lattice(heavy_hex(6, 6), name="hh")
     serial = find_placements(device, patch, limit=None)
-    split = find_placements(device, patch, limit=None, processes=2)
+    seen = []
+    split = find_placements(device, patch, limit=None, processes=2, progress=seen.append)
     assert split.complete and serial.complete
+    assert seen and seen[-1] == split.raw_maps                  # progress ends at the total
     assert set(split.placements) == set(serial.placements) and len(serial.placements) > 10
     assert split.raw_maps == serial.raw_maps
     capped = find_placements(device, patch, limit=5, processes=2)
