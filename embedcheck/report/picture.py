@@ -17,7 +17,8 @@ from ..device import Device
 from ..patch import Patch
 from ..search import Placement
 
-ROLE_STYLE = {"data": ("o", "#0072B2"), "flag": ("^", "#E69F00"), "ancilla": ("s", "#009E73")}
+ROLE_STYLE = {"data": ("o", "#0072B2"), "flag": ("D", "#E69F00"), "ancilla": ("s", "#009E73")}
+# (a diamond, not a triangle, for flags: wide enough to hold the name)
 DEAD = "#D55E00"
 
 
@@ -60,8 +61,8 @@ def _number_qubits(ax, device: Device, pos):
         return
     for q in device.qubits:
         x, y = pos[q]
-        ax.annotate(str(q), (x, y), textcoords="offset points", xytext=(0, -12), ha="center",
-                    fontsize=5, color="#444444", zorder=4, gid="qubit numbers")
+        ax.annotate(str(q), (x, y), textcoords="offset points", xytext=(0, -12.5), ha="center",
+                    fontsize=5.5, color="#333333", zorder=4, gid="qubit numbers")
 
 
 def _draw_couplers(ax, device: Device, pos, highlight=frozenset(), plain=False):
@@ -125,7 +126,7 @@ def draw_placement(device: Device, path: str | Path | None = None, *, patch: Pat
                 for name in patch.qubits_with_role(role):
                     x, y = pos[where[name]]
                     ax.annotate(name, (x, y), textcoords="offset points",
-                                xytext=(0, -1 if marker == "^" else 0), ha="center",
+                                xytext=(0, 0), ha="center",
                                 va="center", fontsize=6 if len(name) <= 3 else 4.5, color=ink,
                                 zorder=4, gid="patch qubit names")
     _number_qubits(ax, device, pos)
