@@ -100,7 +100,8 @@ def run_project(project: Project, *, cross_check_top: int | None = None,
 def check_pair(device: Device, patch: Patch, rules: Rules, *, limit: int = 10_000,
                budget_s: float = 60.0, cross_check_top: int = 3, seed: int = 11) -> PairResult:
     """Judge one chip x patch against `rules`."""
-    vetting = vet_patch(device, patch, limit=limit, budget_s=budget_s)
+    vetting = vet_patch(device, patch, limit=limit, budget_s=budget_s,
+                        round_may_route=rules.allowed("round") > 0)
     names = list(patch.circuits)
     allowance = np.array([rules.allowed(n) for n in names])
     ok_rows = (vetting.off_coupler <= allowance).all(axis=1) if len(names) else \

@@ -397,8 +397,9 @@ def _run_find(args) -> int:
         if getattr(args, "undetected_is_zero", False):
             payload["logical_note"] = ("no one or two faults flip the logical observable "
                                        "unseen, so 'undetected' is 0 on every placement; ranked "
-                                       "by 'kept', with the sampled (decoded) logical errors of "
-                                       "the placements listed")
+                                       "by 'kept', with the sampled logical errors of the "
+                                       "placements listed" + (", decoded" if args.decode else
+                                                               " (add --decode to decode them)"))
         elif logical.figure == "undetected" and not np.any(logical.undetected):
             payload["logical_note"] = ("every placement scores 0 on 'undetected' (no one or two "
                                        "faults flip the observable unseen), so that column does "

@@ -105,7 +105,7 @@ def noisy_circuit(device: Device, patch: Patch, placement: Placement, *, noise: 
                 free[q] = start + length
         end = max(free.values(), default=0.0)
         if noise:
-            for q in started:
+            for q in sorted(started, key=index.get):   # a fixed order: same circuit every run
                 _idle(body, index[q], end - free[q], qcal.get(where[q]))
         for _ in range(times):
             circuit += body

@@ -30,6 +30,7 @@ placed ones) so that every placement is complete.
 """
 from __future__ import annotations
 
+import numbers
 import time
 from collections import deque
 from dataclasses import dataclass
@@ -130,13 +131,14 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
     if (limit is not None or max_maps is not None) and len(placed) == patch.num_qubits:
         cap = min(x for x in (limit, None if max_maps is None else -(-max_maps // order))
                   if x is not None)
-    cut_short = None
+    cut_short, shown = None, 0
     for block, why, reported in _maps(device, chip, pattern, allowed, blocked, arcs,
                                       None if directed else autos, processes=processes,
                                       cap=cap, seconds=budget_s):
         cut_short = cut_short or why
-        if reported and progress is not None:    # workers' count while they still run
-            progress(reported * order)
+        if reported and progress is not None and reported * order > shown:
+            shown = reported * order              # workers' count while they still run
+            progress(shown)
         if processes <= 1 and budget_s is not None and clock() - start > budget_s:
             stop = "budget"                  # checked first: budget_s=0 takes nothing
             break
@@ -147,7 +149,8 @@ def find_placements(device: Device, patch: Patch, *, circuits: Sequence[str] | N
             used = _take(block, perms, seen, found, chip, patch, placed, blocked, allowed,
                          limit)
             raw += used * order              # each representative stands for its orbit
-            if progress is not None:
+            if progress is not None and raw > shown:
+                shown = raw                      # never backwards
                 progress(raw)
         if limit is not None and len(found) >= limit:
             stop = "limit"
@@ -381,12 +384,9 @@ def check_placements(device: Device, patch: Patch, placements: Sequence[Placemen
     is not one distinct chip qubit per patch qubit: the API takes placements from users,
     not only from the search."""
     grid = placement_grid(placements, patch.num_qubits)
-    if not len(grid):
+    if not grid.size:
         return grid
-    top = max(max(device.qubits, default=0), int(grid.max()), 0) + 1
-    known = np.zeros(top + 1, dtype=bool)
-    known[list(device.qubits)] = True
-    inside = known[np.clip(grid, -1, top)]          # -1 lands on the last (False) entry
+    inside = np.isin(grid, np.array(sorted(device.qubits), dtype=np.int64))
     if not inside.all():
         row, col = map(int, np.argwhere(~inside)[0])
         raise InputError(f"placement {row + 1}: {patch.qubits[col]}={grid[row, col]} is not a "
@@ -411,10 +411,10 @@ def _check_request(patch: Patch, circuits, limit, budget_s, processes, max_maps)
                              f"{did_you_mean(str(name), list(patch.circuits))}")
     for label, value, low in (("limit", limit, 1), ("max_maps", max_maps, 1),
                               ("processes", processes, 1)):
-        if value is not None and (not isinstance(value, int) or isinstance(value, bool)
-                                  or value < low):
+        if value is not None and (not isinstance(value, numbers.Integral)
+                                  or isinstance(value, bool) or value < low):
             raise InputError(f"{label} must be a whole number of at least {low}, not {value!r}")
-    if budget_s is not None and not (isinstance(budget_s, (int, float)) and budget_s >= 0):
+    if budget_s is not None and not (isinstance(budget_s, numbers.Real) and budget_s >= 0):
         raise InputError(f"budget_s must be a number of seconds >= 0, not {budget_s!r}")
     return names
 

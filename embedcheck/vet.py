@@ -77,11 +77,14 @@ class Vetting:
 def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
               budget_s: float | None = 60.0,
               progress: Callable[[int], None] | None = None,
-              constraints: Constraints | None = None, processes: int = 1) -> Vetting:
+              constraints: Constraints | None = None, processes: int = 1,
+              round_may_route: bool = False) -> Vetting:
     """Search, audit and rank `patch` on `device`; see the module docstring.
 
     `constraints` (or, when not given, the patch's own) restrict every search;
-    `processes` worker processes share the full search's anchors.
+    `processes` worker processes share the full search's anchors. A check round that
+    cannot fit ranks no layout for the other circuits alone, unless `round_may_route`
+    (a CI rule allows the round off-coupler gates, so layouts for the rest are wanted).
     """
     rules = constraints if constraints is not None else patch.constraints
     # A patch bigger than the chip is a finding (the search's first reason says so), not a
@@ -112,8 +115,8 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
     core: list[str] = []
     for name in gated:
         if name not in fitting:
-            if name == "round":              # a layout is chosen for its check rounds: one
-                break                        # that suits only the rest would mislead
+            if name == "round" and not round_may_route:   # a layout is chosen for its
+                break                        # rounds: one that suits only the rest misleads
             continue
         if not core:
             core.append(name)

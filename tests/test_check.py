@@ -266,3 +266,17 @@ def test_a_typo_in_the_project_rules_points_at_its_own_line(project_dir, capsys)
     code, out, _ = _run_check(project_dir, capsys)
     assert code == 2 and f"project.yaml:{line}: rules.max_off_coupler_gates.rund" in out.err
     assert "did you mean 'round'" in out.err
+
+
+def test_a_round_allowed_to_route_still_gets_layouts(tmp_path, capsys):
+    # The rotated surface code's round cannot fit heavy-hex; a project that allows the
+    # round off-coupler gates still wants layouts for the rest, judged by that allowance.
+    patch = ROOT / "tests" / "data" / "surface3_css_prep.yaml"
+    project = tmp_path / "project.yaml"
+    project.write_text(f"embedcheck_project: 1\nname: round-may-route\nchips: [{DEMO_CHIP}]\n"
+                       f"patches: [{patch}]\nrules:\n  max_off_coupler_gates: "
+                       "{round: 100, readout: 0, prep: 100}\n  min_placements: 1\n"
+                       f"reports: {{json: {tmp_path / 'r.json'}}}\n")
+    assert main(["check", str(project), "--cross-check-top", "0"]) == 0
+    report = json.loads((tmp_path / "r.json").read_text())
+    assert report["results"][0]["placements_within_allowance"] > 0

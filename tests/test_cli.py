@@ -348,7 +348,7 @@ def test_audit_json_follows_its_schema(capsys, tmp_path):
     schema = json.loads(importlib.resources.files("embedcheck.schemas")
                         .joinpath("audit-report.schema.json").read_text())
     jsonschema.Draft202012Validator.check_schema(schema)
-    for extra in ([], ["--router-estimate"], ["--write-qasm", str(tmp_path)]):
+    for extra in ([], ["--router-estimate"], ["--write-qasm", str(tmp_path)], ["--cross-check"]):
         assert main(["audit", str(DEMO_CHIP), str(DEMO_PATCH), "--pick", "1", "--format",
                      "json"] + extra) == 0
         jsonschema.validate(json.loads(capsys.readouterr().out), schema)

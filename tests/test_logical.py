@@ -215,3 +215,19 @@ def test_monte_carlo_is_sampled_when_the_lowest_order_is_zero(capsys):
     assert data["ranked_by"] == "kept" and "sampled" in data["logical_note"]
     assert all(row["monte_carlo"]["decoded_logical_error"] is not None
                for row in data["logical"]["top"])
+
+
+def test_the_noisy_circuit_is_the_same_in_every_process(tmp_path):
+    # Idle channels used to follow the iteration order of a set of qubit names, which
+    # changes with the hash seed; sampled figures then changed from run to run.
+    import subprocess
+    import sys
+    code = ("import sys; sys.path.insert(0, %r); from embedcheck import load_device, load_patch,"
+            " vet_patch; from embedcheck.noise import noisy_circuit; d = load_device(%r); "
+            "p = load_patch(%r); print(noisy_circuit(d, p, vet_patch(d, p).ranking.placements[0]))"
+            % (str(DEMO_CHIP.parent.parent), str(DEMO_CHIP),
+               str(DEMO_CHIP.parent.parent / "samples" / "flagged_weight4_coupler_prep.yaml")))
+    outs = {subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                           check=True, env={**__import__("os").environ, "PYTHONHASHSEED": s}
+                           ).stdout for s in ("1", "2", "3")}
+    assert len(outs) == 1 and "PAULI_CHANNEL_1" in outs.pop()

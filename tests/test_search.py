@@ -158,3 +158,20 @@ def test_the_api_refuses_what_the_command_line_refuses():
             audit_placement(device, patch, Placement(physical))
         with pytest.raises(InputError, match=words):
             rank_placements(device, patch, [Placement(physical)])
+
+
+def test_empty_patches_numpy_numbers_and_huge_qubit_numbers():
+    import numpy as np
+    from embedcheck import InputError, rank_placements, vet_patch
+    from embedcheck.patch import Patch
+    from embedcheck.search import Placement
+    from helpers import DEMO_CHIP
+    from embedcheck import load_device, load_patch
+    from helpers import FIXED_PATCH
+    device, patch = load_device(DEMO_CHIP), load_patch(FIXED_PATCH)
+    empty = Patch("empty", (), {}, {})
+    assert len(vet_patch(device, empty).ranking.placements) == 1   # the empty placement
+    assert find_placements(device, patch, limit=np.int64(3), processes=np.int64(1),
+                           budget_s=np.float32(5)).placements
+    with pytest.raises(InputError, match="is not a qubit"):
+        rank_placements(device, patch, [Placement((0, 1, 2, 3, 4, 5, 10**11))])
