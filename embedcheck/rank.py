@@ -311,6 +311,12 @@ def sensitivity(device: Device, patch: Patch, placement: Placement,
         e = cal.two_qubit_error
         out.append(Sensitivity(f"coupler {p}-{q}", "two_qubit_error", e, n * np.log1p(-e),
                                -n / (1 - e)))
+    grid = placement_grid([placement], patch.num_qubits)
+    arrays = device.calibration_arrays()          # built once per device, then cached
+    timings = {name: circuit_timing(patch, name, grid, arrays) for name, _ in patch.experiment()}
+    idle_ns = {(name, again): idle_times(patch, name, grid, arrays, again=again,
+                                         timing=timings[name])[0]
+               for name, again, _ in patch.runs()}      # every qubit's, scheduled once
     for i, phys in enumerate(where):
         cal = device.qubit_calibration.get(phys)
         if cal is None:
@@ -322,11 +328,9 @@ def sensitivity(device: Device, patch: Patch, placement: Placement,
                 out.append(Sensitivity(f"qubit {phys}", field, e, count * np.log1p(-e),
                                        -count / (1 - e)))
         if cal.t1_us and cal.t2_us:
-            grid = placement_grid([placement], patch.num_qubits)
-            arrays = device.calibration_arrays()      # built once per device, then cached
             part1 = part2 = d_t1 = d_t2 = 0.0
             for name, again, times in patch.runs():
-                t = idle_times(patch, name, grid, arrays, again=again)[0, i] / 1000.0
+                t = idle_ns[(name, again)][i] / 1000.0
                 p1 = -np.expm1(-t / cal.t1_us) / 4          # the T1 part of p_idle
                 p2 = -np.expm1(-t / cal.t2_us) / 2          # the T2 part
                 p_idle = p1 + p2
