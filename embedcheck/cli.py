@@ -389,12 +389,12 @@ def _run_find(args) -> int:
     payload = report_data.find_dict(vetting, top=top)
     if args.decode and not args.monte_carlo:
         raise InputError("--decode decodes sampled shots: give --monte-carlo SHOTS too")
-    logical = _logical_ranking(args, device, patch, vetting)
+    logical, undetected_is_zero = _logical_ranking(args, device, patch, vetting)
     if logical is not None:
         payload["logical"] = report_data.logical_dict(patch, logical, top,
                                                       sampled=bool(args.monte_carlo))
         payload["ranked_by"] = logical.figure
-        if getattr(args, "undetected_is_zero", False):
+        if undetected_is_zero:
             payload["logical_note"] = ("no one or two faults flip the logical observable "
                                        "unseen, so 'undetected' is 0 on every placement; ranked "
                                        "by 'kept', with the sampled logical errors of the "
@@ -410,7 +410,7 @@ def _run_find(args) -> int:
             payload["logical_note"] = ("the logical observable is a parity of the declared "
                                        "detectors, so no fault flips it unseen and the logical "
                                        "figures are 0 everywhere; ranked by fidelity_product")
-        elif getattr(args, "undetected_is_zero", False):
+        elif undetected_is_zero:
             payload["logical_note"] = ("no one or two faults flip the logical observable "
                                        "unseen (the circuit's fault distance is above 2), so "
                                        "the 'undetected' figure, taken to second order, is 0 on "
@@ -461,29 +461,28 @@ def _run_find(args) -> int:
 
 
 def _logical_ranking(args, device, patch, vetting):
-    """Rank by a logical figure when asked (or by 'auto' when it applies)."""
+    """(ranking by a logical figure when asked, or by 'auto' when it applies, else None;
+    whether 'undetected' is 0 on every placement, so 'auto' could not use it)."""
     from .logical import rank_by_logical, require_detectors
     figure = args.figure
     swap_free = [p for p, off in zip(vetting.ranking.placements, vetting.ranking.unscored_gates)
                  if off == 0] if vetting.all_swap_free else []
+    zero = False
     if figure == "fidelity_product":
-        return None
+        return None, zero
     if figure == "auto":
         if not swap_free or not patch.detectors or not patch.observable:
-            return None
+            return None, zero
         from .simulate import _spanned_by_detectors
         if _spanned_by_detectors(patch):     # no fault flips it unseen: every score is 0
-            return None
+            return None, zero
         from .logical import undetected_zero_everywhere
-        if undetected_zero_everywhere(patch):  # one circuit with every fault: 0 there, 0 anywhere
-            args.undetected_is_zero = True
-            if not args.monte_carlo:
-                return None
-            figure = "kept"                      # sampled below, ranked by what is kept
-        else:
-            figure = "undetected"
+        zero = undetected_zero_everywhere(patch)   # every fault at once: 0 there, 0 anywhere
+        if zero and not args.monte_carlo:
+            return None, zero
+        figure = "kept" if zero else "undetected"   # kept: sampled below, ranked by what is kept
     if not swap_free:
-        return None
+        return None, zero
     require_detectors(patch)
     _sanity(patch, patch.source)
     progress = _progress()
@@ -496,7 +495,7 @@ def _logical_ranking(args, device, patch, vetting):
                           if progress else None)
     if progress:
         print("\r" + " " * 40 + "\r", end="", file=sys.stderr)
-    return out
+    return out, zero
 
 
 def _run_repair(args) -> int:
