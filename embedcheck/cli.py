@@ -16,7 +16,8 @@ import numpy as np
 from . import __version__
 from .audit import audit_placement
 from .io.chipfile import load_device, load_snapshots
-from .io.writers import family_chip_yaml, write_atomic
+from .io.files import Outputs, forget_inputs, read_input
+from .io.writers import family_chip_yaml
 from .lattices import FAMILIES, build_family
 from .io.errors import InputError, did_you_mean
 from .io.patchfile import load_patch
@@ -33,6 +34,7 @@ class _Parser(argparse.ArgumentParser):
 
 
 def main(argv: list[str] | None = None) -> int:
+    forget_inputs()
     try:
         args = _parser().parse_args(argv)
         if not getattr(args, "command", None):
@@ -127,7 +129,10 @@ def _parser() -> argparse.ArgumentParser:
                        help="exit 1 when any circuit needs routing")
     audit.add_argument("--write-qasm", metavar="FOLDER",
                        help="write each swap-free circuit, placed on physical qubits in the "
-                            "chip's native gates, as FOLDER/<circuit>.qasm (OpenQASM 3)")
+                            "chip's native gates, as FOLDER/<circuit>.qasm (OpenQASM 3); "
+                            "existing files are kept unless --force")
+    audit.add_argument("--force", action="store_true",
+                       help="with --write-qasm, replace existing <circuit>.qasm files")
     audit.set_defaults(run=_run_audit)
 
     valid = sub.add_parser("validate", help="check chip and patch files and say what is wrong")
@@ -197,7 +202,9 @@ def _parser() -> argparse.ArgumentParser:
     gen.add_argument("--columns", type=_positive_int)
     gen.add_argument("--size", type=_positive_int, help="qubits, for line and ring")
     gen.add_argument("--name", help="chip name (default: from the family and size)")
-    gen.add_argument("--output", "-o", help="file to write (default: standard output)")
+    gen.add_argument("--output", "-o", help="file to write (default: standard output); an "
+                     "existing file is kept unless --force")
+    gen.add_argument("--force", action="store_true", help="replace an existing --output file")
     gen.add_argument("--format", choices=("text", "json"), default="text",
                      help="json: one object with the chip file's text")
     gen.set_defaults(run=_run_generate)
@@ -376,9 +383,12 @@ def _run_find(args) -> int:
     if by not in ("worst", "mean") and not re.fullmatch(r"q(0(\.\d+)?|1(\.0*)?)", by):
         raise InputError(f"--over-snapshots: '{by}' should be worst, mean or q<fraction> "
                          "such as q0.25")
-    for target in (args.draw, args.score_map):
+    outputs = Outputs()
+    for target, option in ((args.draw, "--draw"), (args.score_map, "--score-map")):
         if target:
-            _check_picture_path(target)
+            _check_picture_path(target, option)
+            outputs.claim(target, option=option)
+    pictures: dict = {}
     progress = _progress()
     vetting = vet_patch(device, patch, limit=args.limit, budget_s=args.budget_s,
                         progress=progress, constraints=_constraints_from(args, patch, device),
@@ -433,12 +443,13 @@ def _run_find(args) -> int:
     from .report.picture import draw_placement, draw_score_map
     if args.draw and vetting.ranking.placements:
         best = logical.placements[0] if logical is not None else vetting.ranking.placements[0]
-        draw_placement(device, args.draw, patch=patch, placement=best,
-                       title=f"{patch.name} on {device.name}: best placement")
+        pictures[args.draw] = _picture(args.draw, draw_placement(
+            device, None, patch=patch, placement=best,
+            title=f"{patch.name} on {device.name}: best placement"))
         payload["pictures"] = {**payload.get("pictures", {}), "placement": args.draw}
     elif args.draw:                          # nothing to place: the chip alone, titled so
-        draw_placement(device, args.draw,
-                       title=f"{device.name}: no placement of {patch.name} to draw")
+        pictures[args.draw] = _picture(args.draw, draw_placement(
+            device, None, title=f"{device.name}: no placement of {patch.name} to draw"))
         payload["pictures"] = {**payload.get("pictures", {}), "placement": args.draw}
     if args.score_map and not vetting.ranking.placements:
         payload["logical_note"] = (payload.get("logical_note", "") + "; " if
@@ -450,12 +461,14 @@ def _run_find(args) -> int:
                 if logical.figure == "undetected" else logical.kept
             label = "-log10 undetected rate" if logical.figure == "undetected" else \
                 "kept fraction"
-            draw_score_map(device, patch, logical.placements, values, args.score_map,
-                           label=f"best {label} using it (higher is better)")
+            figure = draw_score_map(device, patch, logical.placements, values, None,
+                                    label=f"best {label} using it (higher is better)")
         else:
-            draw_score_map(device, patch, vetting.ranking.placements, vetting.ranking.success,
-                           args.score_map)
+            figure = draw_score_map(device, patch, vetting.ranking.placements,
+                                    vetting.ranking.success, None)
+        pictures[args.score_map] = _picture(args.score_map, figure)
         payload["pictures"] = {**payload.get("pictures", {}), "score_map": args.score_map}
+    outputs.commit(pictures)
     _emit(args, payload, render_find(payload))
     return 1 if args.strict and not vetting.all_swap_free else 0
 
@@ -507,11 +520,9 @@ def _run_repair(args) -> int:
     qasm_path = out.with_name(f"{out.stem}_{args.circuit}.qasm")
     if Path(args.patch).suffix.lower() not in (".yaml", ".yml"):
         raise InputError("repair writes a new YAML patch file: give a YAML patch")
-    for target in (out, qasm_path):
-        if target.exists():
-            raise InputError("will not overwrite an existing file", file=str(target))
-    if not out.resolve().parent.is_dir():
-        raise InputError(f"folder '{out.parent}' does not exist", file=str(out))
+    outputs = Outputs()
+    outputs.claim(out, option="--output", overwrite=False)
+    outputs.claim(qasm_path, option="--output (its circuit file)", overwrite=False)
     if args.placement is not None:
         placement = _parse_placement(args.placement, patch, device)
     else:
@@ -533,7 +544,7 @@ def _run_repair(args) -> int:
               "nothing written.")
         return 0
     if args.method == "product":
-        return _run_projection(args, device, patch, placement, out, qasm_path)
+        return _run_projection(args, device, patch, placement, out, qasm_path, outputs)
     repair = repair_preparation(device, patch, placement, circuit=args.circuit)
     for figures in (repair.before, repair.after):       # JSON has no infinity
         if figures.get("fault_distance") == float("inf"):
@@ -545,8 +556,7 @@ def _run_repair(args) -> int:
               f"rewritten onto the couplers of\n// chip '{device.name}' at "
               + " ".join(f"{q}={p}" for q, p in placement.as_dict(patch).items())
               + f"\n// method: {repair.method}; proof: {repair.proof}\n")
-    write_atomic(qasm_path, header + repair.qasm)
-    write_atomic(out, new_text)
+    outputs.commit({qasm_path: header + repair.qasm, out: new_text})
     payload = {"tool": "embedcheck", "version": __version__, "command": "repair",
                "circuit": repair.circuit, "method": repair.method, "proven": repair.proven,
                "proof": repair.proof, "helpers": list(repair.helpers),
@@ -559,7 +569,7 @@ def _run_repair(args) -> int:
     return 0
 
 
-def _run_projection(args, device, patch, placement, out, qasm_path) -> int:
+def _run_projection(args, device, patch, placement, out, qasm_path, outputs) -> int:
     from pathlib import Path
 
     from .repair import project_preparation
@@ -571,8 +581,7 @@ def _run_projection(args, device, patch, placement, out, qasm_path) -> int:
                               "check rounds project")
     header = (f"// Product-state preparation by embedcheck for circuit '{args.circuit}' of "
               f"patch '{patch.name}';\n// the check rounds project it; {projection.proof}\n")
-    write_atomic(qasm_path, header + projection.qasm)
-    write_atomic(out, text)
+    outputs.commit({qasm_path: header + projection.qasm, out: text})
     payload = {"tool": "embedcheck", "version": __version__, "command": "repair",
                "method": "product", "circuit": args.circuit, "basis": projection.basis,
                "proof": projection.proof, "frame_corrections": list(projection.corrections),
@@ -597,12 +606,21 @@ def _repaired_yaml(source, target, circuit, qasm_name, drop=(), how="rewritten")
     from pathlib import Path
 
     import yaml
-    data = yaml.safe_load(source.read_text(encoding="utf-8"))
+    data = yaml.safe_load(read_input(source))
+    folder = target.resolve().parent
     for name, spec in data["circuits"].items():
         for key in ("file", "stim"):
             if key in spec:
                 full = (source.parent / spec[key]).resolve()
-                spec[key] = os.path.relpath(full, target.resolve().parent)
+                if folder in full.parents:
+                    spec[key] = os.path.relpath(full, folder)
+                elif key == "file":        # a patch reads circuit files only below itself
+                    spec.pop("file")
+                    spec["qasm"] = read_input(full, what="circuit file")
+                else:
+                    raise InputError(f"circuit '{name}' is a stim file outside the folder of "
+                                     f"--output; write the repaired patch beside {source.name}",
+                                     file=str(target))
     data["circuits"][circuit] = {"file": qasm_name,
                                  "description": f"repaired by embedcheck from {source.name}"}
     if drop and "detectors" in data:
@@ -616,27 +634,35 @@ def _repaired_yaml(source, target, circuit, qasm_name, drop=(), how="rewritten")
             f"{qasm_name}.\n" + yaml.safe_dump(data, sort_keys=False, width=100))
 
 
-def _check_picture_path(target: str) -> None:
+def _check_picture_path(target: str, option: str) -> None:
     from pathlib import Path
     path = Path(target)
     if path.suffix.lower() not in (".png", ".svg"):
-        raise InputError(f"pictures are written as .png or .svg, not '{path.suffix or path.name}'",
-                         file=target)
-    if not path.resolve().parent.is_dir():
-        raise InputError(f"folder '{path.parent}' does not exist", file=target)
+        raise InputError(f"{option}: pictures are written as .png or .svg, not "
+                         f"'{path.suffix or path.name}'", file=target)
+
+
+def _picture(target: str, figure) -> bytes:
+    """A drawn figure as the bytes of `target`'s format (.png or .svg)."""
+    from pathlib import Path
+
+    from .report.picture import picture_bytes
+    return picture_bytes(figure, Path(target).suffix.lower().lstrip("."))
 
 
 def _run_draw(args) -> int:
     from .report.picture import draw_placement, draw_score_map
-    _check_picture_path(args.output)
+    _check_picture_path(args.output, "--output")
     device = load_device(args.chip)
-    if args.patch is None:
+    patch = load_patch(args.patch) if args.patch is not None else None
+    outputs = Outputs()
+    outputs.claim(args.output, option="--output")
+    if patch is None:
         if args.placement or args.pick or args.score_map:
             raise InputError("--placement, --pick and --score-map need a patch file")
-        draw_placement(device, args.output)
+        figure = draw_placement(device, None)
         text = f"wrote {args.output}: chip '{device.name}'"
     else:
-        patch = load_patch(args.patch)
         if args.placement is not None:
             placement = _parse_placement(args.placement, patch, device)
         else:
@@ -645,8 +671,9 @@ def _run_draw(args) -> int:
                 raise InputError(f"patch '{patch.name}' has no placement on chip "
                                  f"'{device.name}' to draw (see 'embedcheck find')")
             if args.score_map:
-                draw_score_map(device, patch, vetting.ranking.placements,
-                               vetting.ranking.success, args.output)
+                figure = draw_score_map(device, patch, vetting.ranking.placements,
+                                        vetting.ranking.success, None)
+                outputs.commit({args.output: _picture(args.output, figure)})
                 _emit(args, {"tool": "embedcheck", "command": "draw", "file": args.output},
                       f"wrote {args.output}: where '{patch.name}' does best on '{device.name}'")
                 return 0
@@ -655,8 +682,9 @@ def _run_draw(args) -> int:
                 raise InputError(f"--pick {k}: 'find' ranks only "
                                  f"{len(vetting.ranking.placements)} placement(s)")
             placement = vetting.ranking.placements[k - 1]
-        draw_placement(device, args.output, patch=patch, placement=placement)
+        figure = draw_placement(device, None, patch=patch, placement=placement)
         text = f"wrote {args.output}: '{patch.name}' on '{device.name}'"
+    outputs.commit({args.output: _picture(args.output, figure)})
     _emit(args, {"tool": "embedcheck", "version": __version__, "command": "draw",
                  "file": args.output}, text)
     return 0
@@ -664,6 +692,16 @@ def _run_draw(args) -> int:
 
 def _run_audit(args) -> int:
     device, patch = load_device(args.chip), load_patch(args.patch)
+    outputs = Outputs()
+    if args.write_qasm or args.router_estimate:
+        _need_qasm(patch, "--write-qasm" if args.write_qasm else "--router-estimate")
+    if args.write_qasm:
+        from pathlib import Path
+        folder = Path(args.write_qasm)
+        if not folder.is_dir():
+            raise InputError(f"--write-qasm: folder '{args.write_qasm}' does not exist")
+        for name in patch.circuits:
+            outputs.claim(folder / f"{name}.qasm", option="--write-qasm", overwrite=args.force)
     if args.placement is not None:
         placement = _parse_placement(args.placement, patch, device)
     else:
@@ -675,7 +713,8 @@ def _run_audit(args) -> int:
         placement = vetting.ranking.placements[args.pick - 1]
     report = audit_placement(device, patch, placement, router_estimate=args.router_estimate,
                              seed=args.seed)
-    written = _write_placed(args.write_qasm, device, patch, report) if args.write_qasm else None
+    written = _write_placed(args.write_qasm, device, patch, report, outputs) \
+        if args.write_qasm else None
     ranking = rank_placements(device, patch, [placement])
     score = report_data.placement_rows(patch, ranking, _zeros(patch), 1)[0]
     payload = {"tool": "embedcheck", "version": __version__, "command": "audit",
@@ -697,26 +736,29 @@ def _run_audit(args) -> int:
     return 1 if args.strict and not report.swap_free else 0
 
 
-def _write_placed(folder, device, patch, report) -> dict:
+def _need_qasm(patch, option: str) -> None:
+    """qiskit reads our circuits from their OpenQASM text; a stim circuit has none."""
+    for name, circuit in patch.circuits.items():
+        if circuit.qasm is None:
+            raise InputError(f"{option} needs OpenQASM circuits, and circuit '{name}' of patch "
+                             f"'{patch.name}' comes from a stim file", file=patch.source)
+
+
+def _write_placed(folder, device, patch, report, outputs) -> dict:
     """Write each swap-free circuit as placed OpenQASM 3; say why any other is not written."""
     from pathlib import Path
 
     from .qiskit_bridge import placed_qasm3
 
     target = Path(folder)
-    if not target.is_dir():
-        raise InputError(f"--write-qasm: folder '{folder}' does not exist")
     texts, skipped = {}, {}
     for c in report.circuits:
         if c.swap_free:
             texts[c.circuit] = placed_qasm3(device, patch, c.circuit, report.placement)
         else:
             skipped[c.circuit] = f"needs routing ({len(c.off_coupler)} off-coupler gates)"
-    files = {}
-    for name, text in texts.items():
-        path = target / f"{name}.qasm"
-        write_atomic(path, text)
-        files[name] = str(path)
+    files = {name: str(target / f"{name}.qasm") for name in texts}
+    outputs.commit({files[name]: text for name, text in texts.items()})
     return {"files": files, "not_written": skipped}
 
 
@@ -791,15 +833,21 @@ def _run_check(args) -> int:
     from .report.sarif import render_sarif
     from .report.text import render_check
 
+    if args.fail_on_worse and not args.baseline:
+        raise InputError("--fail-on-worse compares with a previous report: give --baseline FILE")
     project = load_project(args.project)
     targets = dict(project.reports)
     for kind in ("json", "markdown", "junit", "sarif"):
         if getattr(args, kind):
             targets[kind] = getattr(args, kind)
-    for kind, target in targets.items():
-        if not Path(target).resolve().parent.is_dir():
-            raise InputError(f"--{kind}: folder for '{target}' does not exist")
     baseline = _read_baseline(args.baseline) if args.baseline else None
+    # Every file the project names is an input, read now or later: no report may land on
+    # one, nor on another report. The claims also check that every folder is writable.
+    outputs = Outputs(inputs=[path for path, _ in project.chips]
+                      + [entry.file for entry in project.patches])
+    for kind, target in targets.items():
+        where = f"--{kind}" if getattr(args, kind) else f"reports.{kind}"
+        outputs.claim(target, option=where)
     progress = _progress()
     result = run_project(project, cross_check_top=args.cross_check_top,
                          progress=(lambda msg: print(f"\r  checking {msg} ...", end="",
@@ -814,9 +862,7 @@ def _run_check(args) -> int:
                "markdown": lambda: render_markdown(payload),
                "junit": lambda: render_junit(payload),
                "sarif": lambda: json.dumps(render_sarif(payload), indent=2) + "\n"}
-    texts = {kind: writers[kind]() for kind in targets}      # render all, then write all
-    for kind, target in targets.items():
-        write_atomic(target, texts[kind])
+    outputs.commit({target: writers[kind]() for kind, target in targets.items()})
     _emit(args, payload, render_check(payload))
     if result.internal_errors:
         print("embedcheck: internal error: the exact audit and qiskit's transpiler disagree "
@@ -828,11 +874,7 @@ def _run_check(args) -> int:
 
 def _read_baseline(path: str) -> dict:
     try:
-        data = json.loads(open(path, encoding="utf-8").read())
-    except FileNotFoundError:
-        raise InputError("baseline report not found", file=path) from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot read baseline report: {exc}", file=path) from None
+        data = json.loads(read_input(path, what="baseline report"))
     except json.JSONDecodeError as exc:
         raise InputError(f"baseline is not JSON: {exc.msg}", file=path, line=exc.lineno) from None
     if not isinstance(data, dict) or data.get("command") != "check":
@@ -846,6 +888,9 @@ def _run_code(args) -> int:
 
     from .codes import family_yaml
     from .simulate import check_detectors, fault_distance, fault_distance_at_most
+    outputs = Outputs()
+    if args.output:
+        outputs.claim(args.output, option="--output", overwrite=False)
     try:
         text = family_yaml(args.family, distance=args.distance, rounds=args.rounds,
                            basis=args.basis, prep=args.prep)
@@ -863,9 +908,7 @@ def _run_code(args) -> int:
     if distance is None and patch.observable:         # too big for the exhaustive search
         bound = fault_distance_at_most(patch)
     if args.output:
-        if Path(args.output).exists():
-            raise InputError("will not overwrite an existing file", file=args.output)
-        write_atomic(args.output, text)
+        outputs.commit({args.output: text})
         if bound is not None:
             shown = (f"at most {bound} (graphlike faults only: the exhaustive search is "
                      f"skipped above 150 detectors)")
@@ -918,7 +961,9 @@ def _run_generate(args) -> int:
         raise InputError(str(exc)) from None
     text = family_chip_yaml(args.family, name, **size)
     if args.output:
-        write_atomic(args.output, text)
+        outputs = Outputs()
+        outputs.claim(args.output, option="--output", overwrite=args.force)
+        outputs.commit({args.output: text})
         print(f"wrote {args.output}: chip '{name}' with PLACEHOLDER calibration", file=sys.stderr)
     if args.format == "json":
         _emit(args, {"tool": "embedcheck", "version": __version__, "command": "generate",
@@ -948,12 +993,7 @@ def _kind_of(path: str) -> str:
     from pathlib import Path
     if Path(path).suffix.lower() in (".stim", ".qasm", ".qasm2", ".qasm3"):
         return "patch"
-    try:
-        text = open(path, encoding="utf-8").read()
-    except FileNotFoundError:
-        raise InputError("file not found", file=path) from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot read file: {exc}", file=path) from None
+    text = read_input(path)
     m = re.search(r"^embedcheck_(chip|patch)\s*:", text, re.M)
     if not m:
         raise InputError("not a chip or patch file: it needs a version key "

@@ -177,9 +177,11 @@ def test_allowance_makes_it_pass_and_baseline_says_what_changed(project_dir, cap
     assert any("passed before" not in b and "placements within allowance 0 -> 21" in b
                for b in base["better"]), base
     assert base["worse"] == []
-    # Now make it worse: a baseline where everything was fine.
+    # The same run again against that report (copied: a report never overwrites its baseline).
+    previous = project_dir / "previous.json"
+    previous.write_bytes(reports["json"].read_bytes())
     code, out, _ = _run_check(project_dir, capsys, "--cross-check-top", "0",
-                              "--baseline", str(reports["json"]), "--fail-on-worse")
+                              "--baseline", str(previous), "--fail-on-worse")
     assert code == 0                                     # same as the baseline: nothing worse
 
 

@@ -18,6 +18,7 @@ from pathlib import Path
 from ..device import CouplerCalibration, Device, QubitCalibration, pair
 from ..lattices import FAMILIES, Lattice, build_family, cut
 from .errors import InputError
+from .files import note_input
 from .yamlfile import Document, read_yaml
 
 _QUBIT_KEYS = ("readout_error", "single_qubit_error", "reset_error", "t1_us", "t2_us",
@@ -34,6 +35,7 @@ def load_snapshots(path: str | Path) -> tuple[Device, ...]:
     """Every calibration snapshot of a chip file or a folder of chip files, oldest first."""
     path = Path(path)
     if path.is_dir():
+        note_input(path)
         files = sorted(p for p in path.iterdir() if p.suffix in (".yaml", ".yml"))
         if not files:
             raise InputError("the folder holds no .yaml chip files", file=str(path))

@@ -12,6 +12,7 @@ with stim's detectors and observable.
 """
 from __future__ import annotations
 
+import os
 import re
 from pathlib import Path
 from typing import Mapping
@@ -19,6 +20,7 @@ from typing import Mapping
 from ..patch import (EXPERIMENT_ORDER, ROLES, Circuit, Detector, Operation, Patch, _natural,
                      experiment_order, infer_roles)
 from .errors import InputError, did_you_mean
+from .files import read_input
 from .qasm import read_qasm
 from .stimfile import load_stim, read_stim
 from .yamlfile import Document, read_yaml
@@ -30,10 +32,7 @@ def load_patch(path: str | Path) -> Patch:
     if suffix == ".stim":
         return patch_from_stim_experiment(load_stim(path), name=Path(path).stem, source=str(path))
     if suffix in (".qasm", ".qasm3", ".qasm2"):
-        try:
-            text = Path(path).read_text(encoding="utf-8")
-        except FileNotFoundError:
-            raise InputError("file not found", file=str(path)) from None
+        text = read_input(path)
         ops = read_qasm(text, file=str(path))
         return _with_roles(Path(path).stem, {"round": Circuit("round", tuple(ops), text, str(path))},
                            rounds=1, source=str(path))
@@ -227,17 +226,39 @@ def _circuit(doc: Document, name: str, spec: dict) -> Circuit:
             ops = [replace(op, line=first) for op in ops]
         return Circuit(name, tuple(ops), text, file)
     key = given[0]
-    target = Path(doc.file).parent / spec[key]
-    if not target.is_file():
-        raise doc.error(path + (key,), f"circuit file '{spec[key]}' not found (looked for {target})")
+    target = _circuit_file(doc, path + (key,), spec[key])
+    try:
+        text = read_input(target, what="circuit file")
+    except InputError as err:             # point at the patch file's line, not only the path
+        raise doc.error(path + (key,), f"circuit file '{spec[key]}': {err.message}") from None
     if key == "stim":
-        exp = load_stim(target)
+        exp = read_stim(text, file=str(target))
         ops: list[Operation] = []
         for part, times in experiment_order(exp.circuits, exp.rounds):
             ops += list(exp.circuits[part]) * times
         return Circuit(name, tuple(ops), None, str(target))
-    text = target.read_text(encoding="utf-8")
     return Circuit(name, tuple(read_qasm(text, file=str(target))), text, str(target))
+
+
+def input_root(patch_file: str | Path) -> Path:
+    """The folder a patch file's `file:` and `stim:` paths must stay inside: the patch
+    file's own folder, or EMBEDCHECK_INPUT_ROOT when set (for shared circuit folders)."""
+    given = os.environ.get("EMBEDCHECK_INPUT_ROOT")
+    return Path(given).resolve() if given else Path(patch_file).resolve().parent
+
+
+def _circuit_file(doc: Document, where, name) -> Path:
+    """The path a `file:`/`stim:` entry names, confined to `input_root` (a patch file from
+    a pull request must not make CI read, and echo, files elsewhere on the machine)."""
+    if not isinstance(name, str) or not name.strip():
+        raise doc.error(where, "give the circuit file's path relative to the patch file")
+    target = Path(doc.file).parent / name
+    root = input_root(doc.file)
+    real = target.resolve()
+    if real != root and root not in real.parents:
+        raise doc.error(where, f"circuit file '{name}' lies outside {root}: keep circuit files "
+                               "in the patch file's folder (or set EMBEDCHECK_INPUT_ROOT)")
+    return target
 
 
 _REF = re.compile(r"^(?P<circuit>[A-Za-z_][A-Za-z0-9_-]*)(\[(?P<rep>[0-9]+)\])?"

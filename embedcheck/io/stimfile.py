@@ -26,6 +26,7 @@ from pathlib import Path
 
 from ..patch import Operation
 from .errors import InputError
+from .files import read_input
 
 
 @dataclass(frozen=True)
@@ -66,13 +67,7 @@ def read_stim(source, *, file: str | None = None) -> StimExperiment:
 
 def load_stim(path: str | Path) -> StimExperiment:
     """Read a .stim file (operations keep their lines)."""
-    try:
-        text = Path(path).read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise InputError("file not found", file=str(path)) from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot read file: {exc}", file=str(path)) from None
-    return read_stim(text, file=str(path))
+    return read_stim(read_input(path), file=str(path))
 
 
 @dataclass(frozen=True)

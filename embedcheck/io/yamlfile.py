@@ -19,6 +19,7 @@ import jsonschema
 import yaml
 
 from .errors import InputError, did_you_mean
+from .files import read_input
 
 KeyPath = tuple  # of str keys and int list indices
 
@@ -61,12 +62,7 @@ def schema(name: str) -> dict:
 def read_yaml(path: str | Path, schema_name: str) -> Document:
     """Read and validate one YAML file; raise InputError on the first problem."""
     file = str(path)
-    try:
-        text = Path(path).read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise InputError("file not found", file=file) from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot read file: {exc}", file=file) from None
+    text = read_input(path)
     return parse_yaml(text, file, schema_name)
 
 

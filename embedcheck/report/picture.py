@@ -173,16 +173,23 @@ def draw_score_map(device: Device, patch: Patch, placements, success, path=None,
     return _save(plt, fig, path)
 
 
+def picture_bytes(fig, suffix: str) -> bytes:
+    """The figure as PNG or SVG bytes (`suffix` 'png' or 'svg'); closes the figure."""
+    import io
+
+    import matplotlib.pyplot as plt
+    buffer = io.BytesIO()
+    fig.savefig(buffer, format=suffix, bbox_inches="tight")
+    plt.close(fig)
+    return buffer.getvalue()
+
+
 def _save(plt, fig, path):
     if path is not None:
         from ..io.writers import write_atomic_bytes
-        import io
         suffix = Path(path).suffix.lower().lstrip(".") or "png"
         if suffix not in ("png", "svg"):
             from ..io.errors import InputError
             raise InputError(f"pictures are written as .png or .svg, not .{suffix}", file=str(path))
-        buffer = io.BytesIO()
-        fig.savefig(buffer, format=suffix, bbox_inches="tight")
-        write_atomic_bytes(path, buffer.getvalue())
-        plt.close(fig)
+        write_atomic_bytes(path, picture_bytes(fig, suffix))
     return fig

@@ -1,0 +1,242 @@
+"""Every file embedcheck reads or writes passes through here.
+
+Reading (`read_input`): one place that refuses what is not a small text file (a folder,
+a device such as /dev/zero, a file over the size limit, binary content) with a one-line
+`InputError`, and records every file read, so that no report can later overwrite it.
+
+Writing (`Outputs`): the files a command will write are claimed before any work is done.
+A claim is refused when the path is an input (same resolved path or same inode), another
+claimed output, an existing folder, in a folder that is missing or not writable, or (for
+options that must not overwrite) an existing file. `Outputs.commit` writes every file to
+a temporary sibling first and renames them only when all were written: a run that fails
+leaves nothing behind.
+
+    >>> import tempfile, pathlib
+    >>> folder = pathlib.Path(tempfile.mkdtemp())
+    >>> (folder / "chip.yaml").write_text("embedcheck_chip: 1\\n")
+    19
+    >>> _ = read_input(folder / "chip.yaml")
+    >>> out = Outputs()
+    >>> out.claim(folder / "chip.yaml", option="--json")
+    Traceback (most recent call last):
+    ...
+    embedcheck.io.errors.InputError: ...chip.yaml: --json: will not write over an input file
+"""
+from __future__ import annotations
+
+import os
+import stat
+import tempfile
+from pathlib import Path
+from typing import Iterable, Mapping
+
+from .errors import InputError
+
+__all__ = ["MAX_FILE_BYTES", "Outputs", "forget_inputs", "inputs_read", "max_file_bytes",
+           "read_input"]
+
+MAX_FILE_BYTES = 10 * 1024 * 1024        # default; EMBEDCHECK_MAX_FILE_MB overrides
+_READ: dict[str, tuple[int, int, bool] | None] = {}   # resolved path -> (device, inode, folder?)
+
+
+def max_file_bytes() -> int:
+    """The largest input file accepted, in bytes (EMBEDCHECK_MAX_FILE_MB, default 10)."""
+    text = os.environ.get("EMBEDCHECK_MAX_FILE_MB")
+    if not text:
+        return MAX_FILE_BYTES
+    try:
+        value = float(text)
+    except ValueError:
+        raise InputError(f"EMBEDCHECK_MAX_FILE_MB: '{text}' is not a number") from None
+    if not value > 0 or value != value or value == float("inf"):
+        raise InputError(f"EMBEDCHECK_MAX_FILE_MB: '{text}' must be a positive number")
+    return int(value * 1024 * 1024)
+
+
+def read_input(path: str | Path, *, what: str = "file") -> str:
+    """The UTF-8 text of a small regular file, recorded as an input of this run.
+
+    Refused, each with a one-line `InputError` naming the file: a missing path, a folder,
+    anything that is not a regular file (devices, pipes), a file above `max_file_bytes()`,
+    binary content (a NUL byte) and text that is not UTF-8.
+    """
+    file = str(path)
+    limit = max_file_bytes()
+    try:
+        info = os.stat(path)
+    except FileNotFoundError:
+        raise InputError(f"{what} not found", file=file) from None
+    except OSError as exc:
+        raise InputError(f"cannot read {what}: {exc.strerror or exc}", file=file) from None
+    if stat.S_ISDIR(info.st_mode):
+        raise InputError(f"is a folder, not a {what}", file=file)
+    if not stat.S_ISREG(info.st_mode):
+        raise InputError(f"is not a regular file (a device, pipe or socket); give a {what}",
+                         file=file)
+    if info.st_size > limit:
+        raise InputError(f"{what} is {info.st_size / 1048576:.1f} MB, above the limit of "
+                         f"{limit / 1048576:g} MB (set EMBEDCHECK_MAX_FILE_MB to raise it)",
+                         file=file)
+    try:
+        with open(path, "rb") as handle:
+            data = handle.read(limit + 1)
+    except OSError as exc:
+        raise InputError(f"cannot read {what}: {exc.strerror or exc}", file=file) from None
+    if len(data) > limit:                      # grew while we looked
+        raise InputError(f"{what} is above the limit of {limit / 1048576:g} MB "
+                         "(set EMBEDCHECK_MAX_FILE_MB to raise it)", file=file)
+    if b"\0" in data:
+        raise InputError(f"binary content (a NUL byte): not a text {what}", file=file)
+    try:
+        text = data.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        raise InputError(f"not UTF-8 text (byte {exc.start})", file=file) from None
+    _READ[_resolved(path)] = (info.st_dev, info.st_ino, False)
+    return text
+
+
+def note_input(path: str | Path) -> None:
+    """Record a path (a folder of snapshots, say) as an input of this run."""
+    try:
+        info = os.stat(path)
+        _READ[_resolved(path)] = (info.st_dev, info.st_ino, stat.S_ISDIR(info.st_mode))
+    except OSError:
+        _READ[_resolved(path)] = None
+
+
+def inputs_read() -> dict[str, tuple[int, int, bool] | None]:
+    """Every file read so far in this run (resolved path -> (device, inode))."""
+    return dict(_READ)
+
+
+def forget_inputs() -> None:
+    """Start a new run: forget the files read so far (the command line calls this)."""
+    _READ.clear()
+
+
+class Outputs:
+    """The files one command writes: claimed up front, written all or nothing."""
+
+    def __init__(self, inputs: Iterable[str | Path] = ()) -> None:
+        for path in inputs:
+            if path is not None:
+                note_input(path)
+        self._claims: dict[str, tuple[Path, str, bool]] = {}
+
+    def claim(self, path: str | Path, *, option: str, overwrite: bool = True) -> Path:
+        """Reserve `path` for writing, or raise `InputError` naming the option and why."""
+        target = Path(path)
+        file = str(path)
+        if not target.name or target.name in (".", ".."):
+            raise InputError(f"{option}: give a file name, not a folder", file=file)
+        key = _resolved(target)
+        if key in self._claims:
+            raise InputError(f"{option}: the same file as {self._claims[key][1]}; give each "
+                             "output its own path", file=file)
+        self._check_not_input(target, key, option)
+        folder = target.parent if str(target.parent) else Path(".")
+        if not folder.is_dir():
+            raise InputError(f"{option}: folder '{folder}' does not exist", file=file)
+        if target.exists() or target.is_symlink():
+            if target.is_dir():
+                raise InputError(f"{option}: is a folder; give a file name", file=file)
+            if not target.is_file():
+                raise InputError(f"{option}: is not a regular file; will not write to it",
+                                 file=file)
+            if not overwrite:
+                raise InputError(f"{option}: file exists; will not overwrite it (add --force "
+                                 "to replace it)", file=file)
+        _probe(folder, file, option)
+        self._claims[key] = (target, option, overwrite)
+        return target
+
+    def claimed(self) -> list[Path]:
+        """The claimed paths, in claim order."""
+        return [t for t, _, _ in self._claims.values()]
+
+    def commit(self, contents: Mapping[str | Path, str | bytes]) -> None:
+        """Write every claimed file given in `contents`, all or nothing.
+
+        Each file goes to a temporary sibling first; only when every one is written are
+        they renamed into place. Inputs read since the claims are checked again, so a
+        file first read after the claim (a circuit file a patch names) is safe too.
+        """
+        staged: list[tuple[str, Path]] = []
+        try:
+            for path, data in contents.items():
+                key = _resolved(Path(path))
+                if key not in self._claims:
+                    raise RuntimeError(f"output '{path}' was not claimed before writing")
+                target, option, overwrite = self._claims[key]
+                self._check_not_input(target, key, option)
+                if not overwrite and target.exists():
+                    raise InputError(f"{option}: file exists; will not overwrite it (add "
+                                     "--force to replace it)", file=str(target))
+                raw = data.encode("utf-8") if isinstance(data, str) else data
+                staged.append((_stage(target, raw, option), target))
+        except BaseException:
+            for tmp, _ in staged:
+                _unlink(tmp)
+            raise
+        for tmp, target in staged:
+            os.replace(tmp, target)
+
+    def _check_not_input(self, target: Path, key: str, option: str) -> None:
+        try:
+            info = os.stat(target)
+            inode: tuple[int, int] | None = (info.st_dev, info.st_ino)
+        except OSError:
+            inode = None
+        for path, known in _READ.items():
+            if path == key or (inode is not None and known is not None
+                               and known[:2] == inode):
+                raise InputError(f"{option}: will not write over an input file", file=str(target))
+            if known is not None and known[2] and _inside(key, path):
+                raise InputError(f"{option}: will not write into an input folder (a folder "
+                                 "of chip snapshots)", file=str(target))
+
+
+def _resolved(path: str | Path) -> str:
+    return str(Path(os.path.abspath(path)).resolve())
+
+
+def _inside(key: str, folder: str) -> bool:
+    return key.startswith(folder.rstrip(os.sep) + os.sep)
+
+
+def _probe(folder: Path, file: str, option: str) -> None:
+    """Create and remove a temporary file in `folder`: the only honest writability test."""
+    try:
+        fd, tmp = tempfile.mkstemp(prefix=".embedcheck-probe.", dir=folder)
+    except OSError as exc:
+        raise InputError(f"{option}: cannot write in folder '{folder}': "
+                         f"{exc.strerror or exc}", file=file) from None
+    os.close(fd)
+    _unlink(tmp)
+
+
+def _stage(target: Path, data: bytes, option: str) -> str:
+    folder = target.parent if str(target.parent) else Path(".")
+    try:
+        fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", dir=folder)
+    except OSError as exc:
+        raise InputError(f"{option}: cannot write: {exc.strerror or exc}",
+                         file=str(target)) from None
+    try:
+        with os.fdopen(fd, "wb") as out:
+            out.write(data)
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)          # mkstemp makes 0600; files are the user's
+    except OSError as exc:
+        _unlink(tmp)
+        raise InputError(f"{option}: cannot write: {exc.strerror or exc}",
+                         file=str(target)) from None
+    return tmp
+
+
+def _unlink(path: str) -> None:
+    try:
+        os.unlink(path)
+    except OSError:
+        pass
