@@ -19,8 +19,8 @@ sys.path.insert(0, str(Path(__file__).resolve().parent.parent / "tests"))
 from scipy.stats import spearmanr  # noqa: E402
 
 from embedcheck import load_device, vet_patch  # noqa: E402
-from embedcheck.logical import fast_scores, monte_carlo  # noqa: E402
-from embedcheck.noise import noisy_circuit  # noqa: E402
+from embedcheck.score.logical import fast_scores, monte_carlo  # noqa: E402
+from embedcheck.score.noise import noisy_circuit  # noqa: E402
 from helpers import DEMO_CHIP  # noqa: E402
 from test_logical import _random_calibration, _syndrome_detector_patch  # noqa: E402
 

@@ -18,9 +18,9 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 from embedcheck import Device, heavy_hex  # noqa: E402
-from embedcheck.device import CouplerCalibration, QubitCalibration  # noqa: E402
-from embedcheck.patch import Circuit, Operation, Patch  # noqa: E402
-from embedcheck.rank import experiment_counts, scores  # noqa: E402
+from embedcheck.model.device import CouplerCalibration, QubitCalibration  # noqa: E402
+from embedcheck.model.patch import Circuit, Operation, Patch  # noqa: E402
+from embedcheck.score.cost import experiment_counts, scores  # noqa: E402
 
 
 def synthetic_patch(n=57):

@@ -17,10 +17,10 @@ from qiskit.quantum_info import StabilizerState
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 from embedcheck import Device, heavy_hex  # noqa: E402
-from embedcheck.device import pair  # noqa: E402
+from embedcheck.model.device import pair  # noqa: E402
 from embedcheck.io.patchfile import patch_from_qiskit  # noqa: E402
-from embedcheck.repair import repair_preparation  # noqa: E402
-from embedcheck.search import Placement  # noqa: E402
+from embedcheck.repair.rewrite import repair_preparation  # noqa: E402
+from embedcheck.place.search import Placement  # noqa: E402
 
 
 def main():

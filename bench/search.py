@@ -20,8 +20,8 @@ import rustworkx as rx
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent / "tests"))
 from embedcheck import Device, heavy_hex, load_patch, rank_placements  # noqa: E402
-from embedcheck.device import CouplerCalibration, QubitCalibration  # noqa: E402
-from embedcheck.search import _automorphisms, _pattern, find_placements  # noqa: E402
+from embedcheck.model.device import CouplerCalibration, QubitCalibration  # noqa: E402
+from embedcheck.place.search import _automorphisms, _pattern, find_placements  # noqa: E402
 from helpers import FIXED_PATCH, patch_from_edges  # noqa: E402
 
 

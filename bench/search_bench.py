@@ -16,8 +16,8 @@ import rustworkx as rx
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 from embedcheck import Device, find_placements, heavy_hex, load_patch, rank_placements  # noqa: E402
-from embedcheck.device import CouplerCalibration, QubitCalibration  # noqa: E402
-from embedcheck.search import _pattern  # noqa: E402
+from embedcheck.model.device import CouplerCalibration, QubitCalibration  # noqa: E402
+from embedcheck.place.search import _pattern  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent
 

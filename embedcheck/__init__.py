@@ -9,16 +9,16 @@ The public API, in the order data flows (load, search, audit, rank):
 """
 __version__ = "0.1.0"
 
-from .audit import AuditReport, CircuitAudit, OffCouplerGate, audit_placement, off_coupler_counts
-from .device import CouplerCalibration, Device, QubitCalibration
+from .audit.exact import AuditReport, CircuitAudit, OffCouplerGate, audit_placement, off_coupler_counts
+from .model.device import CouplerCalibration, Device, QubitCalibration
 from .io.chipfile import load_device
-from .io.errors import InputError
+from .errors import InputError
 from .io.patchfile import load_patch
-from .lattices import Lattice, heavy_hex, heavy_hex_qubit_count, square_grid
-from .patch import Circuit, Operation, Patch
-from .rank import CAUTION, Ranking, rank_placements
-from .search import Placement, SearchResult, find_placements
-from .vet import CircuitFit, Vetting, vet_patch
+from .model.lattices import Lattice, heavy_hex, heavy_hex_qubit_count, square_grid
+from .model.patch import Circuit, Operation, Patch
+from .score.cost import CAUTION, Ranking, rank_placements
+from .place.search import Placement, SearchResult, find_placements
+from .pipeline.vet import CircuitFit, Vetting, vet_patch
 
 __all__ = [
     "AuditReport", "CAUTION", "Circuit", "CircuitAudit", "CircuitFit", "CouplerCalibration",

@@ -1,7 +1,7 @@
 """Small builders shared by the tests (not part of the package)."""
 from pathlib import Path
 
-from embedcheck.patch import Circuit, Operation, Patch
+from embedcheck.model.patch import Circuit, Operation, Patch
 
 ROOT = Path(__file__).resolve().parent.parent
 DEMO_CHIP = ROOT / "devices" / "demo_heavy_hex.yaml"

@@ -5,8 +5,8 @@ import numpy as np
 import pytest
 
 from embedcheck import audit_placement, load_device, load_patch, off_coupler_counts, vet_patch
-from embedcheck.qiskit_bridge import transpile_on_placement
-from embedcheck.search import Placement
+from embedcheck.audit.qiskit_views import transpile_on_placement
+from embedcheck.place.search import Placement
 from helpers import DEMO_CHIP, DEMO_PATCH, FIXED_PATCH
 
 

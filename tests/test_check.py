@@ -10,13 +10,13 @@ import pytest
 
 from embedcheck import Device, audit_placement, load_device, load_patch, vet_patch
 from embedcheck.cli import main
-from embedcheck.device import CouplerCalibration
+from embedcheck.model.device import CouplerCalibration
 from embedcheck.io.yamlfile import schema
-from embedcheck.lattices import heavy_hex, line
-from embedcheck.patch import Circuit, Patch
+from embedcheck.model.lattices import heavy_hex, line
+from embedcheck.model.patch import Circuit, Patch
 from embedcheck.io.qasm import read_qasm
-from embedcheck.qiskit_bridge import transpile_on_placement
-from embedcheck.search import Placement
+from embedcheck.audit.qiskit_views import transpile_on_placement
+from embedcheck.place.search import Placement
 from helpers import DEMO_CHIP, DEMO_PATCH, FIXED_PATCH, ROOT
 
 PROJECT = ROOT / "samples" / "project.yaml"
@@ -210,7 +210,7 @@ def test_rule_failure_leaves_only_complete_reports(project_dir, capsys):
 
 
 def test_cross_check_disagreement_is_an_internal_error(monkeypatch, capsys, project_dir):
-    import embedcheck.qiskit_bridge as bridge
+    import embedcheck.audit.qiskit_views as bridge
     real = bridge.transpile_on_placement
 
     def lying(*args, **kwargs):
@@ -242,8 +242,8 @@ def test_placed_circuits_out(tmp_path, capsys):
 def test_exact_audit_agrees_with_qiskit_on_family_patches(family, options):
     # Reference: qiskit's transpiler at optimization_level=0, as above, on 50 placements of
     # each family patch on an invented square-grid chip (the swap-free ones and random ones).
-    from embedcheck.codes import build_patch
-    from embedcheck.lattices import square_grid
+    from embedcheck.model.codes import build_patch
+    from embedcheck.model.lattices import square_grid
     patch = build_patch(family, rounds=2, **options)
     device = Device.from_lattice(square_grid(5, 6), name="grid")
     found = list(vet_patch(device, patch, limit=25).ranking.placements)[:25]

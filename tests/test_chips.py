@@ -6,10 +6,10 @@ from qiskit.transpiler import CouplingMap
 
 from embedcheck import Device, InputError, load_device
 from embedcheck.cli import main
-from embedcheck.device import CouplerCalibration, QubitCalibration
-from embedcheck.graphs import shortest_cycle
+from embedcheck.model.device import CouplerCalibration, QubitCalibration
+from embedcheck.place.graphs import shortest_cycle
 from embedcheck.io.chipfile import load_snapshots
-from embedcheck.lattices import build_family, cut, hexagonal, line, ring
+from embedcheck.model.lattices import build_family, cut, hexagonal, line, ring
 from helpers import DEMO_CHIP
 
 

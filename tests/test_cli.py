@@ -254,7 +254,7 @@ def test_worker_processes_scores_and_internal_errors(tmp_path, capsys, monkeypat
     out = capsys.readouterr().out
     assert "no one or two faults flip the logical observable" in out
     assert format_score(1.234e-5) == "1.234e-05" and format_score(0.5974) == "0.5974"
-    import embedcheck.cli as cli
+    import embedcheck.cli.app as cli
     monkeypatch.setattr(cli, "vet_patch", lambda *a, **k: 1 / 0)
     assert main(["find", str(DEMO_CHIP), str(rep)]) == 3
     err = capsys.readouterr().err

@@ -7,9 +7,9 @@ import stim
 
 from embedcheck import Device, audit_placement, find_placements, heavy_hex
 from embedcheck.cli import main
-from embedcheck.codes import build_patch, family_yaml
+from embedcheck.model.codes import build_patch, family_yaml
 from embedcheck.io.patchfile import patch_from_stim
-from embedcheck.simulate import check_detectors, fault_distance, fault_distance_at_most
+from embedcheck.score.simulate import check_detectors, fault_distance, fault_distance_at_most
 
 
 def _round_graph(patch):
@@ -127,7 +127,7 @@ def test_heavy_hex_families_are_sound(family, d):
 
 
 def test_the_chip_fitting_variant_embeds_in_heavy_hex_and_the_paper_layout_does_not():
-    from embedcheck.graphs import shortest_cycle
+    from embedcheck.place.graphs import shortest_cycle
     chip = Device.from_lattice(heavy_hex(6, 6), name="hh")
     variant = build_patch("heavy-hex-chipfit", distance=3, rounds=2)
     assert shortest_cycle(variant.num_qubits, list(variant.interaction_counts())) == 12

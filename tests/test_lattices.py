@@ -3,7 +3,7 @@ import networkx as nx
 import pytest
 import rustworkx as rx
 
-from embedcheck.lattices import heavy_hex, heavy_hex_qubit_count, square_grid
+from embedcheck.model.lattices import heavy_hex, heavy_hex_qubit_count, square_grid
 
 
 def _rx_graph(lattice):

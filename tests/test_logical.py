@@ -9,13 +9,13 @@ import pytest
 import stim
 
 from embedcheck import Device, InputError, load_device, load_patch, vet_patch
-from embedcheck.device import CouplerCalibration, QubitCalibration
+from embedcheck.model.device import CouplerCalibration, QubitCalibration
 from embedcheck.io.patchfile import patch_from_stim
-from embedcheck.lattices import line
-from embedcheck.logical import fast_score, fast_scores, monte_carlo, rank_by_logical, wilson
-from embedcheck.noise import (idle_pauli, noisy_circuit, single_qubit_depolarizing,
+from embedcheck.model.lattices import line
+from embedcheck.score.logical import fast_score, fast_scores, monte_carlo, rank_by_logical, wilson
+from embedcheck.score.noise import (idle_pauli, noisy_circuit, single_qubit_depolarizing,
                               two_qubit_depolarizing)
-from embedcheck.search import Placement
+from embedcheck.place.search import Placement
 from helpers import DEMO_CHIP, FIXED_PATCH
 
 
@@ -143,7 +143,7 @@ def test_a_patch_without_detectors_gets_told_what_to_declare(tmp_path):
 
 
 def test_matching_refusal_is_plain(monkeypatch):
-    import embedcheck.logical as logical
+    import embedcheck.score.logical as logical
 
     class Refusing:
         def detector_error_model(self, **kwargs):
@@ -172,7 +172,7 @@ def test_find_ranks_by_the_logical_figure(tmp_path, capsys):
 
 def test_fast_scores_in_worker_processes_match(tmp_path):
     # Devices and patches are pickled for the workers (their mappings are read-only views).
-    from embedcheck.logical import fast_scores
+    from embedcheck.score.logical import fast_scores
     patch = _syndrome_detector_patch(tmp_path)
     device = _random_calibration(load_device(DEMO_CHIP), seed=3)
     placements = list(vet_patch(device, patch).ranking.placements)
@@ -187,8 +187,8 @@ def test_auto_figure_falls_back_only_when_zero_on_every_placement(capsys):
     # find says so and keeps the fidelity product.
     from pathlib import Path
     from embedcheck.cli import main
-    from embedcheck.codes import build_patch
-    from embedcheck.logical import undetected_zero_everywhere
+    from embedcheck.model.codes import build_patch
+    from embedcheck.score.logical import undetected_zero_everywhere
     data = Path(__file__).parent / "data"
     assert not undetected_zero_everywhere(load_patch(data / "rep2_one_round.yaml"))
     assert undetected_zero_everywhere(build_patch("repetition", distance=5, rounds=3))
@@ -205,7 +205,7 @@ def test_monte_carlo_is_sampled_when_the_lowest_order_is_zero(capsys):
     import tempfile
     from pathlib import Path
     from embedcheck.cli import main
-    from embedcheck.codes import family_yaml
+    from embedcheck.model.codes import family_yaml
     with tempfile.TemporaryDirectory() as tmp:
         path = Path(tmp) / "rep5.yaml"
         path.write_text(family_yaml("repetition", distance=5, rounds=3))
@@ -223,7 +223,7 @@ def test_the_noisy_circuit_is_the_same_in_every_process(tmp_path):
     import subprocess
     import sys
     code = ("import sys; sys.path.insert(0, %r); from embedcheck import load_device, load_patch,"
-            " vet_patch; from embedcheck.noise import noisy_circuit; d = load_device(%r); "
+            " vet_patch; from embedcheck.score.noise import noisy_circuit; d = load_device(%r); "
             "p = load_patch(%r); print(noisy_circuit(d, p, vet_patch(d, p).ranking.placements[0]))"
             % (str(DEMO_CHIP.parent.parent), str(DEMO_CHIP),
                str(DEMO_CHIP.parent.parent / "samples" / "flagged_weight4_coupler_prep.yaml")))

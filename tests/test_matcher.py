@@ -9,9 +9,9 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from networkx.algorithms.isomorphism import GraphMatcher
 
-from embedcheck.lattices import heavy_hex, square_grid
-from embedcheck.matcher import Host, monomorphisms, plan
-from embedcheck.search import _automorphisms
+from embedcheck.model.lattices import heavy_hex, square_grid
+from embedcheck.place.matcher import Host, monomorphisms, plan
+from embedcheck.place.search import _automorphisms
 
 
 def _maps(host_n, host_edges, k, edges, **kw):
@@ -136,8 +136,8 @@ def test_worker_processes_find_the_same_placements():
     # The anchors split between two processes: the same distinct placements, the same raw
     # count, and honest stop reasons under a count limit.
     from embedcheck import Device
-    from embedcheck.constraints import build
-    from embedcheck.search import find_placements
+    from embedcheck.place.constraints import build
+    from embedcheck.place.search import find_placements
     from helpers import patch_from_edges
     piece = heavy_hex(2, 2)
     patch = patch_from_edges(list(piece.couplers))
@@ -164,7 +164,7 @@ def test_raw_counts_stand_for_what_was_looked_at():
     # A 6-qubit line (symmetry order 2) on a heavy-hex chip: with limit=1 one orbit was
     # taken, so 2 raw maps; a step budget is met in whole orbits.
     from embedcheck import Device
-    from embedcheck.search import find_placements
+    from embedcheck.place.search import find_placements
     from helpers import patch_from_edges
     device = Device.from_lattice(heavy_hex(4, 4), name="hh")
     line = patch_from_edges([(i, i + 1) for i in range(5)])
@@ -180,10 +180,10 @@ def test_worker_caps_never_fake_a_limit():
     # 'complete', not stop at a count of maps that never became placements.
     import networkx as nx
     from embedcheck import Device
-    from embedcheck.constraints import build
-    from embedcheck.device import QubitCalibration
-    from embedcheck.patch import Circuit, Operation, Patch
-    from embedcheck.search import find_placements
+    from embedcheck.place.constraints import build
+    from embedcheck.model.device import QubitCalibration
+    from embedcheck.model.patch import Circuit, Operation, Patch
+    from embedcheck.place.search import find_placements
     g = nx.Graph([(0, i) for i in range(1, 7)] + [(i, i + 6) for i in range(1, 7)])
     cal = {q: QubitCalibration(readout_error=0.01 if q == 0 else 0.1) for q in g}
     device = Device.from_graph(g, name="spider", qubit_calibration=cal)
@@ -201,7 +201,7 @@ def test_a_huge_symmetry_group_is_not_listed():
     # A star with 8 leaves has 8! = 40320 symmetries: more than the search lists, so maps
     # are not merged and the result says so (and every map is still found, per networkx).
     from embedcheck import Device
-    from embedcheck.search import MAX_SYMMETRIES, find_placements
+    from embedcheck.place.search import MAX_SYMMETRIES, find_placements
     from helpers import patch_from_edges
     import math
     assert math.factorial(8) > MAX_SYMMETRIES

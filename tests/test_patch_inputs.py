@@ -8,7 +8,7 @@ from qiskit import qasm2, qasm3
 from embedcheck import InputError, load_patch
 from embedcheck.cli import main
 from embedcheck.io.patchfile import patch_from_qiskit, patch_from_stim
-from embedcheck.simulate import check_detectors
+from embedcheck.score.simulate import check_detectors
 from helpers import DEMO_PATCH, FIXED_PATCH
 
 # The flagged weight-4 round with helpers measured then reset (as stim's MR does), so

@@ -6,9 +6,9 @@ import numpy as np
 import pytest
 
 from embedcheck import load_device, load_patch, rank_placements, vet_patch
-from embedcheck.rank import idle_error
-from embedcheck.schedule import schedule_circuit
-from embedcheck.search import Placement
+from embedcheck.score.cost import idle_error
+from embedcheck.score.schedule import schedule_circuit
+from embedcheck.place.search import Placement
 from helpers import DEMO_CHIP, DEMO_PATCH, FIXED_PATCH
 
 

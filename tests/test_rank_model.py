@@ -8,13 +8,13 @@ import pytest
 
 from embedcheck import Device, load_device, load_patch, rank_placements, vet_patch
 from embedcheck.cli import main
-from embedcheck.device import CouplerCalibration, QubitCalibration
-from embedcheck.lattices import heavy_hex, line
-from embedcheck.patch import Circuit, Operation, Patch
-from embedcheck.rank import idle_error, rank_across_snapshots, scores, sensitivity
+from embedcheck.model.device import CouplerCalibration, QubitCalibration
+from embedcheck.model.lattices import heavy_hex, line
+from embedcheck.model.patch import Circuit, Operation, Patch
+from embedcheck.score.cost import idle_error, rank_across_snapshots, scores, sensitivity
 from embedcheck.report.picture import draw_placement, draw_score_map
-from embedcheck.search import Placement, find_placements, placement_grid
-from embedcheck.schedule import schedule_circuit
+from embedcheck.place.search import Placement, find_placements, placement_grid
+from embedcheck.score.schedule import schedule_circuit
 from helpers import DEMO_CHIP, FIXED_PATCH
 
 
@@ -263,7 +263,7 @@ def test_draw_command_and_find_options(tmp_path, capsys):
 def test_sdk_choice_is_swap_free_and_ranked():
     # Reference: qiskit's VF2Layout pass on the chip's Target.
     from embedcheck import audit_placement
-    from embedcheck.qiskit_bridge import sdk_layout
+    from embedcheck.audit.qiskit_views import sdk_layout
     dev, patch = load_device(DEMO_CHIP), load_patch(FIXED_PATCH)
     placement, status = sdk_layout(dev, patch)
     assert status == "found" and audit_placement(dev, patch, placement).swap_free

@@ -11,11 +11,11 @@ from qiskit.quantum_info import random_clifford
 
 from embedcheck import Device, InputError, audit_placement, load_device, load_patch, vet_patch
 from embedcheck.cli import main
-from embedcheck.device import pair
+from embedcheck.model.device import pair
 from embedcheck.io.patchfile import patch_from_qiskit
-from embedcheck.lattices import heavy_hex
-from embedcheck.repair import _two_qubit_count_depth, repair_preparation, repaired_patch
-from embedcheck.search import Placement
+from embedcheck.model.lattices import heavy_hex
+from embedcheck.repair.rewrite import _two_qubit_count_depth, repair_preparation, repaired_patch
+from embedcheck.place.search import Placement
 from helpers import DEMO_CHIP, DEMO_PATCH
 
 
@@ -179,8 +179,8 @@ def test_repair_command_writes_a_new_patch_and_never_overwrites(tmp_path, capsys
 
 
 def test_product_state_option_is_verified_and_drops_random_detectors(tmp_path, capsys):
-    from embedcheck.repair import project_preparation
-    from embedcheck.simulate import check_detectors
+    from embedcheck.repair.rewrite import project_preparation
+    from embedcheck.score.simulate import check_detectors
     patch = load_patch(DEMO_PATCH)
     projection, fixed = project_preparation(patch, runs=24)
     assert projection.basis == "z" and "Z on d0" in projection.corrections
@@ -198,14 +198,14 @@ def test_product_state_option_is_verified_and_drops_random_detectors(tmp_path, c
 
 
 def test_product_state_option_refuses_what_rounds_cannot_project():
-    from embedcheck.codes import build_patch
-    from embedcheck.repair import project_preparation
+    from embedcheck.model.codes import build_patch
+    from embedcheck.repair.rewrite import project_preparation
     # |+00> on a bit-flip repetition code: its ZZ checks fix neither X(d0) nor Z(d1)
     # from any product state, so no round projects a product state onto it.
     patch = build_patch("repetition", distance=3, rounds=2)
     from dataclasses import replace
     from embedcheck.io.qasm import read_qasm
-    from embedcheck.patch import Circuit
+    from embedcheck.model.patch import Circuit
     text = ('OPENQASM 2.0;\ninclude "qelib1.inc";\nqreg d[3];\nqreg a[2];\n'
             'h d[0];\nid d[1];\nid d[2];\n')
     cat = replace(patch, circuits={**patch.circuits,
@@ -264,8 +264,8 @@ def test_surface_code_logical_zero_rewritten_onto_its_couplers():
     # of every check and of logical Z on the repaired circuit.
     from qiskit.quantum_info import Pauli, StabilizerState
 
-    from embedcheck.codes.families import surface_layout
-    from embedcheck.repair import _ops_circuit, _row_reduce
+    from embedcheck.model.codes.families import surface_layout
+    from embedcheck.repair.rewrite import _ops_circuit, _row_reduce
     import numpy as np
     data, checks = surface_layout(3)
     ancillas = [centre for _, centre, _ in checks]

@@ -8,14 +8,14 @@ import stim
 
 from embedcheck import Device, InputError, audit_placement, load_device, load_patch, vet_patch
 from embedcheck.cli import main
-from embedcheck.constraints import build
-from embedcheck.device import QubitCalibration
+from embedcheck.place.constraints import build
+from embedcheck.model.device import QubitCalibration
 from embedcheck.io.qasm import read_qasm
 from embedcheck.io.stimfile import read_stim
-from embedcheck.lattices import line
-from embedcheck.patch import Circuit, Patch
-from embedcheck.search import find_placements
-from embedcheck.simulate import check_detectors
+from embedcheck.model.lattices import line
+from embedcheck.model.patch import Circuit, Patch
+from embedcheck.place.search import find_placements
+from embedcheck.score.simulate import check_detectors
 from helpers import patch_from_edges
 
 DATA = Path(__file__).parent / "data"

@@ -11,12 +11,12 @@ from hypothesis import strategies as st
 from networkx.algorithms.isomorphism import DiGraphMatcher, GraphMatcher
 
 from embedcheck import Device, load_device, load_patch
-from embedcheck.constraints import build
-from embedcheck.device import QubitCalibration, pair
+from embedcheck.place.constraints import build
+from embedcheck.model.device import QubitCalibration, pair
 from embedcheck.io.patchfile import patch_from_stim
-from embedcheck.lattices import heavy_hex
-from embedcheck.patch import Circuit, Operation, Patch
-from embedcheck.search import find_placements
+from embedcheck.model.lattices import heavy_hex
+from embedcheck.model.patch import Circuit, Operation, Patch
+from embedcheck.place.search import find_placements
 from helpers import DEMO_CHIP, FIXED_PATCH, patch_from_edges
 
 

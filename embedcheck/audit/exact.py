@@ -27,10 +27,10 @@ from typing import Sequence
 
 import numpy as np
 
-from .device import Device
-from .patch import Patch
-from .schedule import schedule_circuit
-from .search import SYMMETRIC_GATES, Placement, check_placements, placement_grid
+from ..model.device import Device
+from ..model.patch import Patch
+from ..score.schedule import schedule_circuit
+from ..place.search import SYMMETRIC_GATES, Placement, check_placements, placement_grid
 
 
 @dataclass(frozen=True)
@@ -141,7 +141,7 @@ def estimate_router_overhead(device: Device, patch: Patch, circuit: str, placeme
     with the placement as initial layout. Returns the native two-qubit count before and
     after, the difference, the seed and a label saying it is an estimate.
     """
-    from .qiskit_bridge import transpile_on_placement
+    from .qiskit_views import transpile_on_placement
 
     before = len(patch.circuits[circuit].two_qubit_gates)
     after = transpile_on_placement(device, patch, circuit, placement, seed=seed)["two_qubit_gates"]

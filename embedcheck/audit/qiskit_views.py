@@ -6,10 +6,10 @@ The chip becomes a `CouplingMap` of its live couplers in both directions.
 """
 from __future__ import annotations
 
-from .device import CouplerCalibration, Device, QubitCalibration, pair
-from .io.qasm import declared_qubits, qasm_version
-from .patch import Patch
-from .search import Placement
+from ..model.device import CouplerCalibration, Device, QubitCalibration, pair
+from ..io.qasm import declared_qubits, qasm_version
+from ..model.patch import Patch
+from ..place.search import Placement
 
 
 

@@ -15,9 +15,9 @@ from __future__ import annotations
 import datetime as dt
 from pathlib import Path
 
-from ..device import CouplerCalibration, Device, QubitCalibration, pair
-from ..lattices import FAMILIES, Lattice, build_family, cut
-from .errors import InputError
+from ..model.device import CouplerCalibration, Device, QubitCalibration, pair
+from ..model.lattices import FAMILIES, Lattice, build_family, cut
+from ..errors import InputError
 from .files import note_input
 from .yamlfile import Document, read_yaml
 

@@ -30,7 +30,7 @@ import tempfile
 from pathlib import Path
 from typing import Iterable, Mapping
 
-from .errors import InputError
+from ..errors import InputError
 
 __all__ = ["MAX_FILE_BYTES", "Outputs", "forget_inputs", "inputs_read", "max_file_bytes",
            "read_input"]

@@ -17,9 +17,9 @@ import re
 from pathlib import Path
 from typing import Mapping
 
-from ..patch import (EXPERIMENT_ORDER, ROLES, Circuit, Detector, Operation, Patch, _natural,
+from ..model.patch import (EXPERIMENT_ORDER, ROLES, Circuit, Detector, Operation, Patch, _natural,
                      experiment_order, infer_roles)
-from .errors import InputError, did_you_mean
+from ..errors import InputError, did_you_mean
 from .files import read_input
 from .qasm import read_qasm
 from .stimfile import load_stim, read_stim
@@ -121,7 +121,7 @@ def patch_from_document(doc: Document) -> Patch:
 
 
 def _constraints(doc: Document):
-    from ..constraints import build
+    from ..place.constraints import build
     spec = doc.data["constraints"]
     for i, text in enumerate(spec.get("require", [])):
         try:

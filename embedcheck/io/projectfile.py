@@ -9,7 +9,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Mapping
 
-from .errors import InputError, did_you_mean
+from ..errors import InputError, did_you_mean
 from .yamlfile import Document, read_yaml
 
 DEFAULT_RULES = {"max_off_coupler_gates": 0, "min_placements": 1, "score_floor": None,

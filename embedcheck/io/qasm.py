@@ -24,8 +24,8 @@ from functools import lru_cache
 import openqasm3
 from openqasm3 import ast
 
-from ..patch import Operation
-from .errors import InputError
+from ..model.patch import Operation
+from ..errors import InputError
 
 _ONE_QUBIT = {"id", "x", "y", "z", "h", "s", "sdg", "t", "tdg", "sx", "sxdg", "rx", "ry",
               "rz", "p", "u", "u1", "u2", "u3", "U", "r", "phase", "gphase"}

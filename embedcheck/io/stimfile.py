@@ -24,8 +24,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 from pathlib import Path
 
-from ..patch import Operation
-from .errors import InputError
+from ..model.patch import Operation
+from ..errors import InputError
 from .files import read_input
 
 

@@ -5,8 +5,8 @@ import os
 import tempfile
 from pathlib import Path
 
-from ..lattices import FAMILIES
-from .errors import InputError
+from ..model.lattices import FAMILIES
+from ..errors import InputError
 
 PLACEHOLDER = {"readout_error": 0.02, "single_qubit_error": 0.0005, "t1_us": 100.0,
                "t2_us": 100.0, "two_qubit_error": 0.01, "two_qubit_duration_ns": 400.0,

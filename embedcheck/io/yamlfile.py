@@ -18,7 +18,7 @@ from typing import Any
 import jsonschema
 import yaml
 
-from .errors import InputError, did_you_mean
+from ..errors import InputError, did_you_mean
 from .files import read_input
 
 KeyPath = tuple  # of str keys and int list indices

@@ -18,7 +18,7 @@ from typing import Mapping
 import numpy as np
 import rustworkx as rx
 
-from ._pickle import reduce_frozen
+from .frozen import reduce_frozen
 
 Pair = tuple[int, int]
 
@@ -156,7 +156,7 @@ class Device:
         >>> Device.from_graph(nx.cycle_graph(4), name="square").couplers
         ((0, 1), (0, 3), (1, 2), (2, 3))
         """
-        from .io.errors import InputError
+        from ..errors import InputError
         if hasattr(graph, "edge_list"):               # rustworkx
             qubits = tuple(graph.node_indices())
             edges = list(graph.edge_list())
@@ -182,13 +182,13 @@ class Device:
 
     def to_target(self):
         """This device as a qiskit `Target` (see `embedcheck.qiskit_bridge.device_target`)."""
-        from .qiskit_bridge import device_target
+        from ..audit.qiskit_views import device_target
         return device_target(self)
 
     @classmethod
     def from_target(cls, target, *, name: str) -> "Device":
         """A device from a qiskit `Target` (see `embedcheck.qiskit_bridge.device_from_target`)."""
-        from .qiskit_bridge import device_from_target
+        from ..audit.qiskit_views import device_from_target
         return device_from_target(target, name=name)
 
     def runs_natively(self, control: int, target: int) -> bool:

@@ -23,7 +23,7 @@ from dataclasses import dataclass, field
 from types import MappingProxyType
 from typing import Mapping, Sequence
 
-from ._pickle import reduce_frozen
+from .frozen import reduce_frozen
 
 ROLES = ("data", "flag", "ancilla")
 EXPERIMENT_ORDER = ("prep", "round", "readout")

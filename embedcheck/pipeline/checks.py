@@ -21,12 +21,12 @@ from typing import Callable
 
 import numpy as np
 
-from .audit import AuditReport, OffCouplerGate, audit_placement
-from .device import Device
-from .io.chipfile import load_device
-from .io.patchfile import load_patch
-from .io.projectfile import Project, Rules
-from .patch import Patch
+from ..audit.exact import AuditReport, OffCouplerGate, audit_placement
+from ..model.device import Device
+from ..io.chipfile import load_device
+from ..io.patchfile import load_patch
+from ..io.projectfile import Project, Rules
+from ..model.patch import Patch
 from .vet import Vetting, vet_patch
 
 
@@ -82,10 +82,10 @@ def run_project(project: Project, *, cross_check_top: int | None = None,
     for entry in project.patches:
         patch = load_patch(entry.file)
         if patch.detectors:                     # the noiseless sanity check comes first
-            from .simulate import check_detectors
+            from ..score.simulate import check_detectors
             problems = check_detectors(patch)
             if problems:
-                from .io.errors import InputError
+                from ..errors import InputError
                 raise InputError(problems[0] + " (a bug in the circuit or the declaration)",
                                  file=entry.file)
         for device in devices:
@@ -168,7 +168,7 @@ def cross_check(device: Device, patch: Patch, placements, *, seed: int = 11) -> 
     `transpile(optimization_level=0)` with the placement as initial layout, and a
     circuit with off-coupler gates gains two-qubit gates.
     """
-    from .qiskit_bridge import transpile_on_placement
+    from ..audit.qiskit_views import transpile_on_placement
 
     problems = []
     for placement in placements:
@@ -192,8 +192,8 @@ def cross_check(device: Device, patch: Patch, placements, *, seed: int = 11) -> 
 
 def _repair_hint(device, patch, circuit, placement) -> str:
     """A suggestion when the failing preparation can be rewritten onto the couplers."""
-    from .io.errors import InputError
-    from .repair import repair_preparation
+    from ..errors import InputError
+    from ..repair.rewrite import repair_preparation
     try:
         fix = repair_preparation(device, patch, placement, circuit=circuit)
     except InputError:

@@ -25,13 +25,13 @@ from typing import Callable
 
 import numpy as np
 
-from .audit import AuditReport, audit_placement, off_coupler_counts
-from .device import Device
-from .io.errors import InputError
-from .patch import Patch
-from .rank import Ranking, rank_placements
-from .constraints import Constraints
-from .search import NearMiss, SearchResult, find_placements, near_misses
+from ..audit.exact import AuditReport, audit_placement, off_coupler_counts
+from ..model.device import Device
+from ..errors import InputError
+from ..model.patch import Patch
+from ..score.cost import Ranking, rank_placements
+from ..place.constraints import Constraints
+from ..place.search import NearMiss, SearchResult, find_placements, near_misses
 
 _CORE_ORDER = ("round", "readout", "prep")
 
@@ -156,8 +156,8 @@ def _best_of_orbits(device: Device, patch: Patch, search: SearchResult):
     """Each distinct placement stands for its orbit under the patch's symmetries (of the
     searched circuits); the circuits left out of the search, gate order and measurements
     may still tell the members apart, so keep the best-scoring member of each orbit."""
-    from .rank import scores
-    from .search import Placement, placement_grid
+    from ..score.cost import scores
+    from ..place.search import Placement, placement_grid
 
     placements = search.placements
     k = len(search.symmetries)

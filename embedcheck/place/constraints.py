@@ -23,8 +23,8 @@ import re
 from dataclasses import dataclass, field
 from typing import Mapping
 
-from .device import Device, Pair, pair
-from .io.errors import InputError, did_you_mean
+from ..model.device import Device, Pair, pair
+from ..errors import InputError, did_you_mean
 
 QUBIT_FIGURES = ("readout_error", "single_qubit_error", "reset_error", "t1_us", "t2_us",
                  "single_qubit_duration_ns", "measurement_duration_ns")

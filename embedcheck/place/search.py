@@ -40,11 +40,11 @@ import numpy as np
 import rustworkx as rx
 
 from .constraints import Constraints
-from .device import Device
+from ..model.device import Device
 from .matcher import Host, grow, prepare
 from .graphs import odd_cycle_nodes, shortest_cycle, shortest_cycle_nodes
-from .io.errors import InputError, did_you_mean
-from .patch import Patch
+from ..errors import InputError, did_you_mean
+from ..model.patch import Patch
 
 
 @dataclass(frozen=True)
@@ -655,7 +655,7 @@ def near_misses(device: Device, patch: Patch, circuits: Sequence[str], *,
         kept.pop(_pair_to_drop(kept, weights, top, chip_girth, patch.num_qubits))
     if not found:
         return []
-    from .audit import off_coupler_counts     # audit imports search: import here
+    from ..audit.exact import off_coupler_counts     # audit imports search: import here
     off = off_coupler_counts(device, patch, found, list(circuits))
     totals = (off * np.array([times.get(c, 1) for c in circuits])).sum(axis=1)
     order = np.argsort(totals, kind="stable")[:keep]
@@ -685,7 +685,7 @@ def _pair_to_drop(kept, weights, top, chip_girth, n):
 
 def _sub_patch(patch: Patch, circuits, members) -> Patch:
     """The patch's two-qubit gates among `members` (as written, directions kept) in one circuit."""
-    from .patch import Circuit
+    from ..model.patch import Circuit
     ops = tuple(op for name in circuits for op in patch.circuits[name].two_qubit_gates
                 if set(op.qubits) <= members)
     qubits = tuple(q for q in patch.qubits if q in members)
@@ -695,6 +695,6 @@ def _sub_patch(patch: Patch, circuits, members) -> Patch:
 
 def _reduced_patch(patch: Patch, kept) -> Patch:
     """A one-circuit patch with one CNOT per kept pair (same qubits and roles)."""
-    from .patch import Circuit, Operation
+    from ..model.patch import Circuit, Operation
     ops = tuple(Operation("cx", (patch.qubits[a], patch.qubits[b]), "2q") for a, b in kept)
     return Patch(patch.name, patch.qubits, dict(patch.roles), {"round": Circuit("round", ops)})

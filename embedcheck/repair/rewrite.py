@@ -44,10 +44,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .device import Device
-from .io.errors import InputError
-from .patch import Patch
-from .search import Placement
+from ..model.device import Device
+from ..errors import InputError
+from ..model.patch import Patch
+from ..place.search import Placement
 
 _CLIFFORD_1Q = {"h", "x", "y", "z", "s", "sdg", "sx", "sxdg", "id"}
 
@@ -122,9 +122,9 @@ def repair_preparation(device: Device, patch: Patch, placement: Placement, *,
         raise InputError(f"a repair of '{circuit}' would borrow {', '.join(bad)} as helper(s), "
                          "but they are not known to start in |0> (not reset at the start of the "
                          "circuit); reset them there first")
-    from .io.qasm import read_qasm
-    from .patch import Circuit
-    from .simulate import fault_distance
+    from ..io.qasm import read_qasm
+    from ..model.patch import Circuit
+    from ..score.simulate import fault_distance
     before = _figures(device, patch, circuit, placement)
     check_distance = bool(patch.detectors and patch.observable)
     if check_distance:
@@ -154,8 +154,8 @@ def repair_preparation(device: Device, patch: Patch, placement: Placement, *,
 
 def repaired_patch(patch: Patch, repair: Repair, *, file: str | None = None) -> Patch:
     """The patch with the repaired circuit in place of the original."""
-    from .io.qasm import read_qasm
-    from .patch import Circuit
+    from ..io.qasm import read_qasm
+    from ..model.patch import Circuit
     ops = tuple(read_qasm(repair.qasm, file=file))
     return _with_circuit(patch, repair.circuit, Circuit(repair.circuit, ops, repair.qasm, file))
 
@@ -171,7 +171,7 @@ def _target_state(patch: Patch, circuit: str):
     from qiskit import QuantumCircuit
     from qiskit.quantum_info import StabilizerState
 
-    from .qiskit_bridge import qiskit_circuit
+    from ..audit.qiskit_views import qiskit_circuit
 
     if patch.circuits[circuit].qasm is None:
         raise InputError(f"circuit '{circuit}' has no OpenQASM text to rewrite")
@@ -643,8 +643,8 @@ def _two_qubit_count_depth(ops):
 
 
 def _figures(device, patch, circuit, placement):
-    from .audit import audit_placement
-    from .rank import rank_placements
+    from ..audit.exact import audit_placement
+    from ..score.cost import rank_placements
     audit = next(c for c in audit_placement(device, patch, placement).circuits
                  if c.circuit == circuit)
     ops = [(op.name, op.qubits) for op in patch.circuits[circuit].operations if op.kind == "2q"]
@@ -720,9 +720,9 @@ def project_preparation(patch: Patch, *, circuit: str = "prep", runs: int = 16,
     """
     import stim
 
-    from .io.qasm import read_qasm
-    from .patch import Circuit
-    from .simulate import check_detectors, to_stim
+    from ..io.qasm import read_qasm
+    from ..model.patch import Circuit
+    from ..score.simulate import check_detectors, to_stim
 
     if "round" not in patch.circuits:
         raise InputError("the product-state option needs a check round to project the state")
@@ -778,7 +778,7 @@ def _support_generators(patch, circuit, support):
     from qiskit import QuantumCircuit
     from qiskit.quantum_info import StabilizerState
 
-    from .qiskit_bridge import qiskit_circuit
+    from ..audit.qiskit_views import qiskit_circuit
 
     qc, names = qiskit_circuit(patch, circuit)
     local = {q: i for i, q in enumerate(support)}

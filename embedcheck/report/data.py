@@ -8,12 +8,12 @@ from __future__ import annotations
 import numpy as np
 
 from .. import __version__
-from ..graphs import degree_histogram, shortest_cycle
-from ..audit import AuditReport
-from ..device import Device
-from ..patch import Patch
-from ..rank import CAUTION, Ranking
-from ..vet import Vetting
+from ..place.graphs import degree_histogram, shortest_cycle
+from ..audit.exact import AuditReport
+from ..model.device import Device
+from ..model.patch import Patch
+from ..score.cost import CAUTION, Ranking
+from ..pipeline.vet import Vetting
 
 
 def chip_summary(device: Device) -> dict:
@@ -295,7 +295,7 @@ def compare_to_baseline(current: dict, baseline: dict) -> dict:
 
 
 def sensitivity_rows(device, patch, placement, top: int = 5) -> list[dict]:
-    from ..rank import sensitivity
+    from ..score.cost import sensitivity
     return [{"item": s.item, "figure": s.figure, "value": float(s.value),
              "log_contribution": float(s.log_contribution), "derivative": float(s.derivative)}
             for s in sensitivity(device, patch, placement, top=top)]
@@ -317,9 +317,9 @@ def snapshot_dict(patch, robust, top: int = 5) -> dict:
 
 def sdk_dict(device, patch, vetting) -> dict:
     """qiskit's VF2Layout choice and where it ranks under our model."""
-    from ..qiskit_bridge import sdk_layout
-    from ..rank import scores
-    from ..search import placement_grid
+    from ..audit.qiskit_views import sdk_layout
+    from ..score.cost import scores
+    from ..place.search import placement_grid
 
     placement, status = sdk_layout(device, patch)
     if placement is None:

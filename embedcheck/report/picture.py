@@ -13,9 +13,9 @@ from pathlib import Path
 
 import numpy as np
 
-from ..device import Device
-from ..patch import Patch
-from ..search import Placement
+from ..model.device import Device
+from ..model.patch import Patch
+from ..place.search import Placement
 
 ROLE_STYLE = {"data": ("o", "#0072B2"), "flag": ("D", "#E69F00"), "ancilla": ("s", "#009E73")}
 # (a diamond, not a triangle, for flags: wide enough to hold the name)
@@ -189,7 +189,7 @@ def _save(plt, fig, path):
         from ..io.writers import write_atomic_bytes
         suffix = Path(path).suffix.lower().lstrip(".") or "png"
         if suffix not in ("png", "svg"):
-            from ..io.errors import InputError
+            from ..errors import InputError
             raise InputError(f"pictures are written as .png or .svg, not .{suffix}", file=str(path))
         write_atomic_bytes(path, picture_bytes(fig, suffix))
     return fig

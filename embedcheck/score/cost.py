@@ -52,9 +52,9 @@ from typing import Sequence
 
 import numpy as np
 
-from .device import CalibrationArrays, Device
-from .patch import Patch
-from .search import Placement, check_placements, placement_grid
+from ..model.device import CalibrationArrays, Device
+from ..model.patch import Patch
+from ..place.search import Placement, check_placements, placement_grid
 
 FIGURE = "fidelity_product"
 TERMS = ("two_qubit", "readout", "single_qubit", "reset", "idle")

@@ -32,11 +32,11 @@ from typing import Callable, Sequence
 
 import numpy as np
 
-from .device import Device
-from .io.errors import InputError
+from ..model.device import Device
+from ..errors import InputError
 from .noise import noisy_circuit
-from .patch import Patch
-from .search import Placement
+from ..model.patch import Patch
+from ..place.search import Placement
 
 FIGURES = ("undetected", "kept", "fidelity_product")
 

@@ -28,11 +28,11 @@ from __future__ import annotations
 
 import math
 
-from .device import Device, pair
-from .io.errors import InputError
-from .patch import Patch
+from ..model.device import Device, pair
+from ..errors import InputError
+from ..model.patch import Patch
 from .schedule import _duration, _median_coupler_duration
-from .search import Placement
+from ..place.search import Placement
 from .simulate import _STIM, append_detectors
 
 

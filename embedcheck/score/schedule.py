@@ -33,9 +33,9 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from .device import Device, pair
-from .patch import Patch
-from .search import Placement
+from ..model.device import Device, pair
+from ..model.patch import Patch
+from ..place.search import Placement
 
 
 @dataclass(frozen=True)

@@ -22,8 +22,8 @@ import math
 
 import numpy as np
 
-from .io.errors import InputError
-from .patch import Patch
+from ..errors import InputError
+from ..model.patch import Patch
 
 _STIM = {"h": "H", "s": "S", "sdg": "S_DAG", "x": "X", "y": "Y", "z": "Z", "sx": "SQRT_X",
          "sxdg": "SQRT_X_DAG", "id": "I", "cx": "CX", "cz": "CZ", "cy": "CY", "swap": "SWAP"}
@@ -176,7 +176,7 @@ def _generic_noise(patch: Patch, noise: float):
 
 def _spanned_by_detectors(patch: Patch) -> bool:
     """True when the observable is a parity of detectors: no fault flips it unseen."""
-    from .repair import _rank
+    from ..repair.rewrite import _rank
     size = len(patch.measurement_record())
     rows = []
     for det in patch.detectors:

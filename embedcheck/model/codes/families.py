@@ -59,7 +59,7 @@ def family_yaml(family: str, *, distance: int = 3, rounds: int = 2, basis: str =
 
 def build_patch(family: str, **options):
     """A `Patch` of a family instance (through the ordinary YAML loader)."""
-    from ..io.patchfile import load_patch
+    from ...io.patchfile import load_patch
     text = family_yaml(family, **options)
     with tempfile.TemporaryDirectory() as folder:
         path = Path(folder) / f"{family}.yaml"

@@ -13,19 +13,19 @@ import sys
 
 import numpy as np
 
-from . import __version__
-from .audit import audit_placement
-from .io.chipfile import load_device, load_snapshots
-from .io.files import Outputs, forget_inputs, read_input
-from .io.writers import family_chip_yaml
-from .lattices import FAMILIES, build_family
-from .io.errors import InputError, did_you_mean
-from .io.patchfile import load_patch
-from .rank import CAUTION, rank_placements
-from .report import data as report_data
-from .report.text import render_audit, render_chip, render_find, render_patch, render_repair
-from .search import Placement
-from .vet import vet_patch
+from .. import __version__
+from ..audit.exact import audit_placement
+from ..io.chipfile import load_device, load_snapshots
+from ..io.files import Outputs, forget_inputs, read_input
+from ..io.writers import family_chip_yaml
+from ..model.lattices import FAMILIES, build_family
+from ..errors import InputError, did_you_mean
+from ..io.patchfile import load_patch
+from ..score.cost import CAUTION, rank_placements
+from ..report import data as report_data
+from ..report.text import render_audit, render_chip, render_find, render_patch, render_repair
+from ..place.search import Placement
+from ..pipeline.vet import vet_patch
 
 
 class _Parser(argparse.ArgumentParser):
@@ -241,7 +241,7 @@ def _check_against_chip(rules, device) -> None:
 def _constraints_from(args, patch, device):
     """The patch's constraints merged with the command line's (the command line adds)."""
     from dataclasses import replace
-    from .constraints import Constraints, build
+    from ..place.constraints import Constraints, build
     try:
         build(args.require)
     except InputError as err:
@@ -415,7 +415,7 @@ def _run_find(args) -> int:
                                        "faults flip the observable unseen), so that column does "
                                        "not rank them; ties are broken by 'kept'")
     elif patch.detectors and patch.observable and vetting.all_swap_free:
-        from .simulate import _spanned_by_detectors
+        from ..score.simulate import _spanned_by_detectors
         if _spanned_by_detectors(patch):
             payload["logical_note"] = ("the logical observable is a parity of the declared "
                                        "detectors, so no fault flips it unseen and the logical "
@@ -434,13 +434,13 @@ def _run_find(args) -> int:
         raise InputError(f"--figure {args.figure}: no placement makes every circuit swap-free, "
                          "so there is no noisy circuit to score; use fidelity_product")
     if len(snapshots) > 1 and vetting.ranking.placements:
-        from .rank import rank_across_snapshots
+        from ..score.cost import rank_across_snapshots
         payload["snapshots"] = report_data.snapshot_dict(
             patch, rank_across_snapshots(snapshots, patch, vetting.ranking.placements, by=by),
             top=min(top, 5))
     if args.compare_sdk:
         payload["sdk_choice"] = report_data.sdk_dict(device, patch, vetting)
-    from .report.picture import draw_placement, draw_score_map
+    from ..report.picture import draw_placement, draw_score_map
     if args.draw and vetting.ranking.placements:
         best = logical.placements[0] if logical is not None else vetting.ranking.placements[0]
         pictures[args.draw] = _picture(args.draw, draw_placement(
@@ -476,7 +476,7 @@ def _run_find(args) -> int:
 def _logical_ranking(args, device, patch, vetting):
     """(ranking by a logical figure when asked, or by 'auto' when it applies, else None;
     whether 'undetected' is 0 on every placement, so 'auto' could not use it)."""
-    from .logical import rank_by_logical, require_detectors
+    from ..score.logical import rank_by_logical, require_detectors
     figure = args.figure
     swap_free = [p for p, off in zip(vetting.ranking.placements, vetting.ranking.unscored_gates)
                  if off == 0] if vetting.all_swap_free else []
@@ -486,10 +486,10 @@ def _logical_ranking(args, device, patch, vetting):
     if figure == "auto":
         if not swap_free or not patch.detectors or not patch.observable:
             return None, zero
-        from .simulate import _spanned_by_detectors
+        from ..score.simulate import _spanned_by_detectors
         if _spanned_by_detectors(patch):     # no fault flips it unseen: every score is 0
             return None, zero
-        from .logical import undetected_zero_everywhere
+        from ..score.logical import undetected_zero_everywhere
         zero = undetected_zero_everywhere(patch)   # every fault at once: 0 there, 0 anywhere
         if zero and not args.monte_carlo:
             return None, zero
@@ -514,7 +514,7 @@ def _logical_ranking(args, device, patch, vetting):
 def _run_repair(args) -> int:
     from pathlib import Path
 
-    from .repair import repair_preparation
+    from ..repair.rewrite import repair_preparation
     device, patch = load_device(args.chip), load_patch(args.patch)
     out = Path(args.output)
     qasm_path = out.with_name(f"{out.stem}_{args.circuit}.qasm")
@@ -572,7 +572,7 @@ def _run_repair(args) -> int:
 def _run_projection(args, device, patch, placement, out, qasm_path, outputs) -> int:
     from pathlib import Path
 
-    from .repair import project_preparation
+    from ..repair.rewrite import project_preparation
     projection, fixed = project_preparation(patch, circuit=args.circuit)
     audit = audit_placement(device, fixed, placement)
     text = _repaired_yaml(Path(args.patch), out, args.circuit, qasm_path.name,
@@ -646,12 +646,12 @@ def _picture(target: str, figure) -> bytes:
     """A drawn figure as the bytes of `target`'s format (.png or .svg)."""
     from pathlib import Path
 
-    from .report.picture import picture_bytes
+    from ..report.picture import picture_bytes
     return picture_bytes(figure, Path(target).suffix.lower().lstrip("."))
 
 
 def _run_draw(args) -> int:
-    from .report.picture import draw_placement, draw_score_map
+    from ..report.picture import draw_placement, draw_score_map
     _check_picture_path(args.output, "--output")
     device = load_device(args.chip)
     patch = load_patch(args.patch) if args.patch is not None else None
@@ -724,7 +724,7 @@ def _run_audit(args) -> int:
                                                "unscored_gates")},
                "caution": CAUTION, "written": written}
     if args.cross_check:
-        from .checks import cross_check
+        from ..pipeline.checks import cross_check
         payload["cross_check"] = {"method": "qiskit transpile, optimization_level=0",
                                   "disagreements": cross_check(device, patch, [placement],
                                                                seed=args.seed)}
@@ -748,7 +748,7 @@ def _write_placed(folder, device, patch, report, outputs) -> dict:
     """Write each swap-free circuit as placed OpenQASM 3; say why any other is not written."""
     from pathlib import Path
 
-    from .qiskit_bridge import placed_qasm3
+    from ..audit.qiskit_views import placed_qasm3
 
     target = Path(folder)
     texts, skipped = {}, {}
@@ -826,12 +826,12 @@ def _run_validate(args) -> int:
 def _run_check(args) -> int:
     from pathlib import Path
 
-    from .checks import run_project
-    from .io.projectfile import load_project
-    from .report.junit import render_junit
-    from .report.markdown import render_markdown
-    from .report.sarif import render_sarif
-    from .report.text import render_check
+    from ..pipeline.checks import run_project
+    from ..io.projectfile import load_project
+    from ..report.junit import render_junit
+    from ..report.markdown import render_markdown
+    from ..report.sarif import render_sarif
+    from ..report.text import render_check
 
     if args.fail_on_worse and not args.baseline:
         raise InputError("--fail-on-worse compares with a previous report: give --baseline FILE")
@@ -886,8 +886,8 @@ def _read_baseline(path: str) -> dict:
 def _run_code(args) -> int:
     from pathlib import Path
 
-    from .codes import family_yaml
-    from .simulate import check_detectors, fault_distance, fault_distance_at_most
+    from ..model.codes import family_yaml
+    from ..score.simulate import check_detectors, fault_distance, fault_distance_at_most
     outputs = Outputs()
     if args.output:
         outputs.claim(args.output, option="--output", overwrite=False)
@@ -896,7 +896,7 @@ def _run_code(args) -> int:
                            basis=args.basis, prep=args.prep)
     except ValueError as exc:
         raise InputError(str(exc)) from None
-    from .codes import build_patch
+    from ..model.codes import build_patch
     patch = build_patch(args.family, distance=args.distance, rounds=args.rounds,
                         basis=args.basis, prep=args.prep)
     problems = check_detectors(patch)
@@ -975,7 +975,7 @@ def _run_generate(args) -> int:
 
 def _sanity(patch, path) -> None:
     """Declared detectors must be deterministic without noise (stim); else bad input."""
-    from .simulate import check_detectors
+    from ..score.simulate import check_detectors
     problems = check_detectors(patch)
     if problems:
         line = None
