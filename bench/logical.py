@@ -22,13 +22,13 @@ from embedcheck import load_device, vet_patch  # noqa: E402
 from embedcheck.score.logical import fast_scores, monte_carlo  # noqa: E402
 from embedcheck.score.noise import noisy_circuit  # noqa: E402
 from helpers import DEMO_CHIP  # noqa: E402
-from test_logical import _random_calibration, _syndrome_detector_patch  # noqa: E402
+from helpers import random_calibration, syndrome_detector_patch  # noqa: E402
 
 
 def main():
     with tempfile.TemporaryDirectory() as tmp:
-        patch = _syndrome_detector_patch(Path(tmp))
-    device = _random_calibration(load_device(DEMO_CHIP), seed=3)
+        patch = syndrome_detector_patch(Path(tmp))
+    device = random_calibration(load_device(DEMO_CHIP), seed=3)
     vetting = vet_patch(device, patch)
     placements = list(vetting.ranking.placements)
     t = time.perf_counter()

@@ -21,7 +21,8 @@ sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent / "tests"))
 from embedcheck import Device, heavy_hex, load_patch, rank_placements  # noqa: E402
 from embedcheck.model.device import CouplerCalibration, QubitCalibration  # noqa: E402
-from embedcheck.place.search import _automorphisms, _pattern, find_placements  # noqa: E402
+from embedcheck.place.search import find_placements  # noqa: E402
+from embedcheck.place.symmetry import automorphisms, interaction_pattern  # noqa: E402
 from helpers import FIXED_PATCH, patch_from_edges  # noqa: E402
 
 
@@ -44,7 +45,7 @@ def piece(rows, columns):
 
 def case(label, device, patch, circuits=None, processes=1):
     names = circuits or list(patch.circuits)
-    pattern, placed = _pattern(patch, names)
+    pattern, placed = interaction_pattern(patch, names)
     graph = device.live_graph()
     t = time.perf_counter()
     raw = [tuple(sorted((p, c) for c, p in m.items()))
@@ -58,7 +59,7 @@ def case(label, device, patch, circuits=None, processes=1):
     find_placements(device, patch, circuits=names, limit=None)
     peak = tracemalloc.get_traced_memory()[1]
     tracemalloc.stop()
-    autos = _automorphisms(pattern)
+    autos = automorphisms(pattern)
     ours_images = set()
     for p in result.placements:
         image = tuple(p.physical[q] for q in placed)

@@ -17,7 +17,7 @@ import rustworkx as rx
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 from embedcheck import Device, find_placements, heavy_hex, load_patch, rank_placements  # noqa: E402
 from embedcheck.model.device import CouplerCalibration, QubitCalibration  # noqa: E402
-from embedcheck.place.search import _pattern  # noqa: E402
+from embedcheck.place.symmetry import interaction_pattern  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent
 
@@ -40,7 +40,7 @@ def search_case(rows, columns, patch):
                              for c in lat.couplers},
         qubit_calibration={q: QubitCalibration(float(rng.uniform(0.01, 0.03)))
                            for q in lat.qubits})
-    pattern, _ = _pattern(patch, ["round"])
+    pattern, _ = interaction_pattern(patch, ["round"])
     chip = dev.live_graph()
     base_t, raw = best_of(lambda: sum(1 for _ in rx.vf2_mapping(
         chip, pattern, subgraph=True, induced=False, id_order=False)))

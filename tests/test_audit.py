@@ -6,7 +6,7 @@ import pytest
 
 from embedcheck import audit_placement, load_device, load_patch, off_coupler_counts, vet_patch
 from embedcheck.audit.qiskit_views import transpile_on_placement
-from embedcheck.place.search import Placement
+from embedcheck import Placement
 from helpers import DEMO_CHIP, DEMO_PATCH, FIXED_PATCH
 
 

@@ -16,7 +16,7 @@ from embedcheck.model.lattices import heavy_hex, line
 from embedcheck.model.patch import Circuit, Patch
 from embedcheck.io.qasm import read_qasm
 from embedcheck.audit.qiskit_views import transpile_on_placement
-from embedcheck.place.search import Placement
+from embedcheck import Placement
 from helpers import DEMO_CHIP, DEMO_PATCH, FIXED_PATCH, ROOT
 
 PROJECT = ROOT / "samples" / "project.yaml"
@@ -242,7 +242,7 @@ def test_placed_circuits_out(tmp_path, capsys):
 def test_exact_audit_agrees_with_qiskit_on_family_patches(family, options):
     # Reference: qiskit's transpiler at optimization_level=0, as above, on 50 placements of
     # each family patch on an invented square-grid chip (the swap-free ones and random ones).
-    from embedcheck.model.codes import build_patch
+    from embedcheck.io.patchfile import patch_from_family as build_patch
     from embedcheck.model.lattices import square_grid
     patch = build_patch(family, rounds=2, **options)
     device = Device.from_lattice(square_grid(5, 6), name="grid")

@@ -4,7 +4,7 @@ import pytest
 import rustworkx as rx
 from qiskit.transpiler import CouplingMap
 
-from embedcheck import Device, InputError, load_device
+from embedcheck import Device, InputError, device_from_target, device_target, load_device
 from embedcheck.cli import main
 from embedcheck.model.device import CouplerCalibration, QubitCalibration
 from embedcheck.place.graphs import shortest_cycle
@@ -77,7 +77,7 @@ def test_target_round_trip_keeps_everything():
         directed = {} if native == "cz" else {(1, 2): (2, 1), (0, 1): (0, 1)}
         dev = Device(name="t", qubits=(0, 1, 2, 3), couplers=tuple(ccal), qubit_calibration=qcal,
                      coupler_calibration=ccal, directed=directed, native_two_qubit_gate=native)
-        back = Device.from_target(dev.to_target(), name="t")
+        back = device_from_target(device_target(dev), name="t")
         assert back.couplers == dev.couplers and back.native_two_qubit_gate == native
         assert dict(back.directed) == directed
         for q in range(4):
@@ -205,3 +205,11 @@ def test_graphs_become_chips_or_say_why_not():
                          (nx.Graph(), "no nodes"), (nx.Graph([(0, 0), (0, 1)]), "self-loop")):
         with pytest.raises(InputError, match=words):
             Device.from_graph(graph, name="x")
+
+
+def test_generate_lists_every_lattice_family_with_its_size_options():
+    # The command line lists the families itself (so --help need not import the model).
+    from embedcheck.cli.generate import CHIP_FAMILIES
+    from embedcheck.model.lattices import FAMILIES
+    assert CHIP_FAMILIES == {kind: params for kind, (_, params) in FAMILIES.items()}
+

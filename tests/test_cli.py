@@ -254,8 +254,8 @@ def test_worker_processes_scores_and_internal_errors(tmp_path, capsys, monkeypat
     out = capsys.readouterr().out
     assert "no one or two faults flip the logical observable" in out
     assert format_score(1.234e-5) == "1.234e-05" and format_score(0.5974) == "0.5974"
-    import embedcheck.cli.app as cli
-    monkeypatch.setattr(cli, "vet_patch", lambda *a, **k: 1 / 0)
+    import embedcheck.pipeline.find as pipeline_find
+    monkeypatch.setattr(pipeline_find, "vet_patch", lambda *a, **k: 1 / 0)
     assert main(["find", str(DEMO_CHIP), str(rep)]) == 3
     err = capsys.readouterr().err
     assert err.startswith("embedcheck: internal error: ZeroDivisionError") and err.count("\n") == 1

@@ -13,10 +13,16 @@ from embedcheck.model.device import CouplerCalibration, QubitCalibration
 from embedcheck.io.patchfile import patch_from_stim
 from embedcheck.model.lattices import line
 from embedcheck.score.logical import fast_score, fast_scores, monte_carlo, rank_by_logical, wilson
-from embedcheck.score.noise import (idle_pauli, noisy_circuit, single_qubit_depolarizing,
-                              two_qubit_depolarizing)
-from embedcheck.place.search import Placement
-from helpers import DEMO_CHIP, FIXED_PATCH
+from embedcheck.score.idle import idle_channel
+from embedcheck.score.noise import noisy_circuit, single_qubit_depolarizing, two_qubit_depolarizing
+from embedcheck import Placement
+from helpers import DEMO_CHIP, FIXED_PATCH, random_calibration, syndrome_detector_patch
+
+
+def idle_pauli(t_ns, t1_us, t2_us):
+    """(px, py, pz) of the one idle model, as floats."""
+    channel = idle_channel(t_ns, t1_us, t2_us)
+    return float(channel.px), float(channel.px), float(channel.pz)
 
 
 def test_depolarizing_conversions():
@@ -48,35 +54,10 @@ def test_readout_and_reset_flips_sit_around_the_operation():
     assert re.search(r"X_ERROR\(0\.02\) 1\nM 1\nR 1\nX_ERROR\(0\.03\) 1", text)
 
 
-def _syndrome_detector_patch(tmp_path):
-    """The coupler-respecting demo patch with every syndrome bit of every round as its own
-    detector and the data parity as the observable (no final comparison)."""
-    text = FIXED_PATCH.read_text().split("detectors:")[0]
-    lines = ["detectors:"]
-    for r in range(2):
-        for bit in ("xcheck[0]", "xcheck[1]", "xcheck[2]", "zcheck[0]", "zcheck[1]"):
-            lines.append(f'  - {{measurements: ["round[{r}]:{bit}"]}}')
-    lines.append('observable: ["readout:m[0]", "readout:m[1]", "readout:m[2]", "readout:m[3]"]')
-    (tmp_path / "p.yaml").write_text(text + "\n".join(lines) + "\n")
-    shutil.copy(FIXED_PATCH.parent / "flagged_weight4_round.qasm", tmp_path)
-    return load_patch(tmp_path / "p.yaml")
-
-
-def _random_calibration(device, seed):
-    rng = random.Random(seed)
-    return replace(device, coupler_calibration={
-        c: CouplerCalibration(rng.uniform(0.002, 0.03), 300.0) for c in device.couplers},
-        qubit_calibration={q: QubitCalibration(
-            readout_error=rng.uniform(0.002, 0.03), single_qubit_error=rng.uniform(1e-4, 1e-3),
-            t1_us=rng.uniform(60, 200), t2_us=rng.uniform(40, 120),
-            single_qubit_duration_ns=36.0, measurement_duration_ns=900.0)
-            for q in device.qubits})
-
-
 def test_fast_score_ranks_like_monte_carlo(tmp_path):
     from scipy.stats import spearmanr
-    patch = _syndrome_detector_patch(tmp_path)
-    device = _random_calibration(load_device(DEMO_CHIP), seed=3)
+    patch = syndrome_detector_patch(tmp_path)
+    device = random_calibration(load_device(DEMO_CHIP), seed=3)
     placements = list(vet_patch(device, patch).ranking.placements)[::4][:42]
     assert len(placements) >= 40
     fast = [s.undetected for s in fast_scores(device, patch, placements)]
@@ -149,13 +130,13 @@ def test_matching_refusal_is_plain(monkeypatch):
         def detector_error_model(self, **kwargs):
             raise ValueError("Failed to decompose errors into graphlike components")
     with pytest.raises(InputError) as err:
-        logical._decode(Refusing(), None)
+        logical.decode_observables(Refusing(), None)
     assert "cannot be matched" in str(err.value)
 
 
 def test_find_ranks_by_the_logical_figure(tmp_path, capsys):
     from embedcheck.cli import main
-    _syndrome_detector_patch(tmp_path)
+    syndrome_detector_patch(tmp_path)
     code = main(["find", str(DEMO_CHIP), str(tmp_path / "p.yaml"), "--top", "2",
                  "--monte-carlo", "5000", "--format", "json"])
     import json
@@ -173,8 +154,8 @@ def test_find_ranks_by_the_logical_figure(tmp_path, capsys):
 def test_fast_scores_in_worker_processes_match(tmp_path):
     # Devices and patches are pickled for the workers (their mappings are read-only views).
     from embedcheck.score.logical import fast_scores
-    patch = _syndrome_detector_patch(tmp_path)
-    device = _random_calibration(load_device(DEMO_CHIP), seed=3)
+    patch = syndrome_detector_patch(tmp_path)
+    device = random_calibration(load_device(DEMO_CHIP), seed=3)
     placements = list(vet_patch(device, patch).ranking.placements)
     assert len(placements) > 64                       # enough to use the worker pool
     assert fast_scores(device, patch, placements, processes=2) == \
@@ -187,7 +168,7 @@ def test_auto_figure_falls_back_only_when_zero_on_every_placement(capsys):
     # find says so and keeps the fidelity product.
     from pathlib import Path
     from embedcheck.cli import main
-    from embedcheck.model.codes import build_patch
+    from embedcheck.io.patchfile import patch_from_family as build_patch
     from embedcheck.score.logical import undetected_zero_everywhere
     data = Path(__file__).parent / "data"
     assert not undetected_zero_everywhere(load_patch(data / "rep2_one_round.yaml"))

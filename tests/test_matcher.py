@@ -11,7 +11,7 @@ from networkx.algorithms.isomorphism import GraphMatcher
 
 from embedcheck.model.lattices import heavy_hex, square_grid
 from embedcheck.place.matcher import Host, monomorphisms, plan
-from embedcheck.place.search import _automorphisms
+from embedcheck.place.symmetry import automorphisms
 
 
 def _maps(host_n, host_edges, k, edges, **kw):
@@ -77,7 +77,7 @@ def _pattern_graph(k, edges):
 
 
 def _orbit_check(host_n, host_edges, k, edges):
-    autos = _automorphisms(_pattern_graph(k, edges))
+    autos = automorphisms(_pattern_graph(k, edges))
     reps = _maps(host_n, host_edges, k, edges, symmetries=autos)
     host = rx.PyGraph()
     host.add_nodes_from(range(host_n))
@@ -136,7 +136,7 @@ def test_worker_processes_find_the_same_placements():
     # The anchors split between two processes: the same distinct placements, the same raw
     # count, and honest stop reasons under a count limit.
     from embedcheck import Device
-    from embedcheck.place.constraints import build
+    from embedcheck.model.constraints import build
     from embedcheck.place.search import find_placements
     from helpers import patch_from_edges
     piece = heavy_hex(2, 2)
@@ -180,7 +180,7 @@ def test_worker_caps_never_fake_a_limit():
     # 'complete', not stop at a count of maps that never became placements.
     import networkx as nx
     from embedcheck import Device
-    from embedcheck.place.constraints import build
+    from embedcheck.model.constraints import build
     from embedcheck.model.device import QubitCalibration
     from embedcheck.model.patch import Circuit, Operation, Patch
     from embedcheck.place.search import find_placements
@@ -201,7 +201,8 @@ def test_a_huge_symmetry_group_is_not_listed():
     # A star with 8 leaves has 8! = 40320 symmetries: more than the search lists, so maps
     # are not merged and the result says so (and every map is still found, per networkx).
     from embedcheck import Device
-    from embedcheck.place.search import MAX_SYMMETRIES, find_placements
+    from embedcheck.place.search import find_placements
+    from embedcheck.place.symmetry import MAX_SYMMETRIES
     from helpers import patch_from_edges
     import math
     assert math.factorial(8) > MAX_SYMMETRIES

@@ -166,7 +166,7 @@ def test_a_missing_cnot_makes_a_detector_random(tmp_path):
     broken = broken.replace("cx a[0], f[1];\ncx f[0], d[0];", "cx f[0], d[0];", 1)
     (tmp_path / "round.qasm").write_text(broken)
     problems = check_detectors(load_patch(tmp_path / "p.yaml"))
-    assert any("X_first" in p for p in problems), problems
+    assert any("X_first" in p.message for p in problems), problems
 
 
 @pytest.mark.parametrize("change,expected", [

@@ -6,23 +6,62 @@ import numpy as np
 import pytest
 
 from embedcheck import load_device, load_patch, rank_placements, vet_patch
-from embedcheck.score.cost import idle_error
+from embedcheck.score.idle import idle_channel
 from embedcheck.score.schedule import schedule_circuit
-from embedcheck.place.search import Placement
+from embedcheck import Placement
 from helpers import DEMO_CHIP, DEMO_PATCH, FIXED_PATCH
+
+
+def _idle_by_hand(device, patch, circuit, placement, again):
+    """Idle ns per patch qubit from a plain per-placement as-soon-as-possible schedule,
+    written here independently of the package's one (vectorised) schedule: each operation
+    starts when its qubits are free; a qubit idles from its first operation (from 0 when it
+    already holds state) to the circuit's end whenever it is not busy."""
+    where = placement.as_dict(patch)
+    free = dict.fromkeys(patch.qubits, 0.0)
+    busy = dict.fromkeys(patch.qubits, 0.0)
+    first = dict.fromkeys(patch.waiting(circuit, again), 0.0)
+    cals = [device.coupler_calibration.get(c) for c in device.live_couplers]
+    known = [c.duration_ns for c in cals if c is not None and c.duration_ns]
+    median = sorted(known)[len(known) // 2] if len(known) % 2 else \
+        sum(sorted(known)[len(known) // 2 - 1:len(known) // 2 + 1]) / 2
+    for op in patch.circuits[circuit].operations:
+        qs = op.qubits
+        if op.kind == "barrier":
+            t = max(free[q] for q in qs)
+            for q in qs:
+                free[q] = t
+            continue
+        phys = [where[q] for q in qs]
+        if op.kind == "2q":
+            c = device.coupler_calibration.get(tuple(sorted(phys)))
+            length = (c.duration_ns or 0.0) if device.is_coupled(*phys) and c else median
+        else:
+            cal = device.qubit_calibration[phys[0]]
+            length = (cal.single_qubit_duration_ns if op.kind == "1q"
+                      else cal.measurement_duration_ns) or 0.0
+        start = max(free[q] for q in qs)
+        for q in qs:
+            first.setdefault(q, start)
+            free[q] = start + length
+            busy[q] += length
+    end = max(free.values())
+    return {q: max(end - first[q] - busy[q], 0.0) if q in first else 0.0 for q in patch.qubits}
 
 
 def _product_by_hand(device, patch, placement):
     """prod (1 - e) over every operation the experiment runs, one gate at a time, times
-    the idle factor from the per-placement schedule (schedule.py, not the vectorised one)."""
+    the idle factor from a per-placement schedule written here (not the package's)."""
     where = placement.as_dict(patch)
     s = 1.0
     for name, again, times in patch.runs():
-        idle = schedule_circuit(device, patch, name, placement, again=again).idle_ns
+        idle = _idle_by_hand(device, patch, name, placement, again)
+        assert idle == pytest.approx(dict(schedule_circuit(device, patch, name, placement,
+                                                           again=again).idle_ns))
         for _ in range(times):
             for q, t in idle.items():
                 cal = device.qubit_calibration[where[q]]
-                s *= 1 - float(idle_error(t, cal.t1_us, cal.t2_us))
+                s *= 1 - float(idle_channel(t, cal.t1_us, cal.t2_us).total)
             for op in patch.circuits[name].operations:
                 if op.kind == "2q":
                     a, b = (where[q] for q in op.qubits)

@@ -11,9 +11,11 @@ from embedcheck.cli import main
 from embedcheck.model.device import CouplerCalibration, QubitCalibration
 from embedcheck.model.lattices import heavy_hex, line
 from embedcheck.model.patch import Circuit, Operation, Patch
-from embedcheck.score.cost import idle_error, rank_across_snapshots, scores, sensitivity
+from embedcheck.score.cost import rank_across_snapshots, scores, sensitivity
+from embedcheck.score.idle import idle_channel
 from embedcheck.report.picture import draw_placement, draw_score_map
-from embedcheck.place.search import Placement, find_placements, placement_grid
+from embedcheck.model.placement import Placement, placement_grid
+from embedcheck.place.search import find_placements
 from embedcheck.score.schedule import schedule_circuit
 from helpers import DEMO_CHIP, FIXED_PATCH
 
@@ -75,13 +77,13 @@ def _kraus_twirled_error(t_us, t1_us, t2_us):
 def test_idle_error_matches_twirled_kraus_channel(t_us, t1, t2):
     # Reference: qiskit.quantum_info Kraus operators of amplitude and phase damping,
     # Pauli-twirled numerically through the Pauli transfer matrix.
-    assert float(idle_error(t_us * 1000, t1, t2)) == pytest.approx(
+    assert float(idle_channel(t_us * 1000, t1, t2).total) == pytest.approx(
         _kraus_twirled_error(t_us, t1, t2), rel=1e-9)
 
 
 def test_no_decoherence_means_no_idle_error():
-    assert float(idle_error(5000.0, np.inf, np.inf)) == 0.0
-    assert float(idle_error(0.0, 50.0, 40.0)) == 0.0
+    assert float(idle_channel(5000.0, np.inf, np.inf).total) == 0.0
+    assert float(idle_channel(0.0, 50.0, 40.0).total) == 0.0
 
 
 def test_vectorised_scores_equal_a_per_placement_reference_on_random_calibrations():
@@ -126,7 +128,7 @@ def _reference_log(dev, patch, placement):
                 one += math.log1p(-q.reset_error)
         for name_q, t in s.idle_ns.items():
             c = dev.qubit_calibration[where[name_q]]
-            one += math.log1p(-float(idle_error(t, c.t1_us, c.t2_us)))
+            one += math.log1p(-float(idle_channel(t, c.t1_us, c.t2_us).total))
         log += times * one
     return log
 

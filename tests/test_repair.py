@@ -14,8 +14,9 @@ from embedcheck.cli import main
 from embedcheck.model.device import pair
 from embedcheck.io.patchfile import patch_from_qiskit
 from embedcheck.model.lattices import heavy_hex
-from embedcheck.repair.rewrite import _two_qubit_count_depth, repair_preparation, repaired_patch
-from embedcheck.place.search import Placement
+from embedcheck.repair import repair_preparation, repaired_patch
+from embedcheck.repair.state import two_qubit_count_depth
+from embedcheck import Placement
 from helpers import DEMO_CHIP, DEMO_PATCH
 
 
@@ -179,10 +180,12 @@ def test_repair_command_writes_a_new_patch_and_never_overwrites(tmp_path, capsys
 
 
 def test_product_state_option_is_verified_and_drops_random_detectors(tmp_path, capsys):
-    from embedcheck.repair.rewrite import project_preparation
+    from embedcheck.repair import project_preparation
     from embedcheck.score.simulate import check_detectors
     patch = load_patch(DEMO_PATCH)
-    projection, fixed = project_preparation(patch, runs=24)
+    projection = project_preparation(patch, runs=24)
+    fixed = projection.patch
+    assert projection.repaired and projection.method == "product"
     assert projection.basis == "z" and "Z on d0" in projection.corrections
     assert projection.dropped_detectors == ("X_first",)
     assert check_detectors(fixed) == [] and len(fixed.detectors) == 11
@@ -198,8 +201,8 @@ def test_product_state_option_is_verified_and_drops_random_detectors(tmp_path, c
 
 
 def test_product_state_option_refuses_what_rounds_cannot_project():
-    from embedcheck.model.codes import build_patch
-    from embedcheck.repair.rewrite import project_preparation
+    from embedcheck.io.patchfile import patch_from_family as build_patch
+    from embedcheck.repair import project_preparation
     # |+00> on a bit-flip repetition code: its ZZ checks fix neither X(d0) nor Z(d1)
     # from any product state, so no round projects a product state onto it.
     patch = build_patch("repetition", distance=3, rounds=2)
@@ -210,9 +213,9 @@ def test_product_state_option_refuses_what_rounds_cannot_project():
             'h d[0];\nid d[1];\nid d[2];\n')
     cat = replace(patch, circuits={**patch.circuits,
                                    "prep": Circuit("prep", tuple(read_qasm(text)), text)})
-    with pytest.raises(InputError) as err:
-        project_preparation(cat)
-    assert "does not project a product state" in str(err.value)
+    finding = project_preparation(cat)                # a finding, not an error
+    assert not finding.repaired and finding.patch is None and not finding.qasm
+    assert "does not project a product state" in finding.finding
 
 
 def _css_prep(n, rows):
@@ -264,8 +267,9 @@ def test_surface_code_logical_zero_rewritten_onto_its_couplers():
     # of every check and of logical Z on the repaired circuit.
     from qiskit.quantum_info import Pauli, StabilizerState
 
-    from embedcheck.model.codes.families import surface_layout
-    from embedcheck.repair.rewrite import _ops_circuit, _row_reduce
+    from embedcheck.model.codes import surface_layout
+    from embedcheck.model.gf2 import row_reduce
+    from embedcheck.repair.state import ops_circuit
     import numpy as np
     data, checks = surface_layout(3)
     ancillas = [centre for _, centre, _ in checks]
@@ -276,7 +280,7 @@ def test_surface_code_logical_zero_rewritten_onto_its_couplers():
         for p in touched:
             if p is not None:
                 x_checks[r, index[p]] = 1
-    reduced, pivots = _row_reduce(x_checks)
+    reduced, pivots = row_reduce(x_checks)
     rows = [[c] + [q for q in np.flatnonzero(reduced[i]) if q != c] for i, c in enumerate(pivots)]
     patch = patch_from_qiskit({"prep": _css_prep(n, rows)}, name="surface-3-zero")
     couplers = sorted({pair(index[c], index[p]) for _, c, touched in checks for p in touched
@@ -286,7 +290,7 @@ def test_surface_code_logical_zero_rewritten_onto_its_couplers():
     fix = repair_preparation(device, patch, placement)
     assert fix.before["off_coupler_gates"] > 0 and fix.after["off_coupler_gates"] == 0
     assert fix.proven and fix.method == "css"
-    made = StabilizerState(_ops_circuit(patch, fix.operations))
+    made = StabilizerState(ops_circuit(patch, fix.operations))
     order = {q: patch.index[f"q{i}"] for i, q in enumerate(range(n))}
 
     def expect(kind, qubits):

@@ -8,7 +8,7 @@ import stim
 
 from embedcheck import Device, InputError, audit_placement, load_device, load_patch, vet_patch
 from embedcheck.cli import main
-from embedcheck.place.constraints import build
+from embedcheck.model.constraints import build
 from embedcheck.model.device import QubitCalibration
 from embedcheck.io.qasm import read_qasm
 from embedcheck.io.stimfile import read_stim

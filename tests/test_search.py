@@ -141,7 +141,7 @@ def test_the_api_refuses_what_the_command_line_refuses():
     # Bad requests and impossible placements are InputErrors with a reason, not KeyErrors,
     # TypeErrors or silently accepted nonsense.
     from embedcheck import InputError, audit_placement, load_device, load_patch, rank_placements
-    from embedcheck.place.search import Placement
+    from embedcheck import Placement
     from helpers import DEMO_CHIP, FIXED_PATCH
     device, patch = load_device(DEMO_CHIP), load_patch(FIXED_PATCH)
     for kwargs, words in (({"circuits": ["rund"]}, "did you mean 'round'"),
@@ -164,7 +164,7 @@ def test_empty_patches_numpy_numbers_and_huge_qubit_numbers():
     import numpy as np
     from embedcheck import InputError, rank_placements, vet_patch
     from embedcheck.model.patch import Patch
-    from embedcheck.place.search import Placement
+    from embedcheck import Placement
     from helpers import DEMO_CHIP
     from embedcheck import load_device, load_patch
     from helpers import FIXED_PATCH

@@ -11,7 +11,7 @@ from hypothesis import strategies as st
 from networkx.algorithms.isomorphism import DiGraphMatcher, GraphMatcher
 
 from embedcheck import Device, load_device, load_patch
-from embedcheck.place.constraints import build
+from embedcheck.model.constraints import build
 from embedcheck.model.device import QubitCalibration, pair
 from embedcheck.io.patchfile import patch_from_stim
 from embedcheck.model.lattices import heavy_hex

@@ -1,1 +1,2 @@
-"""audit stage."""
+"""The audit stage (see DEVELOPERS.md for what each module holds)."""
+__all__: list[str] = []

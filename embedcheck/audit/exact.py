@@ -7,12 +7,14 @@ how many gates a router would add to fix them is only an estimate, and is labell
 so (`router_estimate`, qiskit's transpiler at optimization level 0 with the
 placement as initial layout and a fixed seed).
 
-`off_coupler_counts` is the same test vectorised over many placements at once
-(numpy fancy indexing), used by the search report.
+`embedcheck.model.placement.off_coupler_counts` is the same test vectorised over many
+placements at once (numpy fancy indexing), used by the search report. Depth and
+duration come from the one schedule (`embedcheck.score.schedule`).
 
-    >>> from embedcheck.device import Device
-    >>> from embedcheck.lattices import square_grid
-    >>> from embedcheck.patch import Patch, Circuit, Operation
+    >>> from embedcheck.model.device import Device
+    >>> from embedcheck.model.lattices import square_grid
+    >>> from embedcheck.model.patch import Patch, Circuit, Operation
+    >>> from embedcheck.model.placement import Placement
     >>> ops = (Operation("cx", ("a", "b"), "2q", line=4), Operation("cx", ("a", "c"), "2q", line=5))
     >>> patch = Patch("t", ("a", "b", "c"), dict.fromkeys("abc", "data"), {"round": Circuit("round", ops)})
     >>> dev = Device.from_lattice(square_grid(1, 3), name="line")
@@ -22,18 +24,21 @@ placement as initial layout and a fixed seed).
 """
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Sequence
-
-import numpy as np
+from typing import Any
 
 from ..model.device import Device
-from ..model.patch import Patch
+from ..model.patch import SYMMETRIC_GATES, Patch
+from ..model.placement import Placement, check_placements
 from ..score.schedule import schedule_circuit
-from ..place.search import SYMMETRIC_GATES, Placement, check_placements, placement_grid
+from .qiskit_views import transpile_on_placement
+
+__all__ = ["AuditReport", "CircuitAudit", "OffCouplerGate", "audit_placement",
+           "estimate_router_overhead"]
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class OffCouplerGate:
     """A two-qubit gate whose two physical qubits share no live coupler."""
 
@@ -48,7 +53,7 @@ class OffCouplerGate:
     reason: str                # 'no coupler', 'dead coupler' or 'dead qubit'
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class CircuitAudit:
     """One circuit on one placement."""
 
@@ -57,7 +62,7 @@ class CircuitAudit:
     two_qubit_gates: int
     measurements: int
     off_coupler: tuple[OffCouplerGate, ...]
-    router_estimate: dict | None = None
+    router_estimate: Mapping[str, Any] | None = None
     direction_fixes: int = 0     # gates on a coupler whose native gate runs the other way
     depth: int = 0
     duration_ns: float = 0.0     # ASAP schedule with the chip's durations (see schedule.py)
@@ -68,7 +73,7 @@ class CircuitAudit:
         return not self.off_coupler
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class AuditReport:
     """Every circuit of a patch on one placement, plus the whole experiment's totals."""
 
@@ -101,40 +106,27 @@ def audit_placement(device: Device, patch: Patch, placement: Placement, *,
         for k, gate in enumerate(circuit.two_qubit_gates):
             a, b = (where[q] for q in gate.qubits)
             if not device.is_coupled(a, b):
-                off.append(OffCouplerGate(name, k, gate.qubits, (a, b), gate.written, gate.text,
-                                          gate.file, gate.line, _why_off(device, a, b)))
+                off.append(OffCouplerGate(
+                    circuit=name, gate_index=k, patch_qubits=(gate.qubits[0], gate.qubits[1]),
+                    physical_qubits=(a, b), written=gate.written, text=gate.text,
+                    file=gate.file, line=gate.line, reason=_why_off(device, a, b)))
             elif gate.written not in SYMMETRIC_GATES and not device.runs_natively(a, b):
                 flips += 1      # fixed by single-qubit gates (Hadamards round a CNOT): no SWAP
         estimate = None
         if router_estimate:
             estimate = estimate_router_overhead(device, patch, name, placement, seed=seed)
         timing = schedule_circuit(device, patch, name, placement)
-        audits.append(CircuitAudit(name, times.get(name, 0), len(circuit.two_qubit_gates),
-                                   len(circuit.measurements), tuple(off), estimate, flips,
-                                   timing.depth, timing.duration_ns, timing.missing))
-    return AuditReport(placement, tuple(audits))
-
-
-def off_coupler_counts(device: Device, patch: Patch, placements: Sequence[Placement],
-                       circuits: Sequence[str]) -> np.ndarray:
-    """Off-coupler two-qubit gates, shape (placements, circuits), without a per-placement loop."""
-    cal = device.calibration_arrays()
-    ones = np.ones(len(cal.coupler_keys))
-    grid = placement_grid(placements, patch.num_qubits)
-    out = np.zeros((len(placements), len(circuits)), dtype=np.int64)
-    for j, name in enumerate(circuits):
-        counts = patch.interaction_counts([name])
-        if not counts or not len(placements):
-            continue
-        pairs = np.array(list(counts), dtype=np.int64)
-        weight = np.array(list(counts.values()), dtype=np.int64)
-        on = ~np.isnan(cal.coupler(grid[:, pairs[:, 0]], grid[:, pairs[:, 1]], ones))
-        out[:, j] = (~on * weight).sum(axis=1)
-    return out
+        audits.append(CircuitAudit(
+            circuit=name, times_run=times.get(name, 0),
+            two_qubit_gates=len(circuit.two_qubit_gates), measurements=len(circuit.measurements),
+            off_coupler=tuple(off), router_estimate=estimate, direction_fixes=flips,
+            depth=timing.depth, duration_ns=timing.duration_ns,
+            missing_durations=timing.missing))
+    return AuditReport(placement=placement, circuits=tuple(audits))
 
 
 def estimate_router_overhead(device: Device, patch: Patch, circuit: str, placement: Placement,
-                             *, seed: int = 11) -> dict:
+                             *, seed: int = 11) -> dict[str, Any]:
     """Two-qubit gates qiskit's router adds for `circuit` on `placement` (an estimate).
 
     Transpiles at optimization_level=0 (higher levels cancel and resynthesise gates)
@@ -151,7 +143,7 @@ def estimate_router_overhead(device: Device, patch: Patch, circuit: str, placeme
 
 
 def _why_off(device: Device, a: int, b: int) -> str:
-    if (min(a, b), max(a, b)) not in device._all_couplers:
+    if not device.has_coupler(a, b):
         return "no coupler"
     if a in device.dead_qubits or b in device.dead_qubits:
         return "dead qubit"

@@ -1,25 +1,43 @@
-"""qiskit views of our data, for the transpiler cross-check and the router estimate.
+"""qiskit views of our data, for the transpiler cross-check, the router estimate, placed
+OpenQASM 3 and qiskit's own layout choice.
 
 A patch circuit's OpenQASM text is loaded with qiskit's own importers (qasm2, or
 qasm3 through `qiskit-qasm3-import`), so the cross-check does not share our parser.
-The chip becomes a `CouplingMap` of its live couplers in both directions.
+The chip becomes a qiskit `Target` of its live couplers (`embedcheck.io.qiskit_target`).
+
+    >>> from embedcheck.io.patchfile import patch_from_qiskit
+    >>> from qiskit import QuantumCircuit
+    >>> qc = QuantumCircuit(2)
+    >>> _ = qc.cx(0, 1)
+    >>> patch = patch_from_qiskit(qc)
+    >>> circuit, names = qiskit_circuit(patch, "round")
+    >>> circuit.num_qubits, names
+    (2, ['q0', 'q1'])
 """
 from __future__ import annotations
 
-from ..model.device import CouplerCalibration, Device, QubitCalibration, pair
+from typing import Any
+
+from ..errors import InputError, InternalError
 from ..io.qasm import declared_qubits, qasm_version
+from ..io.qiskit_target import device_target
+from ..model.device import Device
 from ..model.patch import Patch
-from ..place.search import Placement
+from ..model.placement import Placement
+
+__all__ = ["experiment_circuit", "initial_layout", "placed_qasm3", "qiskit_circuit",
+           "qiskit_layout", "sdk_layout", "transpile_on_placement"]
 
 
-
-def qiskit_circuit(patch: Patch, circuit: str):
+def qiskit_circuit(patch: Patch, circuit: str) -> tuple[Any, list[str]]:
     """The named circuit as a qiskit `QuantumCircuit`, and its qubits' patch names."""
     from qiskit import qasm2, qasm3
 
     text = patch.circuits[circuit].qasm
     if text is None:
-        raise ValueError(f"circuit '{circuit}' has no OpenQASM text")
+        raise InputError(f"circuit '{circuit}' of patch '{patch.name}' has no OpenQASM text "
+                         "(it comes from a stim file): qiskit cannot read it",
+                         file=patch.source)
     if qasm_version(text) == 2:
         qc = qasm2.loads(text, custom_instructions=qasm2.LEGACY_CUSTOM_INSTRUCTIONS)
     else:
@@ -29,128 +47,13 @@ def qiskit_circuit(patch: Patch, circuit: str):
     # from registers alone).
     names = declared_qubits(text)
     if len(names) != qc.num_qubits:
-        raise ValueError(f"circuit '{circuit}': qiskit reads {qc.num_qubits} qubits, "
-                         f"our reader {len(names)}")
+        raise InternalError(f"circuit '{circuit}': qiskit reads {qc.num_qubits} qubits, "
+                            f"our reader {len(names)}")
     return qc, names
 
 
-_NS, _US = 1e-9, 1e-6
-
-
-def _native_gate(name: str):
-    from qiskit.circuit.library import CXGate, CZGate, ECRGate
-    return {"cx": CXGate, "cz": CZGate, "ecr": ECRGate}[name]()
-
-
-def device_target(device: Device):
-    """A qiskit `Target` of the live chip, carrying its calibration.
-
-    The native two-qubit gate sits on every live coupler, in its native direction only
-    for directed couplers; sx, x and rz on live qubits carry the single-qubit error
-    and duration, measure the readout error and duration, reset the reset error; T1
-    and T2 go into the qubit properties. Dead qubits and couplers are left out. The
-    control-flow operations are listed too: without them qiskit refuses circuits with
-    classically-controlled blocks.
-    """
-    from qiskit.circuit import (ForLoopOp, IfElseOp, Measure, Parameter, Reset, SwitchCaseOp,
-                                WhileLoopOp)
-    from qiskit.circuit.library import RZGate, SXGate, XGate
-    from qiskit.providers.backend import QubitProperties
-    from qiskit.transpiler import InstructionProperties, Target
-
-    def props(error, duration_ns):
-        return InstructionProperties(error=error,
-                                     duration=None if duration_ns is None else duration_ns * _NS)
-
-    n = max(device.qubits) + 1
-    qcal = device.qubit_calibration
-    qubit_props = []
-    for q in range(n):
-        c = qcal.get(q)
-        qubit_props.append(QubitProperties(
-            t1=c.t1_us * _US if c and c.t1_us else None,
-            t2=c.t2_us * _US if c and c.t2_us else None))
-    target = Target(num_qubits=n, qubit_properties=qubit_props)
-    two = {}
-    for a, b in device.live_couplers:
-        c = device.coupler_calibration.get((a, b))
-        p = (c.two_qubit_error, c.duration_ns) if c else (None, None)
-        for e in ([device.directed[(a, b)]] if (a, b) in device.directed else [(a, b), (b, a)]):
-            two[e] = props(*p)
-    target.add_instruction(_native_gate(device.native_two_qubit_gate), two)
-    live = device.live_qubits
-    empty = QubitCalibration()
-
-    def one(key_error, key_duration):
-        return {(q,): props(getattr(qcal.get(q, empty), key_error),
-                            getattr(qcal.get(q, empty), key_duration) if key_duration else None)
-                for q in live}
-    target.add_instruction(SXGate(), one("single_qubit_error", "single_qubit_duration_ns"))
-    target.add_instruction(XGate(), one("single_qubit_error", "single_qubit_duration_ns"))
-    target.add_instruction(RZGate(Parameter("theta")),
-                           {(q,): InstructionProperties(error=0.0, duration=0.0) for q in live})
-    target.add_instruction(Measure(), one("readout_error", "measurement_duration_ns"))
-    target.add_instruction(Reset(), one("reset_error", None))
-    for op, name in ((IfElseOp, "if_else"), (WhileLoopOp, "while_loop"),
-                     (ForLoopOp, "for_loop"), (SwitchCaseOp, "switch_case")):
-        target.add_instruction(op, name=name)
-    return target
-
-
-def device_from_target(target, *, name: str) -> Device:
-    """A `Device` from a qiskit `Target`: couplers, directions, native gate, calibration.
-
-    A coupler whose two-qubit gate the target lists in one direction only is directed.
-    Errors and durations are read from the instruction properties (durations in ns),
-    T1/T2 from the qubit properties (in us).
-    """
-    names = [op for op in ("cx", "cz", "ecr") if op in target.operation_names]
-    if not names:
-        raise ValueError("the target has no cx, cz or ecr gate")
-    native = names[0]
-    qargs = {tuple(q) for q in target[native]}
-    couplers, directed, ccal = set(), {}, {}
-    for a, b in sorted(qargs):
-        key = pair(a, b)
-        couplers.add(key)
-        if (b, a) not in qargs:
-            directed[key] = (a, b)
-        if key not in ccal or (a, b) == key:
-            p = target[native][(a, b)]
-            ccal[key] = CouplerCalibration(p.error if p else None, _ns(p))
-    qcal = {}
-    for q in range(target.num_qubits):
-        qp = target.qubit_properties[q] if target.qubit_properties else None
-        qcal[q] = QubitCalibration(
-            readout_error=_error(target, "measure", q),
-            single_qubit_error=_error(target, "sx", q),
-            reset_error=_error(target, "reset", q),
-            t1_us=qp.t1 / _US if qp is not None and qp.t1 else None,
-            t2_us=qp.t2 / _US if qp is not None and qp.t2 else None,
-            single_qubit_duration_ns=_ns(_prop(target, "sx", q)),
-            measurement_duration_ns=_ns(_prop(target, "measure", q)))
-    return Device(name=name, qubits=tuple(range(target.num_qubits)),
-                  couplers=tuple(sorted(couplers)), qubit_calibration=qcal,
-                  coupler_calibration=ccal, directed=directed, native_two_qubit_gate=native)
-
-
-def _prop(target, op, q):
-    if op not in target.operation_names:
-        return None
-    return target[op].get((q,))
-
-
-def _error(target, op, q):
-    p = _prop(target, op, q)
-    return p.error if p is not None else None
-
-
-def _ns(p):
-    return None if p is None or p.duration is None else round(p.duration / _NS, 9)
-
-
 def transpile_on_placement(device: Device, patch: Patch, circuit: str, placement: Placement,
-                           *, seed: int = 11) -> dict:
+                           *, seed: int = 11) -> dict[str, Any]:
     """Transpile one circuit with the placement as initial layout; count two-qubit gates.
 
     optimization_level=0: higher levels cancel and resynthesise gates, which would hide
@@ -175,13 +78,13 @@ def initial_layout(device: Device, patch: Patch, circuit: str, placement: Placem
     return _layout_list(device, patch, names, placement)
 
 
-def qiskit_layout(device: Device, patch: Patch, circuit: str, placement: Placement):
+def qiskit_layout(device: Device, patch: Patch, circuit: str, placement: Placement) -> Any:
     """The placement as a qiskit `Layout` over the named circuit's qubits."""
     from qiskit.transpiler import Layout
 
     qc, names = qiskit_circuit(patch, circuit)
     physical = _layout_list(device, patch, names, placement)
-    return Layout({bit: p for bit, p in zip(qc.qubits, physical)})
+    return Layout(dict(zip(qc.qubits, physical, strict=True)))
 
 
 def placed_qasm3(device: Device, patch: Patch, circuit: str, placement: Placement) -> str:
@@ -200,13 +103,14 @@ def placed_qasm3(device: Device, patch: Patch, circuit: str, placement: Placemen
     return head + qasm3.dumps(out)
 
 
-def _layout_list(device, patch, names, placement):
+def _layout_list(device: Device, patch: Patch, names: list[str],
+                 placement: Placement) -> list[int]:
     where = placement.as_dict(patch)
     spare = iter(q for q in sorted(set(device.live_qubits) - set(placement.physical)))
     return [where[n] if n in where else next(spare) for n in names]
 
 
-def _count_two_qubit(qc) -> int:
+def _count_two_qubit(qc: Any) -> int:
     total = 0
     for ins in qc.data:
         blocks = getattr(ins.operation, "blocks", ())
@@ -217,7 +121,7 @@ def _count_two_qubit(qc) -> int:
     return total
 
 
-def experiment_circuit(patch: Patch):
+def experiment_circuit(patch: Patch) -> Any:
     """The whole experiment (prep, rounds x round, readout) as one qiskit circuit on the
     patch's qubits (qubit i is patch qubit i), or None when a circuit has no OpenQASM."""
     from qiskit import QuantumCircuit
@@ -243,7 +147,8 @@ def experiment_circuit(patch: Patch):
     return whole
 
 
-def sdk_layout(device: Device, patch: Patch, *, seed: int = 11, call_limit: int = 10_000_000):
+def sdk_layout(device: Device, patch: Patch, *, seed: int = 11,
+               call_limit: int = 10_000_000) -> tuple[Placement | None, str]:
     """The placement qiskit's own VF2Layout pass picks for the whole experiment, or None.
 
     VF2Layout searches layouts that need no routing on the chip's `Target` and keeps

@@ -21,6 +21,8 @@ from ..errors import InputError
 from .files import note_input
 from .yamlfile import Document, read_yaml
 
+__all__ = ["device_from_document", "devices_from_document", "load_device", "load_snapshots"]
+
 _QUBIT_KEYS = ("readout_error", "single_qubit_error", "reset_error", "t1_us", "t2_us",
                "single_qubit_duration_ns", "measurement_duration_ns")
 
@@ -122,8 +124,8 @@ def _graph(doc: Document):
                             f"{' and '.join(params)}, not '{extra}'")
         try:
             lattice = build_family(fam["kind"], **{p: fam[p] for p in params})
-        except ValueError as exc:
-            raise doc.error(("family",), str(exc)) from None
+        except InputError as exc:
+            raise doc.error(("family",), exc.message) from None
         qubits, couplers, positions = list(lattice.qubits), list(lattice.couplers), \
             dict(lattice.positions)
     elif "qubits" in data:

@@ -20,7 +20,7 @@ leaves nothing behind.
     >>> out.claim(folder / "chip.yaml", option="--json")
     Traceback (most recent call last):
     ...
-    embedcheck.io.errors.InputError: ...chip.yaml: --json: will not write over an input file
+    embedcheck.errors.InputError: ...chip.yaml: --json: will not write over an input file
 """
 from __future__ import annotations
 

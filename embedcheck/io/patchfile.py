@@ -4,7 +4,7 @@ YAML circuits are OpenQASM 2 or 3, inline (`qasm: |`) or in a file (`file:`), or
 stim file (`stim:`), paths relative to the patch file. Lines reported for inline
 circuits are lines of the YAML file. Roles come from `qubits` (explicit lists), from
 `role_registers` (register name -> role), or, when neither is given, are inferred
-from the circuits (`embedcheck.patch.infer_roles`) and the report says so.
+from the circuits (`embedcheck.model.patch.infer_roles`) and the report says so.
 
 A bare `.qasm` file is a patch with one circuit, `round`, run once; a `.stim` file is
 split at its top-level REPEAT block into prep, round and readout (see `stimfile`),
@@ -17,13 +17,27 @@ import re
 from pathlib import Path
 from typing import Mapping
 
-from ..model.patch import (EXPERIMENT_ORDER, ROLES, Circuit, Detector, Operation, Patch, _natural,
-                     experiment_order, infer_roles)
 from ..errors import InputError, did_you_mean
+from ..model.codes import family_yaml
+from ..model.constraints import Constraints, build
+from ..model.patch import (
+    EXPERIMENT_ORDER,
+    ROLES,
+    Circuit,
+    Detector,
+    Operation,
+    Patch,
+    experiment_order,
+    infer_roles,
+    natural_sort_key,
+)
 from .files import read_input
 from .qasm import read_qasm
 from .stimfile import load_stim, read_stim
-from .yamlfile import Document, read_yaml
+from .yamlfile import Document, parse_yaml, read_yaml
+
+__all__ = ["input_root", "load_patch", "patch_from_document", "patch_from_family",
+           "patch_from_qiskit", "patch_from_stim", "patch_from_stim_experiment"]
 
 
 def load_patch(path: str | Path) -> Patch:
@@ -37,6 +51,21 @@ def load_patch(path: str | Path) -> Patch:
         return _with_roles(Path(path).stem, {"round": Circuit("round", tuple(ops), text, str(path))},
                            rounds=1, source=str(path))
     return patch_from_document(read_yaml(path, "patch"))
+
+
+def patch_from_family(family: str, *, distance: int = 3, rounds: int = 2, basis: str = "z",
+                      prep: str | None = None) -> Patch:
+    """A `Patch` of a built-in code family (`embedcheck.model.codes`), read from its patch
+    file text by the ordinary loader, so it is checked like any file.
+
+    >>> patch = patch_from_family("repetition", distance=3, rounds=2)
+    >>> patch.num_qubits, len(patch.detectors), patch.observable
+    (5, 6, (4,))
+    """
+    text = family_yaml(family, distance=distance, rounds=rounds, basis=basis, prep=prep)
+    from dataclasses import replace
+    patch = patch_from_document(parse_yaml(text, f"{family}.yaml", "patch"))
+    return replace(patch, source=None)
 
 
 def patch_from_qiskit(circuits, *, name: str = "patch", rounds: int = 1,
@@ -120,8 +149,7 @@ def patch_from_document(doc: Document) -> Patch:
                     constraints=_constraints(doc) if "constraints" in data else None)
 
 
-def _constraints(doc: Document):
-    from ..place.constraints import build
+def _constraints(doc: Document) -> Constraints:
     spec = doc.data["constraints"]
     for i, text in enumerate(spec.get("require", [])):
         try:
@@ -163,7 +191,7 @@ def _with_roles(name, circuits, *, rounds, roles=None, role_registers=None, sour
                 roles[q] = role_registers[reg]
         else:
             roles = infer_roles(circuits, rounds)
-        roles = {q: roles[q] for q in sorted(roles, key=_natural)}
+        roles = {q: roles[q] for q in sorted(roles, key=natural_sort_key)}
     circuits = {n: _trim_barriers(c, roles) for n, c in circuits.items()}
     return Patch(name=name, qubits=tuple(roles), roles=roles, circuits=circuits, rounds=rounds,
                  description=description, source=source, roles_inferred=inferred)
@@ -201,7 +229,7 @@ def _used_qubits(circuits) -> list[str]:
         for op in c.operations:
             if op.kind != "barrier":
                 seen.update(dict.fromkeys(op.qubits))
-    return sorted(seen, key=_natural)
+    return sorted(seen, key=natural_sort_key)
 
 
 def _register_of(qubit: str) -> str:

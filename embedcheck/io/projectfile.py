@@ -12,6 +12,8 @@ from typing import Mapping
 from ..errors import InputError, did_you_mean
 from .yamlfile import Document, read_yaml
 
+__all__ = ["PatchEntry", "Project", "Rules", "load_project"]
+
 DEFAULT_RULES = {"max_off_coupler_gates": 0, "min_placements": 1, "score_floor": None,
                  "required_circuits": []}
 
@@ -140,4 +142,3 @@ def _rules(doc: Document, path, given: dict, inherited: dict) -> Rules:
                  score_floor=floor, required_circuits=tuple(merged["required_circuits"]))
 
 
-__all__ = ["InputError", "PatchEntry", "Project", "Rules", "load_project"]

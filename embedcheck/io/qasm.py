@@ -27,6 +27,8 @@ from openqasm3 import ast
 from ..model.patch import Operation
 from ..errors import InputError
 
+__all__ = ["declared_qubits", "qasm_version", "read_qasm"]
+
 _ONE_QUBIT = {"id", "x", "y", "z", "h", "s", "sdg", "t", "tdg", "sx", "sxdg", "rx", "ry",
               "rz", "p", "u", "u1", "u2", "u3", "U", "r", "phase", "gphase"}
 _KEEP = {"cx", "CX"}   # already one CNOT; everything else goes through qiskit

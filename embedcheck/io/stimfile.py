@@ -28,6 +28,8 @@ from ..model.patch import Operation
 from ..errors import InputError
 from .files import read_input
 
+__all__ = ["StimExperiment", "load_stim", "read_stim"]
+
 
 @dataclass(frozen=True)
 class StimExperiment:

@@ -1,12 +1,23 @@
-"""Writers: every file is written atomically (temporary file, then rename), never half-written."""
+"""Writers: every file is written atomically (temporary file, then rename), never half-written;
+and the texts of the files we generate (a family's chip file, a repaired patch file).
+
+    >>> family_chip_yaml("line", "five", size=5).splitlines()[3]
+    'embedcheck_chip: 1'
+"""
 from __future__ import annotations
 
 import os
 import tempfile
+from collections.abc import Iterable
 from pathlib import Path
+from typing import Any
 
-from ..model.lattices import FAMILIES
 from ..errors import InputError
+from ..model.lattices import FAMILIES
+from .files import read_input
+
+__all__ = ["PLACEHOLDER", "family_chip_yaml", "repaired_patch_yaml", "write_atomic",
+           "write_atomic_bytes"]
 
 PLACEHOLDER = {"readout_error": 0.02, "single_qubit_error": 0.0005, "t1_us": 100.0,
                "t2_us": 100.0, "two_qubit_error": 0.01, "two_qubit_duration_ns": 400.0,
@@ -38,7 +49,7 @@ def write_atomic_bytes(path: str | Path, data: bytes) -> None:
         raise
 
 
-def family_chip_yaml(kind: str, name: str, **size) -> str:
+def family_chip_yaml(kind: str, name: str, **size: int) -> str:
     """A chip file for a lattice family with PLACEHOLDER calibration, marked as such."""
     _, params = FAMILIES[kind]
     family = ", ".join([f"kind: {kind}"] + [f"{p}: {size[p]}" for p in params])
@@ -58,3 +69,39 @@ def family_chip_yaml(kind: str, name: str, **size) -> str:
         f"  defaults: {{{defaults}}}",
         "",
     ])
+
+
+def repaired_patch_yaml(source: Path, target: Path, circuit: str, qasm_name: str, *,
+                        drop: Iterable[str] = (), how: str = "rewritten") -> str:
+    """The patch file `source` re-written for `target`: the circuit now from `qasm_name`,
+    other file paths re-based (circuit files outside the new folder inlined); detectors
+    named in `drop` left out; comments are not kept."""
+    import yaml
+
+    data: dict[str, Any] = yaml.safe_load(read_input(source))
+    folder = target.resolve().parent
+    for name, spec in data["circuits"].items():
+        for key in ("file", "stim"):
+            if key in spec:
+                full = (source.parent / spec[key]).resolve()
+                if folder in full.parents:
+                    spec[key] = os.path.relpath(full, folder)
+                elif key == "file":        # a patch reads circuit files only below itself
+                    spec.pop("file")
+                    spec["qasm"] = read_input(full, what="circuit file")
+                else:
+                    raise InputError(f"circuit '{name}' is a stim file outside the folder of "
+                                     f"--output; write the repaired patch beside {source.name}",
+                                     file=str(target))
+    data["circuits"][circuit] = {"file": qasm_name,
+                                 "description": f"repaired by embedcheck from {source.name}"}
+    dropped = set(drop)
+    if dropped and "detectors" in data:
+        data["detectors"] = [d for i, d in enumerate(data["detectors"])
+                             if d.get("name", f"D{i}") not in dropped]
+    data["name"] = f"{data['name']}-repaired"
+    old = str(data.get("description", "")).strip()
+    data["description"] = f"Circuit '{circuit}' {how}." + (f" The original patch: {old}"
+                                                            if old else "")
+    return (f"# Written by 'embedcheck repair' from {source.name}; circuit '{circuit}' is now "
+            f"{qasm_name}.\n" + yaml.safe_dump(data, sort_keys=False, width=100))

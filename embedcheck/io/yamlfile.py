@@ -21,6 +21,8 @@ import yaml
 from ..errors import InputError, did_you_mean
 from .files import read_input
 
+__all__ = ["Document", "key_name", "parse_yaml", "read_yaml", "schema"]
+
 KeyPath = tuple  # of str keys and int list indices
 
 

@@ -1,1 +1,2 @@
-"""model stage."""
+"""The model stage (see DEVELOPERS.md for what each module holds)."""
+__all__: list[str] = []

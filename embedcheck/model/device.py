@@ -1,31 +1,36 @@
 """The chip: qubits, fixed couplers, calibration, dead parts.
 
 A `Device` is plain immutable data. It is built by the loaders in `embedcheck.io`
-(from a YAML chip file) or directly from a lattice family; every later stage reads
-it and never changes it.
+(from a YAML chip file or a qiskit `Target`), from a lattice family or from a graph;
+every later stage reads it and never changes it. Derived views (the live couplers, the
+calibration as numpy arrays) are computed once, on first use (`functools.cached_property`).
 
-    >>> from embedcheck.lattices import square_grid
+    >>> from embedcheck.model.lattices import square_grid
     >>> dev = Device.from_lattice(square_grid(2, 3), name="toy")
     >>> dev.num_qubits, len(dev.couplers), dev.is_coupled(0, 1), dev.is_coupled(0, 4)
     (6, 7, True, False)
 """
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass, field
+from functools import cached_property
 from types import MappingProxyType
-from typing import Mapping
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
-import rustworkx as rx
 
+from ..errors import InputError
 from .frozen import reduce_frozen
+from .lattices import Lattice, Pair, pair
 
-Pair = tuple[int, int]
+if TYPE_CHECKING:
+    import rustworkx as rx
 
+__all__ = ["CalibrationArrays", "CouplerCalibration", "Device", "Pair", "QubitCalibration",
+           "pair"]
 
-def pair(a: int, b: int) -> Pair:
-    """The undirected coupler key for qubits a and b (smaller index first)."""
-    return (a, b) if a < b else (b, a)
+_DENSE_LIMIT = 4096      # qubits up to which coupler look-ups use a dense table
 
 
 @dataclass(frozen=True)
@@ -49,27 +54,31 @@ class CouplerCalibration:
     duration_ns: float | None = None
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class CalibrationArrays:
     """Dense numpy views of one calibration snapshot (see `Device.calibration_arrays`).
 
     Per-qubit figures are arrays indexed by physical qubit number. Couplers are kept
     sparse (memory grows with couplers, not qubits squared): `coupler(a, b, values)`
-    looks pairs up in bulk, NaN where no live coupler joins them.
+    looks pairs up in bulk, NaN where no live coupler joins them. The `*_given` masks
+    say where the calibration gives a duration (a missing one counts as 0).
     """
 
     coupler_keys: np.ndarray         # sorted a * n + b for live couplers (a < b)
     coupler_error: np.ndarray        # in the order of coupler_keys
     coupler_ns: np.ndarray
+    coupler_ns_given: np.ndarray
     size: int                        # n: largest qubit number + 1
     readout_error: np.ndarray
     single_qubit_error: np.ndarray
     reset_error: np.ndarray
     single_qubit_ns: np.ndarray
+    single_qubit_ns_given: np.ndarray
     measurement_ns: np.ndarray
+    measurement_ns_given: np.ndarray
     t1_us: np.ndarray                # inf where not given
     t2_us: np.ndarray
-    median_two_qubit_ns: float       # stands in for off-coupler gates
+    median_two_qubit_ns: float       # stands in for off-coupler gates (0 when none is known)
 
     def coupler_index(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
         """Index into the coupler arrays of the coupler joining a[i], b[i]; -1 where none.
@@ -79,7 +88,7 @@ class CalibrationArrays:
         """
         if not len(self.coupler_keys):
             return np.full(np.shape(a), -1, dtype=np.int64)
-        table = self._table()
+        table = self.dense_table
         if table is not None:
             return table[a, b]
         lo, hi = np.minimum(a, b), np.maximum(a, b)
@@ -87,16 +96,15 @@ class CalibrationArrays:
         pos = np.minimum(np.searchsorted(self.coupler_keys, keys), len(self.coupler_keys) - 1)
         return np.where(self.coupler_keys[pos] == keys, pos, -1)
 
-    def _table(self):
-        if self.size > 4096:
+    @cached_property
+    def dense_table(self) -> np.ndarray | None:
+        """The (n x n) table of coupler indices (-1: none), or None above 4096 qubits."""
+        if self.size > _DENSE_LIMIT:
             return None
-        cached = self.__dict__.get("_dense")
-        if cached is None:
-            cached = np.full((self.size, self.size), -1, dtype=np.int32)
-            lo, hi = np.divmod(self.coupler_keys, self.size)
-            cached[lo, hi] = cached[hi, lo] = np.arange(len(self.coupler_keys), dtype=np.int32)
-            object.__setattr__(self, "_dense", cached)
-        return cached
+        table = np.full((self.size, self.size), -1, dtype=np.int32)
+        lo, hi = np.divmod(self.coupler_keys, self.size)
+        table[lo, hi] = table[hi, lo] = np.arange(len(self.coupler_keys), dtype=np.int32)
+        return table
 
     def coupler(self, a: np.ndarray, b: np.ndarray, values: np.ndarray) -> np.ndarray:
         """values[coupler joining a[i], b[i]] elementwise, NaN where none does."""
@@ -134,7 +142,7 @@ class Device:
     calibration_timestamp: str | None = None
     source: str | None = None
 
-    def __reduce__(self):
+    def __reduce__(self) -> tuple[Any, ...]:
         return reduce_frozen(self)    # worker processes get copies
 
     def __post_init__(self) -> None:
@@ -142,13 +150,13 @@ class Device:
             object.__setattr__(self, name, MappingProxyType(dict(getattr(self, name))))
 
     @classmethod
-    def from_lattice(cls, lattice, **kwargs) -> "Device":
+    def from_lattice(cls, lattice: Lattice, **kwargs: Any) -> Device:
         """A device from a `lattices.Lattice`, with any other fields as keywords."""
         return cls(qubits=lattice.qubits, couplers=lattice.couplers,
                    positions=lattice.positions, **kwargs)
 
     @classmethod
-    def from_graph(cls, graph, *, name: str, **kwargs) -> "Device":
+    def from_graph(cls, graph: Any, *, name: str, **kwargs: Any) -> Device:
         """A device from a networkx or rustworkx graph; node i (or node label i) is qubit i.
         A directed graph's one-way arcs become native coupler directions.
 
@@ -156,7 +164,6 @@ class Device:
         >>> Device.from_graph(nx.cycle_graph(4), name="square").couplers
         ((0, 1), (0, 3), (1, 2), (2, 3))
         """
-        from ..errors import InputError
         if hasattr(graph, "edge_list"):               # rustworkx
             qubits = tuple(graph.node_indices())
             edges = list(graph.edge_list())
@@ -180,17 +187,6 @@ class Device:
             kwargs["directed"] = {pair(a, b): (a, b) for a, b in arcs if (b, a) not in arcs}
         return cls(name=name, qubits=tuple(sorted(qubits)), couplers=couplers, **kwargs)
 
-    def to_target(self):
-        """This device as a qiskit `Target` (see `embedcheck.qiskit_bridge.device_target`)."""
-        from ..audit.qiskit_views import device_target
-        return device_target(self)
-
-    @classmethod
-    def from_target(cls, target, *, name: str) -> "Device":
-        """A device from a qiskit `Target` (see `embedcheck.qiskit_bridge.device_from_target`)."""
-        from ..audit.qiskit_views import device_from_target
-        return device_from_target(target, name=name)
-
     def runs_natively(self, control: int, target: int) -> bool:
         """True when the native gate runs control -> target on a live coupler without a fix."""
         if not self.is_coupled(control, target):
@@ -207,39 +203,35 @@ class Device:
     def live_qubits(self) -> tuple[int, ...]:
         return tuple(q for q in self.qubits if q not in self.dead_qubits)
 
-    @property
+    @cached_property
     def live_couplers(self) -> tuple[Pair, ...]:
         """Couplers usable today: not dead and with both ends alive."""
-        cached = self.__dict__.get("_live_tuple")
-        if cached is None:
-            dead_q = self.dead_qubits
-            cached = tuple(c for c in self.couplers if c not in self.dead_couplers
-                           and c[0] not in dead_q and c[1] not in dead_q)
-            object.__setattr__(self, "_live_tuple", cached)
-        return cached
+        dead_q = self.dead_qubits
+        return tuple(c for c in self.couplers if c not in self.dead_couplers
+                     and c[0] not in dead_q and c[1] not in dead_q)
+
+    @cached_property
+    def live_coupler_set(self) -> frozenset[Pair]:
+        """`live_couplers` as a set, for look-ups."""
+        return frozenset(self.live_couplers)
+
+    @cached_property
+    def coupler_set(self) -> frozenset[Pair]:
+        """Every coupler, dead or alive, as a set."""
+        return frozenset(self.couplers)
 
     def is_coupled(self, a: int, b: int) -> bool:
         """True when a live coupler joins physical qubits a and b."""
-        return pair(a, b) in self._live_set
+        return pair(a, b) in self.live_coupler_set
 
-    @property
-    def _live_set(self) -> frozenset[Pair]:
-        cached = self.__dict__.get("_live_cache")
-        if cached is None:
-            cached = frozenset(self.live_couplers)
-            object.__setattr__(self, "_live_cache", cached)
-        return cached
-
-    @property
-    def _all_couplers(self) -> frozenset[Pair]:
-        cached = self.__dict__.get("_all_cache")
-        if cached is None:
-            cached = frozenset(self.couplers)
-            object.__setattr__(self, "_all_cache", cached)
-        return cached
+    def has_coupler(self, a: int, b: int) -> bool:
+        """True when a coupler joins a and b, dead or alive."""
+        return pair(a, b) in self.coupler_set
 
     def live_graph(self) -> rx.PyGraph:
         """The live coupling graph; node index i holds physical qubit `qubits[i]`."""
+        import rustworkx as rx
+
         graph = rx.PyGraph(multigraph=False)
         index = {q: graph.add_node(q) for q in self.qubits}
         graph.add_edges_from_no_data(
@@ -247,42 +239,45 @@ class Device:
         # Dead qubits stay as isolated nodes so node indices match `qubits`.
         return graph
 
-    def calibration_arrays(self) -> "CalibrationArrays":
+    @cached_property
+    def calibration_arrays(self) -> CalibrationArrays:
         """Every calibration figure as numpy arrays (see `CalibrationArrays`).
 
         Missing errors are 0 and missing durations 0; missing T1/T2 are infinite (no
         idle error); pairs without a live coupler look up as NaN. Built once per device
         (the device is immutable) and shared by the ranking, audit and schedule.
         """
-        cached = self.__dict__.get("_arrays")
-        if cached is None:
-            cached = self._build_arrays()
-            object.__setattr__(self, "_arrays", cached)
-        return cached
-
-    def _build_arrays(self) -> "CalibrationArrays":
         n = max(self.qubits) + 1 if self.qubits else 0
         live = sorted(self.live_couplers)
         keys = np.array([a * n + b for a, b in live], dtype=np.int64)
-        error = np.array([(self.coupler_calibration.get(c).two_qubit_error or 0.0)
-                          if self.coupler_calibration.get(c) else 0.0 for c in live])
-        ns = np.array([(self.coupler_calibration.get(c).duration_ns or 0.0)
-                       if self.coupler_calibration.get(c) else 0.0 for c in live])
+        cals = [self.coupler_calibration.get(c) for c in live]
+        error = np.array([(c.two_qubit_error or 0.0) if c else 0.0 for c in cals])
+        ns = np.array([(c.duration_ns or 0.0) if c else 0.0 for c in cals])
+        ns_given = np.array([c is not None and c.duration_ns is not None for c in cals],
+                            dtype=bool)
 
-        def qubit_array(name, missing):
+        def qubit_array(name: str, missing: float) -> np.ndarray:
             out = np.full(n, missing, dtype=float)
             for q, cal in self.qubit_calibration.items():
                 value = getattr(cal, name)
                 if value is not None:
                     out[q] = value
             return out
+
+        def given(name: str) -> np.ndarray:
+            out = np.zeros(n, dtype=bool)
+            for q, cal in self.qubit_calibration.items():
+                out[q] = getattr(cal, name) is not None
+            return out
         known = ns[ns > 0]
         return CalibrationArrays(
-            coupler_keys=keys, coupler_error=error, coupler_ns=ns, size=n,
-            readout_error=qubit_array("readout_error", 0.0),
+            coupler_keys=keys, coupler_error=error, coupler_ns=ns, coupler_ns_given=ns_given,
+            size=n, readout_error=qubit_array("readout_error", 0.0),
             single_qubit_error=qubit_array("single_qubit_error", 0.0),
             reset_error=qubit_array("reset_error", 0.0),
             single_qubit_ns=qubit_array("single_qubit_duration_ns", 0.0),
+            single_qubit_ns_given=given("single_qubit_duration_ns"),
             measurement_ns=qubit_array("measurement_duration_ns", 0.0),
+            measurement_ns_given=given("measurement_duration_ns"),
             t1_us=qubit_array("t1_us", np.inf), t2_us=qubit_array("t2_us", np.inf),
             median_two_qubit_ns=float(np.median(known)) if known.size else 0.0)

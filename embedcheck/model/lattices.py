@@ -22,9 +22,21 @@ Qubits are numbered row by row in reading order of their drawing positions.
 from __future__ import annotations
 
 import math
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
+from typing import Callable
 
-from .device import Pair, pair
+from ..errors import InputError
+
+__all__ = ["FAMILIES", "Lattice", "Pair", "build_family", "cut", "heavy_hex",
+           "heavy_hex_qubit_count", "hexagonal", "line", "pair", "ring", "square_grid"]
+
+Pair = tuple[int, int]
+
+
+def pair(a: int, b: int) -> Pair:
+    """The undirected coupler key for qubits a and b (smaller index first)."""
+    return (a, b) if a < b else (b, a)
 
 
 @dataclass(frozen=True)
@@ -34,7 +46,7 @@ class Lattice:
     family: str
     qubits: tuple[int, ...]
     couplers: tuple[Pair, ...]
-    positions: dict[int, tuple[float, float]]
+    positions: Mapping[int, tuple[float, float]]
 
 
 def heavy_hex_qubit_count(rows: int, columns: int) -> int:
@@ -43,10 +55,15 @@ def heavy_hex_qubit_count(rows: int, columns: int) -> int:
     return (m + 1) * (4 * n + 3) + m * (n + 1) - 4
 
 
-def _brick_wall(rows: int, columns: int, family: str):
+_Vertex = tuple[int, int]
+
+
+def _brick_wall(rows: int, columns: int,
+                family: str) -> tuple[dict[_Vertex, tuple[float, float]],
+                                      list[tuple[_Vertex, _Vertex]]]:
     """Honeycomb of rows x columns hexagons as a brick wall: vertices, bonds, positions."""
     if rows < 1 or columns < 1:
-        raise ValueError(f"{family} needs rows >= 1 and columns >= 1")
+        raise InputError(f"{family} needs rows >= 1 and columns >= 1")
     m, n = rows, columns
     width = 2 * n + 2
     corners = {(0, width - 1), (m, width - 1) if m % 2 == 1 else (m, 0)}
@@ -68,7 +85,7 @@ def hexagonal(rows: int, columns: int) -> Lattice:
 def line(size: int) -> Lattice:
     """`size` qubits in a row, each coupled to the next."""
     if size < 1:
-        raise ValueError("line needs size >= 1")
+        raise InputError("line needs size >= 1")
     return Lattice("line", tuple(range(size)), tuple((i, i + 1) for i in range(size - 1)),
                    {i: (float(i), 0.0) for i in range(size)})
 
@@ -76,7 +93,7 @@ def line(size: int) -> Lattice:
 def ring(size: int) -> Lattice:
     """`size` qubits on a cycle (size >= 3)."""
     if size < 3:
-        raise ValueError("ring needs size >= 3")
+        raise InputError("ring needs size >= 3")
     angle = 2 * math.pi / size
     positions = {i: (round(size / 2 * math.cos(i * angle), 6), round(size / 2 * math.sin(i * angle), 6))
                  for i in range(size)}
@@ -88,7 +105,7 @@ def heavy_hex(rows: int, columns: int) -> Lattice:
     """A heavy-hex chip of `rows` x `columns` heavy hexagons (both >= 1)."""
     points, bonds = _brick_wall(rows, columns, "heavy-hex")
     # The qubit on a bond sits at its midpoint.
-    mids = {}
+    mids: dict[tuple[_Vertex, _Vertex], tuple[float, float]] = {}
     for u, v in bonds:
         (xu, yu), (xv, yv) = points[u], points[v]
         mids[(u, v)] = ((xu + xv) / 2, (yu + yv) / 2)
@@ -98,7 +115,7 @@ def heavy_hex(rows: int, columns: int) -> Lattice:
 def square_grid(rows: int, columns: int) -> Lattice:
     """A rows x columns square grid with nearest-neighbour couplers."""
     if rows < 1 or columns < 1:
-        raise ValueError("square grid needs rows >= 1 and columns >= 1")
+        raise InputError("square grid needs rows >= 1 and columns >= 1")
     qubits = tuple(range(rows * columns))
     couplers = [(r * columns + c, r * columns + c + 1)
                 for r in range(rows) for c in range(columns - 1)]
@@ -109,20 +126,21 @@ def square_grid(rows: int, columns: int) -> Lattice:
 
 
 # family name -> (builder, its size parameters)
-FAMILIES = {"heavy-hex": (heavy_hex, ("rows", "columns")),
+FAMILIES: dict[str, tuple[Callable[..., Lattice], tuple[str, ...]]] = {"heavy-hex": (heavy_hex, ("rows", "columns")),
             "square-grid": (square_grid, ("rows", "columns")),
             "hexagonal": (hexagonal, ("rows", "columns")),
             "line": (line, ("size",)),
             "ring": (ring, ("size",))}
 
 
-def build_family(kind: str, **size) -> Lattice:
+def build_family(kind: str, **size: int) -> Lattice:
     """The lattice of family `kind` with its size parameters, e.g. build_family("line", size=5)."""
     builder, params = FAMILIES[kind]
     return builder(*(size[p] for p in params))
 
 
-def cut(lattice: Lattice, *, remove_qubits=(), remove_couplers=()) -> Lattice:
+def cut(lattice: Lattice, *, remove_qubits: Iterable[int] = (),
+        remove_couplers: Iterable[tuple[int, int]] = ()) -> Lattice:
     """The lattice without some qubits (and their couplers) and some couplers; numbers kept."""
     gone = set(remove_qubits)
     gone_c = {pair(*c) for c in remove_couplers}
@@ -132,7 +150,9 @@ def cut(lattice: Lattice, *, remove_qubits=(), remove_couplers=()) -> Lattice:
                    {q: xy for q, xy in lattice.positions.items() if q not in gone})
 
 
-def _numbered(family, points, mids, bonds, subdivide) -> Lattice:
+def _numbered(family: str, points: Mapping[_Vertex, tuple[float, float]],
+              mids: Mapping[tuple[_Vertex, _Vertex], tuple[float, float]],
+              bonds: list[tuple[_Vertex, _Vertex]], subdivide: bool) -> Lattice:
     """Number vertex and bond qubits in reading order (top row first, left to right)."""
     spots = [("v", v, xy) for v, xy in points.items()] + [("b", b, xy) for b, xy in mids.items()]
     spots.sort(key=lambda s: (s[2][1], s[2][0]))

@@ -18,15 +18,31 @@ The experiment is `prep`, then `round` repeated `rounds` times, then `readout`
 """
 from __future__ import annotations
 
+import re
 from collections import Counter
-from dataclasses import dataclass, field
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
+from functools import cached_property
 from types import MappingProxyType
-from typing import Mapping, Sequence
+from typing import TYPE_CHECKING, Any
 
+import numpy as np
+
+from . import gf2
 from .frozen import reduce_frozen
+
+if TYPE_CHECKING:
+    from .constraints import Constraints
+
+__all__ = ["EXPERIMENT_ORDER", "ROLES", "SYMMETRIC_GATES", "Circuit", "Detector", "Operation",
+           "Patch", "experiment_order", "infer_roles", "natural_sort_key",
+           "observable_is_detector_parity"]
 
 ROLES = ("data", "flag", "ancilla")
 EXPERIMENT_ORDER = ("prep", "round", "readout")
+# Two-qubit gates whose direction does not matter (no direction fix, no native direction).
+SYMMETRIC_GATES = frozenset({"cz", "swap", "rzz", "rxx", "ryy", "cp", "cu1", "cphase", "iswap",
+                             "dcx"})
 
 
 @dataclass(frozen=True)
@@ -95,17 +111,19 @@ class Patch:
     detectors: tuple[Detector, ...] = ()
     observable: tuple[int, ...] = ()
     roles_inferred: bool = False
-    constraints: object = None        # a constraints.Constraints, from the patch file
-    index: Mapping[str, int] = field(init=False, repr=False, compare=False)
+    constraints: Constraints | None = None        # from the patch file
 
-    def __reduce__(self):
+    def __reduce__(self) -> tuple[Any, ...]:
         return reduce_frozen(self)    # worker processes get copies
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "roles", MappingProxyType(dict(self.roles)))
         object.__setattr__(self, "circuits", MappingProxyType(dict(self.circuits)))
-        object.__setattr__(self, "index",
-                           MappingProxyType({q: i for i, q in enumerate(self.qubits)}))
+
+    @cached_property
+    def index(self) -> Mapping[str, int]:
+        """Patch qubit name -> its index in `qubits`."""
+        return MappingProxyType({q: i for i, q in enumerate(self.qubits)})
 
     @property
     def num_qubits(self) -> int:
@@ -120,7 +138,7 @@ class Patch:
         """(circuit, again, count): the experiment's runs by kind. A circuit run more than
         once is listed twice, its first run (again=False, count 1) and its later runs
         (again=True), because they differ in which qubits already hold state."""
-        out = []
+        out: list[tuple[str, bool, int]] = []
         for name, times in self.experiment():
             out.append((name, False, 1))
             if times > 1:
@@ -136,7 +154,7 @@ class Patch:
         names = [n for n, _ in self.experiment()]
         at = names.index(circuit) if circuit in names else len(names)
         before = names[:at] + ([circuit] if again else [])
-        last: dict = {}                          # each qubit's last operation so far
+        last: dict[str, str] = {}                          # each qubit's last operation so far
         for n in before:
             for op in self.circuits[n].operations:
                 if op.kind != "barrier":
@@ -144,7 +162,7 @@ class Patch:
                         last[q] = op.kind
         touched = {q for q, kind in last.items() if kind != "reset"}   # reset: back in |0>
         upcoming = [circuit] + names[at + 1:]
-        next_kind: dict = {}
+        next_kind: dict[str, str] = {}
         for n in upcoming:
             for op in self.circuits[n].operations:
                 if op.kind != "barrier":
@@ -160,14 +178,15 @@ class Patch:
         """
         names = list(self.circuits) if circuit_names is None else list(circuit_names)
         times = dict(self.experiment()) if weighted else {}
-        counts: Counter = Counter()
+        counts: Counter[tuple[int, int]] = Counter()
         for name in names:
             for op in self.circuits[name].two_qubit_gates:
                 a, b = (self.index[q] for q in op.qubits)
                 counts[(min(a, b), max(a, b))] += times.get(name, 1)
         return dict(sorted(counts.items()))
 
-    def per_circuit_counts(self, circuit_names: Sequence[str]) -> dict[tuple[int, int], tuple]:
+    def per_circuit_counts(self, circuit_names: Sequence[str]
+                           ) -> dict[tuple[int, int], tuple[int, ...]]:
         """For each interacting pair, its gate count in each named circuit (a tuple)."""
         each = [self.interaction_counts([n]) for n in circuit_names]
         pairs = sorted(set().union(*each)) if each else []
@@ -178,7 +197,7 @@ class Patch:
 
     def measurement_record(self) -> list[tuple[str, int, Operation]]:
         """(circuit, repetition, measurement) for every measurement of the experiment, in order."""
-        out = []
+        out: list[tuple[str, int, Operation]] = []
         for name, times in self.experiment():
             measures = self.circuits[name].measurements
             for rep in range(times):
@@ -238,7 +257,7 @@ def infer_roles(circuits: Mapping[str, Circuit], rounds: int = 1) -> dict[str, s
             partners[a].add(b)
             partners[b].add(a)
     roles = {}
-    for q in sorted(order, key=_natural):
+    for q in sorted(order, key=natural_sort_key):
         if q not in helper:
             roles[q] = "data"
         else:
@@ -247,7 +266,28 @@ def infer_roles(circuits: Mapping[str, Circuit], rounds: int = 1) -> dict[str, s
     return roles
 
 
-def _natural(name: str):
-    """Sort q2 before q10."""
-    import re
+def natural_sort_key(name: str) -> list[Any]:
+    """Sort q2 before q10.
+
+    >>> sorted(["q10", "q2"], key=natural_sort_key)
+    ['q2', 'q10']
+    """
     return [int(t) if t.isdigit() else t for t in re.split(r"(\d+)", name)]
+
+
+def observable_is_detector_parity(patch: Patch) -> bool:
+    """True when the observable is a parity of detectors: no fault flips it unseen, so
+    every logical figure is 0 (GF(2) rank of the detectors with and without it)."""
+    size = len(patch.measurement_record())
+    rows = []
+    for det in patch.detectors:
+        row = np.zeros(size, dtype=np.uint8)
+        row[list(det.measurements)] ^= 1
+        rows.append(row)
+    obs = np.zeros(size, dtype=np.uint8)
+    for m in patch.observable:
+        obs[m] ^= 1
+    if not rows:
+        return False
+    base = np.array(rows)
+    return gf2.rank(np.vstack([base, obs])) == gf2.rank(base)

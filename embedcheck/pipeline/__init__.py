@@ -1,1 +1,2 @@
-"""pipeline stage."""
+"""The pipeline stage (see DEVELOPERS.md for what each module holds)."""
+__all__: list[str] = []

@@ -16,21 +16,28 @@ never a rule outcome.
 """
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Callable
 
 import numpy as np
 
+from ..audit.cross_check import cross_check
 from ..audit.exact import AuditReport, OffCouplerGate, audit_placement
-from ..model.device import Device
+from ..errors import InputError
 from ..io.chipfile import load_device
 from ..io.patchfile import load_patch
 from ..io.projectfile import Project, Rules
+from ..model.device import Device
 from ..model.patch import Patch
+from ..model.placement import Placement
+from ..repair.rewrite import repair_preparation
+from ..score.simulate import check_detectors
 from .vet import Vetting, vet_patch
 
+__all__ = ["CheckResult", "PairResult", "RuleOutcome", "check_pair", "run_project"]
 
-@dataclass(frozen=True)
+
+@dataclass(frozen=True, kw_only=True)
 class RuleOutcome:
     """One rule on one chip x patch (and circuit, where the rule is per circuit)."""
 
@@ -41,7 +48,7 @@ class RuleOutcome:
     gates: tuple[OffCouplerGate, ...] = ()
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class PairResult:
     """One chip x patch: the vetting, the audit of the chosen placement, the outcomes."""
 
@@ -59,7 +66,7 @@ class PairResult:
         return all(o.passed for o in self.outcomes)
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class CheckResult:
     project: Project
     pairs: tuple[PairResult, ...]
@@ -82,19 +89,17 @@ def run_project(project: Project, *, cross_check_top: int | None = None,
     for entry in project.patches:
         patch = load_patch(entry.file)
         if patch.detectors:                     # the noiseless sanity check comes first
-            from ..score.simulate import check_detectors
             problems = check_detectors(patch)
             if problems:
-                from ..errors import InputError
-                raise InputError(problems[0] + " (a bug in the circuit or the declaration)",
-                                 file=entry.file)
+                raise InputError(problems[0].message + " (a bug in the circuit or the "
+                                 "declaration)", file=entry.file)
         for device in devices:
             if progress:
                 progress(f"{patch.name} on {device.name}")
             pairs.append(check_pair(device, patch, entry.rules, limit=project.limit,
                                     budget_s=project.budget_s, cross_check_top=top,
                                     seed=project.cross_check_seed))
-    return CheckResult(project, tuple(pairs))
+    return CheckResult(project=project, pairs=tuple(pairs))
 
 
 def check_pair(device: Device, patch: Patch, rules: Rules, *, limit: int = 10_000,
@@ -108,15 +113,16 @@ def check_pair(device: Device, patch: Patch, rules: Rules, *, limit: int = 10_00
         np.ones(len(vetting.ranking.placements), dtype=bool)
     allowed = int(ok_rows.sum())
     # Take the best placement that keeps every allowance; else the best one there is.
-    chosen = None
+    chosen: Placement | None = None
     if len(vetting.ranking.placements):
         index = int(np.argmax(ok_rows)) if allowed else 0
         chosen = vetting.ranking.placements[index]
     audit = audit_placement(device, patch, chosen) if chosen is not None else None
     outcomes = []
     for name in rules.required_circuits:
-        outcomes.append(RuleOutcome("required_circuits", name, name in patch.circuits,
-                                    "present" if name in patch.circuits else
+        outcomes.append(RuleOutcome(rule="required_circuits", circuit=name,
+                                    passed=name in patch.circuits,
+                                    message="present" if name in patch.circuits else
                                     f"the patch has no circuit '{name}'"))
     for name in names:
         limit_n = rules.allowed(name)
@@ -126,79 +132,50 @@ def check_pair(device: Device, patch: Patch, rules: Rules, *, limit: int = 10_00
             why = "; ".join(vetting.search.reasons) or (
                 "no placement found" if vetting.complete else
                 "the time budget ran out before any placement was found")
-            outcomes.append(RuleOutcome("max_off_coupler_gates", name, ok,
-                                        "no two-qubit gates" if ok else f"no placement: {why}"))
+            outcomes.append(RuleOutcome(rule="max_off_coupler_gates", circuit=name, passed=ok,
+                                        message="no two-qubit gates" if ok else
+                                        f"no placement: {why}"))
             continue
         c = next(c for c in audit.circuits if c.circuit == name)
         n = len(c.off_coupler)
         msg = f"{n} off-coupler two-qubit gate(s), {limit_n} allowed" if n else "swap-free"
         if n > limit_n and name == (patch.experiment()[0][0] if patch.experiment() else None):
             msg += _repair_hint(device, patch, name, audit.placement)
-        outcomes.append(RuleOutcome("max_off_coupler_gates", name, n <= limit_n, msg,
-                                    c.off_coupler))
-    complete = "" if vetting.complete else \
-        f" (search incomplete: {vetting.search.stop_reason if not vetting.search.complete else 'budget'})"
+        outcomes.append(RuleOutcome(rule="max_off_coupler_gates", circuit=name,
+                                    passed=n <= limit_n, message=msg, gates=c.off_coupler))
+    stop = vetting.search.stop_reason.value if not vetting.search.complete else "budget"
+    complete = "" if vetting.complete else f" (search incomplete: {stop})"
     outcomes.append(RuleOutcome(
-        "min_placements", None, allowed >= rules.min_placements,
-        f"{allowed} distinct placement(s) keep every allowance, at least "
-        f"{rules.min_placements} required{complete}"))
+        rule="min_placements", circuit=None, passed=allowed >= rules.min_placements,
+        message=f"{allowed} distinct placement(s) keep every allowance, at least "
+                f"{rules.min_placements} required{complete}"))
     if rules.score_floor is not None:
         figure, floor = rules.score_floor
         if audit is None:
-            outcomes.append(RuleOutcome("score_floor", None, False,
-                                        f"{figure}: no placement to score"))
+            outcomes.append(RuleOutcome(rule="score_floor", circuit=None, passed=False,
+                                        message=f"{figure}: no placement to score"))
         else:
             index = vetting.ranking.placements.index(chosen)
             value = float(vetting.ranking.success[index])
-            outcomes.append(RuleOutcome("score_floor", None, value >= floor,
-                                        f"{figure} {value:.4f} on the chosen placement, floor "
-                                        f"{floor:.4f}"))
-    disagreements = ()
+            outcomes.append(RuleOutcome(rule="score_floor", circuit=None, passed=value >= floor,
+                                        message=f"{figure} {value:.4f} on the chosen placement, "
+                                                f"floor {floor:.4f}"))
+    disagreements: tuple[str, ...] = ()
     if cross_check_top and len(vetting.ranking.placements):
         disagreements = tuple(cross_check(device, patch,
                                           vetting.ranking.placements[:cross_check_top], seed=seed))
-    return PairResult(device, patch, rules, vetting, audit, tuple(outcomes), disagreements,
-                      allowed)
+    return PairResult(device=device, patch=patch, rules=rules, vetting=vetting, audit=audit,
+                      outcomes=tuple(outcomes), cross_check=disagreements,
+                      allowed_placements=allowed)
 
 
-def cross_check(device: Device, patch: Patch, placements, *, seed: int = 11) -> list[str]:
-    """Disagreements between the exact audit and qiskit's transpiler (none expected).
-
-    Agreement means: a swap-free circuit keeps its native two-qubit count through
-    `transpile(optimization_level=0)` with the placement as initial layout, and a
-    circuit with off-coupler gates gains two-qubit gates.
-    """
-    from ..audit.qiskit_views import transpile_on_placement
-
-    problems = []
-    for placement in placements:
-        report = audit_placement(device, patch, placement)
-        for c in report.circuits:
-            if patch.circuits[c.circuit].qasm is None:
-                continue
-            after = transpile_on_placement(device, patch, c.circuit, placement,
-                                           seed=seed)["two_qubit_gates"]
-            if c.swap_free and after != c.two_qubit_gates:
-                problems.append(f"{patch.name} on {device.name}, circuit {c.circuit}: our audit "
-                                f"finds it swap-free with {c.two_qubit_gates} two-qubit gates, "
-                                f"qiskit's transpiler gives {after}")
-            elif not c.swap_free and after <= c.two_qubit_gates:
-                problems.append(f"{patch.name} on {device.name}, circuit {c.circuit}: our audit "
-                                f"finds {len(c.off_coupler)} off-coupler gates, qiskit's "
-                                f"transpiler adds none")
-    return problems
-
-
-
-def _repair_hint(device, patch, circuit, placement) -> str:
+def _repair_hint(device: Device, patch: Patch, circuit: str, placement: Placement) -> str:
     """A suggestion when the failing preparation can be rewritten onto the couplers."""
-    from ..errors import InputError
-    from ..repair.rewrite import repair_preparation
     try:
         fix = repair_preparation(device, patch, placement, circuit=circuit)
     except InputError:
         return ""
-    if not fix.proven or fix.after["off_coupler_gates"]:
+    if not fix.repaired or not fix.proven or fix.after["off_coupler_gates"]:
         return ""
     return (f"; 'embedcheck repair' can rewrite it onto the couplers ({fix.method} method, "
             f"{fix.after['two_qubit_gates']} CNOTs, proven equivalent)")

@@ -11,32 +11,36 @@ for the report:
 4. for every such placement, the off-coupler gates of each circuit (vectorised), and
    the full audit of the best one, naming each offending gate and its source line.
 
-    >>> from embedcheck import load_device, load_patch   # doctest: +SKIP
+    >>> from embedcheck.io.chipfile import load_device
+    >>> from embedcheck.io.patchfile import load_patch
     >>> v = vet_patch(load_device("devices/demo_heavy_hex.yaml"),
-    ...               load_patch("samples/flagged_weight4.yaml"))   # doctest: +SKIP
-    >>> v.core, v.excluded                                          # doctest: +SKIP
-    (('round', 'readout'), ('prep',))
+    ...               load_patch("samples/flagged_weight4.yaml"))
+    >>> v.core, v.excluded, len(v.ranking.placements)
+    (('round', 'readout'), ('prep',), 21)
 """
 from __future__ import annotations
 
 import time
+from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Callable
 
 import numpy as np
 
-from ..audit.exact import AuditReport, audit_placement, off_coupler_counts
+from ..audit.exact import AuditReport, audit_placement
+from ..model.constraints import Constraints
 from ..model.device import Device
-from ..errors import InputError
 from ..model.patch import Patch
-from ..score.cost import Ranking, rank_placements
-from ..place.constraints import Constraints
-from ..place.search import NearMiss, SearchResult, find_placements, near_misses
+from ..model.placement import Placement, off_coupler_counts, placement_grid
+from ..place.near_misses import NearMiss, near_misses
+from ..place.search import SearchResult, StopReason, find_placements
+from ..score.cost import Ranking, rank_placements, scores
+
+__all__ = ["CircuitFit", "Vetting", "vet_patch"]
 
 _CORE_ORDER = ("round", "readout", "prep")
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class CircuitFit:
     """Whether one circuit alone has any swap-free placement, and why not."""
 
@@ -46,7 +50,7 @@ class CircuitFit:
     reasons: tuple[str, ...]
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class Vetting:
     """Everything the find report shows, in the order the stages produced it."""
 
@@ -91,19 +95,21 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
     # bad input: a project may list chips of every size.
     deadline = None if budget_s is None else time.monotonic() + budget_s
 
-    def left():                              # one budget for every stage, not one each
+    def left() -> float | None:              # one budget for every stage, not one each
         return None if deadline is None else max(0.0, deadline - time.monotonic())
 
-    fits, inconclusive = [], []
+    fits: list[CircuitFit] = []
+    inconclusive: list[str] = []
     for name, circuit in patch.circuits.items():
         if not circuit.two_qubit_gates:       # nothing to place: swap-free anywhere
-            fits.append(CircuitFit(name, 0, True, ()))
+            fits.append(CircuitFit(circuit=name, two_qubit_gates=0, fits_alone=True, reasons=()))
             continue
         alone = find_placements(device, patch, circuits=[name], limit=1, budget_s=left(),
                                 constraints=rules)
         known = bool(alone.placements) or alone.complete
-        fits.append(CircuitFit(name, len(circuit.two_qubit_gates),
-                               bool(alone.placements) if known else None, alone.reasons))
+        fits.append(CircuitFit(circuit=name, two_qubit_gates=len(circuit.two_qubit_gates),
+                               fits_alone=bool(alone.placements) if known else None,
+                               reasons=alone.reasons))
         if not known:
             inconclusive.append(name)
     # The core: circuits with two-qubit gates that fit together, check round first.
@@ -131,16 +137,18 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
         core += [n for n in order if n not in gated]
         search = find_placements(device, patch, circuits=core, limit=limit, budget_s=left(),
                                  progress=progress, constraints=rules, processes=processes)
-        misses = ()
+        misses: tuple[NearMiss, ...] = ()
     elif inconclusive:
-        search = SearchResult(tuple(gated), (), 0, 1, "budget", (), 0.0)
+        search = SearchResult(circuits=tuple(gated), placements=(), raw_maps=0, symmetry_order=1,
+                              stop_reason=StopReason.BUDGET, reasons=(), elapsed_s=0.0)
         misses = ()
     else:
         reasons = tuple(dict.fromkeys(r for f in fits for r in f.reasons)) or (
             "no circuit with two-qubit gates has a swap-free placement",)
-        search = SearchResult(tuple(gated), (), 0, 1, "complete", reasons, 0.0)
+        search = SearchResult(circuits=tuple(gated), placements=(), raw_maps=0, symmetry_order=1,
+                              stop_reason=StopReason.COMPLETE, reasons=reasons, elapsed_s=0.0)
         misses = tuple(near_misses(device, patch, gated, constraints=rules,
-                                   budget_s=min(5.0, 5.0 if deadline is None else left())))
+                                   budget_s=min(5.0, 5.0 if deadline is None else left() or 0.0)))
     excluded = tuple(n for n in patch.circuits if n not in core)
     ranking = rank_placements(device, patch, _best_of_orbits(device, patch, search))
     names = list(patch.circuits)
@@ -148,17 +156,17 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
     best = audit_placement(device, patch, ranking.placements[0]) if ranking.placements else None
     used = {q for pair in patch.interaction_counts(core or list(patch.circuits)) for q in pair}
     unconstrained = tuple(q for i, q in enumerate(patch.qubits) if i not in used)
-    return Vetting(device, patch, tuple(fits), tuple(core), excluded, search, ranking, off, best,
-                   unconstrained, rules, misses, tuple(inconclusive))
+    return Vetting(device=device, patch=patch, fits=tuple(fits), core=tuple(core),
+                   excluded=excluded, search=search, ranking=ranking, off_coupler=off,
+                   best_audit=best, unconstrained=unconstrained, constraints=rules,
+                   near_misses=misses, inconclusive=tuple(inconclusive))
 
 
-def _best_of_orbits(device: Device, patch: Patch, search: SearchResult):
+def _best_of_orbits(device: Device, patch: Patch,
+                    search: SearchResult) -> tuple[Placement, ...]:
     """Each distinct placement stands for its orbit under the patch's symmetries (of the
     searched circuits); the circuits left out of the search, gate order and measurements
     may still tell the members apart, so keep the best-scoring member of each orbit."""
-    from ..score.cost import scores
-    from ..place.search import Placement, placement_grid
-
     placements = search.placements
     k = len(search.symmetries)
     if k <= 1 or not placements or len(placements) * k > 2_000_000:
@@ -167,7 +175,7 @@ def _best_of_orbits(device: Device, patch: Patch, search: SearchResult):
     perms = np.array(search.symmetries, dtype=np.int64)
     members = grid[:, perms].reshape(len(placements) * k, patch.num_qubits)
     terms, unscored = scores(device, patch, members)
-    total = sum(terms.values())
+    total: np.ndarray = sum(terms.values())  # type: ignore[assignment]
     order = np.lexsort((-total, unscored))
     orbit = order // k
     _, first = np.unique(orbit, return_index=True)

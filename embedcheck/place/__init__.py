@@ -1,1 +1,2 @@
-"""place stage."""
+"""The place stage (see DEVELOPERS.md for what each module holds)."""
+__all__: list[str] = []

@@ -9,6 +9,8 @@ from __future__ import annotations
 
 from collections import Counter, deque
 
+__all__ = ["degree_histogram", "odd_cycle_nodes", "shortest_cycle", "shortest_cycle_nodes"]
+
 
 def degree_histogram(nodes, edges) -> dict[int, int]:
     """{degree: number of nodes with it}, nodes with no edge counted at degree 0."""

@@ -1,22 +1,39 @@
 """Plain JSON-ready dictionaries of results; the text renderer and `--format json` share them.
 
-The shape is described by `embedcheck/schemas/find-report.schema.json` and
-`audit-report.schema.json`.
+Formatting only: every figure here was computed by an earlier stage. The shape is
+described by `embedcheck/schemas/find-report.schema.json`, `audit-report.schema.json` and
+`check-report.schema.json`.
+
+    >>> from embedcheck.model.device import Device
+    >>> chip_summary(Device(name="pair", qubits=(0, 1), couplers=((0, 1),)))["live_couplers"]
+    1
 """
 from __future__ import annotations
 
+from collections.abc import Sequence
+from typing import Any
+
 import numpy as np
 
-from .. import __version__
-from ..place.graphs import degree_histogram, shortest_cycle
-from ..audit.exact import AuditReport
+from ..audit.exact import AuditReport, OffCouplerGate
 from ..model.device import Device
 from ..model.patch import Patch
-from ..score.cost import CAUTION, Ranking
-from ..pipeline.vet import Vetting
+from ..pipeline.checks import CheckResult
+from ..pipeline.find import FindResult, LogicalNote
+from ..pipeline.sdk import SdkComparison
+from ..place.graphs import degree_histogram, shortest_cycle
+from ..score.cost import CAUTION, Ranking, Sensitivity, SnapshotRanking
+from ..score.logical import LogicalRanking
+from ..version import __version__
+
+__all__ = ["audit_dict", "calibration_summary", "check_dict", "chip_details", "chip_summary",
+           "compare_to_baseline", "find_dict", "logical_dict", "logical_note", "patch_details",
+           "patch_summary", "placement_rows", "sdk_dict", "sensitivity_rows", "snapshot_dict"]
+
+Json = dict[str, Any]
 
 
-def chip_summary(device: Device) -> dict:
+def chip_summary(device: Device) -> Json:
     return {"name": device.name, "file": device.source, "qubits": device.num_qubits,
             "couplers": len(device.couplers), "live_couplers": len(device.live_couplers),
             "dead_qubits": sorted(device.dead_qubits),
@@ -24,13 +41,14 @@ def chip_summary(device: Device) -> dict:
             "calibration_timestamp": device.calibration_timestamp}
 
 
-def patch_summary(patch: Patch) -> dict:
+def patch_summary(patch: Patch) -> Json:
     roles = {r: list(patch.qubits_with_role(r)) for r in ("data", "flag", "ancilla")}
     return {"name": patch.name, "file": patch.source, "qubits": patch.num_qubits,
             "roles": roles, "rounds": patch.rounds, "roles_inferred": patch.roles_inferred}
 
 
-def placement_rows(patch: Patch, ranking: Ranking, off, top: int | None) -> list[dict]:
+def placement_rows(patch: Patch, ranking: Ranking, off: np.ndarray,
+                   top: int | None) -> list[Json]:
     names = list(patch.circuits)
     rows = []
     count = len(ranking.placements) if top is None else min(top, len(ranking.placements))
@@ -48,7 +66,7 @@ def placement_rows(patch: Patch, ranking: Ranking, off, top: int | None) -> list
     return rows
 
 
-def audit_dict(patch: Patch, report: AuditReport) -> dict:
+def audit_dict(patch: Patch, report: AuditReport) -> Json:
     circuits = []
     for c in report.circuits:
         circuits.append({
@@ -69,7 +87,9 @@ def audit_dict(patch: Patch, report: AuditReport) -> dict:
             "experiment": report.experiment_totals(), "circuits": circuits}
 
 
-def find_dict(v: Vetting, top: int | None = 10) -> dict:
+def find_dict(result: FindResult) -> Json:
+    """The `find` report (what `find --format json` prints)."""
+    v, top = result.vetting, result.top
     names = list(v.patch.circuits)
     times = dict(v.patch.experiment())
     circuits = []
@@ -85,7 +105,7 @@ def find_dict(v: Vetting, top: int | None = 10) -> dict:
             "reasons": list(fit.reasons),
         })
     s = v.search
-    return {
+    out = {
         "tool": "embedcheck", "version": __version__, "command": "find",
         "chip": chip_summary(v.device), "patch": patch_summary(v.patch),
         "circuits": circuits,
@@ -94,7 +114,7 @@ def find_dict(v: Vetting, top: int | None = 10) -> dict:
         "inconclusive_circuits": list(v.inconclusive),
         "search": {"circuits": list(s.circuits), "distinct_placements": len(s.placements),
                    "raw_maps": s.raw_maps, "symmetry_order": s.symmetry_order,
-                   "complete": s.complete, "stop_reason": s.stop_reason,
+                   "complete": s.complete, "stop_reason": s.stop_reason.value,
                    "elapsed_s": round(s.elapsed_s, 4), "reasons": list(s.reasons),
                    "notes": list(s.notes)},
         "unconstrained_qubits": list(v.unconstrained),
@@ -107,17 +127,55 @@ def find_dict(v: Vetting, top: int | None = 10) -> dict:
         "figure": v.ranking.figure,
         "placements": placement_rows(v.patch, v.ranking, v.off_coupler, top),
         "best_audit": audit_dict(v.patch, v.best_audit) if v.best_audit else None,
-        "sensitivity": sensitivity_rows(v.device, v.patch, v.ranking.placements[0])
-        if v.ranking.placements else [],
+        "sensitivity": sensitivity_rows(result.sensitivity),
         "caution": CAUTION,
         "circuit_order": names,
     }
+    if result.logical is not None:
+        out["logical"] = logical_dict(v.patch, result.logical, top,
+                                      sampled=result.sampled)
+        out["ranked_by"] = result.logical.figure
+    if result.logical_note is not None:
+        out["logical_note"] = logical_note(result.logical_note, decoded=result.decoded)
+    if result.snapshots is not None:
+        out["snapshots"] = snapshot_dict(v.patch, result.snapshots, top=min(top, 5))
+    if result.sdk is not None:
+        out["sdk_choice"] = sdk_dict(v.patch, result.sdk)
+    return out
+
+
+_NOTES = {
+    LogicalNote.UNDETECTED_ALL_ZERO:
+        "every placement scores 0 on 'undetected' (no one or two faults flip the observable "
+        "unseen), so that column does not rank them; ties are broken by 'kept'",
+    LogicalNote.OBSERVABLE_IS_DETECTOR_PARITY:
+        "the logical observable is a parity of the declared detectors, so no fault flips it "
+        "unseen and the logical figures are 0 everywhere; ranked by fidelity_product",
+    LogicalNote.UNDETECTED_ZERO_TO_SECOND_ORDER:
+        "no one or two faults flip the logical observable unseen (the circuit's fault "
+        "distance is above 2), so the 'undetected' figure, taken to second order, is 0 on "
+        "every placement and cannot rank them; ranked by fidelity_product (add --monte-carlo "
+        "SHOTS --decode to sample decoded logical errors of the placements listed)",
+    LogicalNote.NOTHING_TO_SAMPLE:
+        "--monte-carlo needs a patch with detectors and an observable on which every circuit "
+        "is swap-free; nothing sampled",
+}
+
+
+def logical_note(note: LogicalNote, *, decoded: bool = False) -> str:
+    """The words for a `LogicalNote`."""
+    if note is LogicalNote.SAMPLED_BY_KEPT:
+        return ("no one or two faults flip the logical observable unseen, so 'undetected' is 0 "
+                "on every placement; ranked by 'kept', with the sampled logical errors of the "
+                "placements listed" + (", decoded" if decoded else
+                                       " (add --decode to decode them)"))
+    return _NOTES[note]
 
 
 _WORST_IS_LOW = {"t1_us", "t2_us"}
 
 
-def _figure_summary(values: dict) -> dict | None:
+def _figure_summary(values: dict[Any, float | None]) -> Json | None:
     """Median and worst of {where: value} (worst = highest error, lowest T1/T2)."""
     given = {k: v for k, v in values.items() if v is not None}
     if not given:
@@ -125,7 +183,7 @@ def _figure_summary(values: dict) -> dict | None:
     return {"given": len(given), "median": float(np.median(list(given.values())))}
 
 
-def calibration_summary(device: Device) -> dict:
+def calibration_summary(device: Device) -> Json:
     """Per figure: how many entries give it, the median, the worst value and where."""
     out = {}
     fields = ("readout_error", "single_qubit_error", "reset_error", "t1_us", "t2_us",
@@ -153,7 +211,7 @@ def calibration_summary(device: Device) -> dict:
     return out
 
 
-def _box(device: Device):
+def _box(device: Device) -> list[float] | None:
     """[x0, y0, x1, y1] of the drawing positions (what --region-box selects in), or None."""
     if not device.positions:
         return None
@@ -162,7 +220,7 @@ def _box(device: Device):
     return [min(xs), min(ys), max(xs), max(ys)]
 
 
-def chip_details(snapshots) -> dict:
+def chip_details(snapshots: Sequence[Device]) -> Json:
     """What `show` prints for a chip: graph facts, dead parts, calibration per snapshot."""
     device = snapshots[-1]
     live = device.live_couplers
@@ -182,7 +240,7 @@ def chip_details(snapshots) -> dict:
     }
 
 
-def patch_details(patch: Patch) -> dict:
+def patch_details(patch: Patch) -> Json:
     """What `show` prints for a patch: roles, circuits, interaction graph facts."""
     counts = patch.interaction_counts()
     degree = {q: 0 for q in patch.qubits}
@@ -205,13 +263,13 @@ def patch_details(patch: Patch) -> dict:
     }
 
 
-def _gate_dict(g) -> dict:
+def _gate_dict(g: OffCouplerGate) -> Json:
     return {"gate_index": g.gate_index, "patch_qubits": list(g.patch_qubits),
             "physical_qubits": list(g.physical_qubits), "written": g.written, "text": g.text,
             "file": g.file, "line": g.line, "reason": g.reason}
 
 
-def check_dict(result, baseline: dict | None = None) -> dict:
+def check_dict(result: CheckResult, baseline: Json | None = None) -> Json:
     """The `check` report: one entry per chip x patch, rules judged, gates named."""
     entries = []
     for pair in result.pairs:
@@ -242,7 +300,7 @@ def check_dict(result, baseline: dict | None = None) -> dict:
             "search": {"circuits": list(v.search.circuits),
                        "distinct_placements": len(v.search.placements),
                        "complete": v.complete,
-                       "stop_reason": v.search.stop_reason if not v.search.complete else
+                       "stop_reason": v.search.stop_reason.value if not v.search.complete else
                        ("budget" if v.inconclusive else "complete"),
                        "inconclusive_circuits": list(v.inconclusive)},
             "chosen_placement": chosen.placement.as_dict(pair.patch) if chosen else None,
@@ -260,7 +318,7 @@ def check_dict(result, baseline: dict | None = None) -> dict:
     return out
 
 
-def compare_to_baseline(current: dict, baseline: dict) -> dict:
+def compare_to_baseline(current: Json, baseline: Json) -> Json:
     """What got worse and what got better since a previous `check` JSON report."""
     old = {(e["chip"], e["patch"]): e for e in baseline.get("results", [])}
     worse, better = [], []
@@ -294,14 +352,14 @@ def compare_to_baseline(current: dict, baseline: dict) -> dict:
     return {"worse": worse, "better": better}
 
 
-def sensitivity_rows(device, patch, placement, top: int = 5) -> list[dict]:
-    from ..score.cost import sensitivity
+def sensitivity_rows(rows: Sequence[Sensitivity]) -> list[Json]:
+    """The calibration figures that move the best placement's score most."""
     return [{"item": s.item, "figure": s.figure, "value": float(s.value),
              "log_contribution": float(s.log_contribution), "derivative": float(s.derivative)}
-            for s in sensitivity(device, patch, placement, top=top)]
+            for s in rows]
 
 
-def snapshot_dict(patch, robust, top: int = 5) -> dict:
+def snapshot_dict(patch: Patch, robust: SnapshotRanking, top: int = 5) -> Json:
     """Ranking over calibration snapshots: the top placements, the winner's stability."""
     rows = []
     for i in range(min(top, len(robust.placements))):
@@ -315,26 +373,17 @@ def snapshot_dict(patch, robust, top: int = 5) -> dict:
             "stability": robust.stability, "newest_winner_rank": robust.newest_winner_rank}
 
 
-def sdk_dict(device, patch, vetting) -> dict:
+def sdk_dict(patch: Patch, sdk: SdkComparison) -> Json:
     """qiskit's VF2Layout choice and where it ranks under our model."""
-    from ..audit.qiskit_views import sdk_layout
-    from ..score.cost import scores
-    from ..place.search import placement_grid
-
-    placement, status = sdk_layout(device, patch)
-    if placement is None:
-        return {"found": False, "status": status}
-    terms, off = scores(device, patch, placement_grid([placement], patch.num_qubits))
-    log_s = float(sum(t[0] for t in terms.values()))
-    better = int(np.sum((vetting.ranking.unscored_gates < off[0]) |
-                        ((vetting.ranking.unscored_gates == off[0]) &
-                         (vetting.ranking.log_success > log_s + 1e-12))))
-    return {"found": True, "status": status, "qubits": placement.as_dict(patch),
-            "success": float(np.exp(log_s)), "our_rank": better + 1,
-            "of": len(vetting.ranking.placements), "figure": vetting.ranking.figure}
+    if not sdk.found or sdk.placement is None:
+        return {"found": False, "status": sdk.status}
+    return {"found": True, "status": sdk.status, "qubits": sdk.placement.as_dict(patch),
+            "success": sdk.success, "our_rank": sdk.our_rank, "of": sdk.of,
+            "figure": sdk.figure}
 
 
-def logical_dict(patch, logical, top: int = 10, sampled: bool = False) -> dict:
+def logical_dict(patch: Patch, logical: LogicalRanking, top: int = 10,
+                 sampled: bool = False) -> Json:
     """The ranking by a logical figure, with Monte Carlo results where sampled."""
     rows = []
     for i in range(min(top, len(logical.placements))):

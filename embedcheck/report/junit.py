@@ -4,6 +4,8 @@ from __future__ import annotations
 
 from xml.etree import ElementTree as ET
 
+__all__ = ["render_junit"]
+
 
 def render_junit(d: dict) -> str:
     suites = ET.Element("testsuites", name=f"embedcheck {d['project']['name']}")

@@ -3,6 +3,8 @@ from __future__ import annotations
 
 from .text import format_score
 
+__all__ = ["render_markdown"]
+
 
 def _off(entry: dict) -> str:
     bad = [f"{c['circuit']} {c['off_coupler_count']} ({c['allowed']} allowed)"

@@ -15,7 +15,9 @@ import numpy as np
 
 from ..model.device import Device
 from ..model.patch import Patch
-from ..place.search import Placement
+from ..model.placement import Placement
+
+__all__ = ["DEAD", "LABELLED_UP_TO", "ROLE_STYLE", "draw_placement", "draw_score_map", "picture_bytes"]
 
 ROLE_STYLE = {"data": ("o", "#0072B2"), "flag": ("D", "#E69F00"), "ancilla": ("s", "#009E73")}
 # (a diamond, not a triangle, for flags: wide enough to hold the name)

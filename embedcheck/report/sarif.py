@@ -9,7 +9,9 @@ from __future__ import annotations
 import os
 from pathlib import Path
 
-from .. import __version__
+from ..version import __version__
+
+__all__ = ["RULES", "render_sarif"]
 
 RULES = [
     {"id": "EC1", "name": "OffCouplerTwoQubitGate",

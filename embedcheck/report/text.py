@@ -3,6 +3,9 @@ from __future__ import annotations
 
 import math
 
+__all__ = ["format_score", "render_audit", "render_check", "render_chip", "render_find", "render_patch",
+           "render_repair"]
+
 
 def _where(gate: dict) -> str:
     if gate.get("file") and gate.get("line"):

@@ -1,1 +1,2 @@
-"""score stage."""
+"""The score stage (see DEVELOPERS.md for what each module holds)."""
+__all__: list[str] = []

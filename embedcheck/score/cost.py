@@ -13,10 +13,10 @@ over prep, `rounds` check rounds and readout. Idle times come from an
 as-soon-as-possible schedule of each circuit with the chip's durations (see
 `schedule.py`): a qubit idles from its first operation in a circuit (from the
 circuit's start when it already holds state) to the circuit's end, whenever it is not
-busy; the first and the later runs of a repeated circuit are scheduled apart. The idle error is the Pauli-twirled amplitude and
-phase damping channel (the Pauli twirling approximation, Ghosh, Fowler & Geller,
-Phys. Rev. A 86, 062318 (2012); the closed form is derived here and the tests check
-it against qiskit's Kraus operators twirled numerically):
+busy; the first and the later runs of a repeated circuit are scheduled apart. The idle
+error is the one idle model (`idle.py`): the Pauli-twirled amplitude and phase damping
+channel (the Pauli twirling approximation, Ghosh, Fowler & Geller, Phys. Rev. A 86,
+062318 (2012); the tests check it against qiskit's Kraus operators twirled numerically):
 
     p_x = p_y = (1 - exp(-t/T1)) / 4
     p_z       = (1 - exp(-t/T2)) / 2 - (1 - exp(-t/T1)) / 4
@@ -34,9 +34,10 @@ placements x patch qubits); the schedule loops over a circuit's operations, neve
 over placements.
 
     >>> import numpy as np
-    >>> from embedcheck.device import Device, CouplerCalibration
-    >>> from embedcheck.lattices import square_grid
-    >>> from embedcheck.patch import Patch, Circuit, Operation
+    >>> from embedcheck.model.device import Device, CouplerCalibration
+    >>> from embedcheck.model.lattices import square_grid
+    >>> from embedcheck.model.patch import Patch, Circuit, Operation
+    >>> from embedcheck.model.placement import Placement
     >>> dev = Device.from_lattice(square_grid(1, 3), name="line",
     ...     coupler_calibration={(0, 1): CouplerCalibration(0.01), (1, 2): CouplerCalibration(0.02)})
     >>> patch = Patch("t", ("a", "b"), dict.fromkeys("ab", "data"),
@@ -47,14 +48,21 @@ over placements.
 """
 from __future__ import annotations
 
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from typing import Sequence
 
 import numpy as np
 
+from ..errors import InputError
 from ..model.device import CalibrationArrays, Device
 from ..model.patch import Patch
-from ..place.search import Placement, check_placements, placement_grid
+from ..model.placement import Placement, check_placements, placement_grid
+from .idle import idle_channel
+from .schedule import circuit_timing, idle_times
+
+__all__ = ["CAUTION", "FIGURE", "TERMS", "Ranking", "Sensitivity", "SnapshotRanking",
+           "experiment_counts", "rank_across_snapshots", "rank_placements", "scores",
+           "sensitivity"]
 
 FIGURE = "fidelity_product"
 TERMS = ("two_qubit", "readout", "single_qubit", "reset", "idle")
@@ -62,14 +70,14 @@ CAUTION = ("Scores are model estimates from the calibration you supplied, which 
            "confirm on hardware with the provider's own validation before relying on them.")
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class Ranking:
     """Placements sorted best first, with the score and its terms (natural logs)."""
 
     figure: str
     placements: tuple[Placement, ...]
     log_success: np.ndarray
-    terms: dict                 # term name -> log contribution array, same order
+    terms: Mapping[str, np.ndarray]   # term name -> log contribution array, same order
     unscored_gates: np.ndarray  # off-coupler gates per placement, not in the score
 
     @property
@@ -77,16 +85,8 @@ class Ranking:
         return np.exp(self.log_success)
 
 
-def idle_error(t_ns, t1_us, t2_us):
-    """Pauli-twirled amplitude and phase damping error after idling t_ns (see module doc)."""
-    t_us = np.asarray(t_ns, dtype=float) / 1000.0
-    with np.errstate(divide="ignore", invalid="ignore"):
-        decay1 = -np.expm1(-t_us / t1_us)
-        decay2 = -np.expm1(-t_us / t2_us)
-    return decay1 / 4 + decay2 / 2
-
-
-def experiment_counts(patch: Patch):
+def experiment_counts(patch: Patch) -> tuple[dict[tuple[int, int], int], np.ndarray,
+                                             np.ndarray, np.ndarray]:
     """Per-experiment counts: 2q gates per patch pair; measurements, 1q gates, resets per qubit."""
     n = patch.num_qubits
     counts = {kind: np.zeros(n) for kind in ("measure", "1q", "reset")}
@@ -99,12 +99,12 @@ def experiment_counts(patch: Patch):
 
 
 def scores(device: Device, patch: Patch, grid: np.ndarray,
-           arrays: CalibrationArrays | None = None) -> tuple[dict, np.ndarray]:
+           arrays: CalibrationArrays | None = None) -> tuple[dict[str, np.ndarray], np.ndarray]:
     """Log terms (each an array over the placements in `grid`) and unscored gate counts."""
-    cal = device.calibration_arrays() if arrays is None else arrays
+    cal = device.calibration_arrays if arrays is None else arrays
     pairs, measures, singles, resets = experiment_counts(patch)
     count = grid.shape[0]
-    terms = {}
+    terms: dict[str, np.ndarray] = {}
     with np.errstate(divide="ignore", invalid="ignore"):   # an error of 1 gives log 0 = -inf
         if pairs and count:
             ab = np.array(list(pairs), dtype=np.int64)
@@ -124,100 +124,40 @@ def scores(device: Device, patch: Patch, grid: np.ndarray,
         for name, times in patch.experiment():
             # One schedule per circuit; its runs differ only in which qubits idle from time
             # 0, so the log factors are built once per qubit and swapped in per run.
-            finish, first, busy, started = circuit_timing(patch, name, grid, cal)
-            base = np.where(started[:, None], np.maximum(finish - first - busy, 0.0), 0.0)
-            log_base = np.log1p(-idle_error(base, t1, t2))           # (qubits, placements)
+            timing = circuit_timing(patch, name, grid, cal)
+            finish, busy = timing.finish, timing.busy
+            base = np.where(timing.started[:, None],
+                            np.maximum(finish - timing.first - busy, 0.0), 0.0)
+            log_base = np.log1p(-idle_channel(base, t1, t2).total)    # (qubits, placements)
             total = log_base.sum(axis=0)
-            for again, count in ((False, 1), (True, times - 1)):
-                if count <= 0:
+            for again, runs in ((False, 1), (True, times - 1)):
+                if runs <= 0:
                     continue
                 run = total.copy()
                 for q in patch.waiting(name, again):
                     i = patch.index[q]
                     from_start = np.maximum(finish - busy[i], 0.0)
-                    run += np.log1p(-idle_error(from_start, t1[i], t2[i])) - log_base[i]
-                idle += count * run
+                    run += np.log1p(-idle_channel(from_start, t1[i], t2[i]).total) - log_base[i]
+                idle += runs * run
         terms["idle"] = idle
     return terms, unscored
-
-
-def idle_times(patch: Patch, circuit: str, grid: np.ndarray, cal: CalibrationArrays, *,
-               again: bool = False, timing=None) -> np.ndarray:
-    """Idle ns of each patch qubit in one run of `circuit`, for every placement at once.
-
-    As-soon-as-possible schedule (same rules as `schedule.schedule_circuit`), looping
-    over the circuit's operations with numpy arrays over the placements. Durations
-    are gathered once per qubit and per interacting pair; the working arrays are
-    (qubits x placements) so that each qubit's row is contiguous in memory. The
-    schedule does not depend on the run (only where idling starts does), so a caller
-    scoring several runs of one circuit passes `timing=circuit_timing(...)` once.
-    """
-    finish, first, busy, started = timing or circuit_timing(patch, circuit, grid, cal)
-    started = started.copy()
-    first = first.copy()
-    waiting = [patch.index[q] for q in patch.waiting(circuit, again)]
-    started[waiting] = True                                   # these idle from time 0
-    first[waiting] = 0.0
-    idle = np.where(started[:, None], finish - first - busy, 0.0)
-    return np.maximum(idle, 0.0).T
-
-
-def circuit_timing(patch: Patch, circuit: str, grid: np.ndarray, cal: CalibrationArrays):
-    """(finish, first start, busy, started) of the ASAP schedule: arrays over (qubits x
-    placements), `finish` over placements, `started` over qubits."""
-    count, n = grid.shape
-    ops = patch.circuits[circuit].operations
-    idx = patch.index
-    rows = np.ascontiguousarray(grid.T)                     # (qubits, placements)
-    single_ns = cal.single_qubit_ns[rows]
-    measure_ns = cal.measurement_ns[rows]
-    pairs = sorted({tuple(idx[q] for q in op.qubits) for op in ops if op.kind == "2q"})
-    column = {p: k for k, p in enumerate(pairs)}
-    if pairs:
-        ab = np.array(pairs, dtype=np.int64)
-        two_ns = cal.coupler(rows[ab[:, 0]], rows[ab[:, 1]], cal.coupler_ns)  # (pairs, placements)
-        two_ns = np.where(np.isnan(two_ns), cal.median_two_qubit_ns, two_ns)
-    free = np.zeros((n, count))
-    busy = np.zeros((n, count))
-    first = np.zeros((n, count))
-    started = np.zeros(n, dtype=bool)
-    for op in ops:
-        cols = [idx[q] for q in op.qubits]
-        if op.kind == "barrier":
-            free[cols] = free[cols].max(axis=0)
-            continue
-        if op.kind == "2q":
-            a, b = cols
-            length = two_ns[column[(a, b)]]
-            start = np.maximum(free[a], free[b])
-        else:
-            (a,) = cols
-            length = single_ns[a] if op.kind == "1q" else measure_ns[a]
-            start = free[a].copy()
-        for c in cols:
-            if not started[c]:
-                started[c] = True
-                first[c] = start
-            np.add(start, length, out=free[c])
-            busy[c] += length
-    finish = free.max(axis=0) if n else free
-    return finish, first, busy, started
 
 
 def rank_placements(device: Device, patch: Patch, placements: Sequence[Placement]) -> Ranking:
     """Score every placement with the cost model above and sort best first."""
     grid = check_placements(device, patch, placements)
     terms, unscored = scores(device, patch, grid)
-    total = sum(terms.values()) if terms else np.zeros(len(placements))
+    total: np.ndarray = sum(terms.values()) if terms else np.zeros(len(placements))  # type: ignore[assignment]
     # Fewest off-coupler (unscored) gates first, then best score; ties broken by the
     # placement itself so the order is reproducible.
     order = np.lexsort(tuple(grid[:, k] for k in range(grid.shape[1] - 1, -1, -1))
                        + (-total, unscored))
-    return Ranking(FIGURE, tuple(placements[i] for i in order), total[order],
-                   {k: v[order] for k, v in terms.items()}, unscored[order])
+    return Ranking(figure=FIGURE, placements=tuple(placements[i] for i in order),
+                   log_success=total[order], terms={k: v[order] for k, v in terms.items()},
+                   unscored_gates=unscored[order])
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class SnapshotRanking:
     """Placements ranked over several calibration snapshots.
 
@@ -267,7 +207,7 @@ def rank_across_snapshots(snapshots: Sequence[Device], patch: Patch,
     elif by.startswith("q"):
         agg = np.quantile(logs, float(by[1:]), axis=0)
     else:
-        raise ValueError(f"rank by 'mean', 'worst' or 'q<fraction>', not {by!r}")
+        raise InputError(f"rank by 'mean', 'worst' or 'q<fraction>', not {by!r}")
     order = np.lexsort(tuple(grid[:, k] for k in range(grid.shape[1] - 1, -1, -1))
                        + (-agg, worst_off))
     logs = logs[:, order]
@@ -277,12 +217,14 @@ def rank_across_snapshots(snapshots: Sequence[Device], patch: Patch,
         ranks.append(int(np.nonzero(own == 0)[0][0]) + 1 if len(placements) else 0)
     stable = float(np.mean([r <= top_k for r in ranks])) if ranks else 0.0
     newest = int(np.lexsort((-logs[-1], worst_off[order]))[0]) + 1 if len(placements) else 0
-    return SnapshotRanking(FIGURE, by, tuple(placements[i] for i in order), agg[order], logs,
-                           tuple(d.calibration_timestamp for d in snapshots), tuple(ranks),
-                           top_k, stable, newest)
+    return SnapshotRanking(figure=FIGURE, by=by, placements=tuple(placements[i] for i in order),
+                           aggregate=agg[order], per_snapshot=logs,
+                           timestamps=tuple(d.calibration_timestamp for d in snapshots),
+                           winner_ranks=tuple(ranks), top_k=top_k, stability=stable,
+                           newest_winner_rank=newest)
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class Sensitivity:
     """One calibration figure of the best placement and how much the score depends on it."""
 
@@ -298,7 +240,7 @@ def sensitivity(device: Device, patch: Patch, placement: Placement,
     """The calibration figures that move this placement's log S most (analytic derivatives).
 
     For an error e used n times, log S holds n log(1 - e), so d log S / d e = -n / (1 - e);
-    for idling, d log(1 - p) / dT = -(dp/dT) / (1 - p) with p from `idle_error`.
+    for idling, d log(1 - p) / dT = -(dp/dT) / (1 - p) with p from `idle.idle_channel`.
     """
     pairs, measures, singles, resets = experiment_counts(patch)
     where = placement.physical
@@ -309,10 +251,10 @@ def sensitivity(device: Device, patch: Patch, placement: Placement,
         if not device.is_coupled(p, q) or cal is None or cal.two_qubit_error is None:
             continue
         e = cal.two_qubit_error
-        out.append(Sensitivity(f"coupler {p}-{q}", "two_qubit_error", e, n * np.log1p(-e),
-                               -n / (1 - e)))
+        out.append(Sensitivity(item=f"coupler {p}-{q}", figure="two_qubit_error", value=e,
+                               log_contribution=n * np.log1p(-e), derivative=-n / (1 - e)))
     grid = placement_grid([placement], patch.num_qubits)
-    arrays = device.calibration_arrays()          # built once per device, then cached
+    arrays = device.calibration_arrays            # built once per device, then cached
     timings = {name: circuit_timing(patch, name, grid, arrays) for name, _ in patch.experiment()}
     idle_ns = {(name, again): idle_times(patch, name, grid, arrays, again=again,
                                          timing=timings[name])[0]
@@ -325,15 +267,17 @@ def sensitivity(device: Device, patch: Patch, placement: Placement,
                              ("reset_error", resets[i])):
             e = getattr(cal, field)
             if count and e is not None:
-                out.append(Sensitivity(f"qubit {phys}", field, e, count * np.log1p(-e),
-                                       -count / (1 - e)))
+                out.append(Sensitivity(item=f"qubit {phys}", figure=field, value=e,
+                                       log_contribution=count * np.log1p(-e),
+                                       derivative=-count / (1 - e)))
         if cal.t1_us and cal.t2_us:
             part1 = part2 = d_t1 = d_t2 = 0.0
             for name, again, times in patch.runs():
                 t = idle_ns[(name, again)][i] / 1000.0
-                p1 = -np.expm1(-t / cal.t1_us) / 4          # the T1 part of p_idle
-                p2 = -np.expm1(-t / cal.t2_us) / 2          # the T2 part
-                p_idle = p1 + p2
+                channel = idle_channel(idle_ns[(name, again)][i], cal.t1_us, cal.t2_us)
+                p1 = channel.t1_part                        # the T1 part of p_idle
+                p2 = channel.t2_share                       # the T2 part
+                p_idle = channel.total
                 if p_idle <= 0:
                     continue
                 log_term = times * np.log1p(-p_idle)        # split in proportion to p1, p2
@@ -342,7 +286,9 @@ def sensitivity(device: Device, patch: Patch, placement: Placement,
                 d_t1 += times * (t / cal.t1_us ** 2) * np.exp(-t / cal.t1_us) / 4 / (1 - p_idle)
                 d_t2 += times * (t / cal.t2_us ** 2) * np.exp(-t / cal.t2_us) / 2 / (1 - p_idle)
             if part1 or part2:
-                out.append(Sensitivity(f"qubit {phys}", "t1_us", cal.t1_us, part1, d_t1))
-                out.append(Sensitivity(f"qubit {phys}", "t2_us", cal.t2_us, part2, d_t2))
+                out.append(Sensitivity(item=f"qubit {phys}", figure="t1_us", value=cal.t1_us,
+                                       log_contribution=part1, derivative=d_t1))
+                out.append(Sensitivity(item=f"qubit {phys}", figure="t2_us", value=cal.t2_us,
+                                       log_contribution=part2, derivative=d_t2))
     out.sort(key=lambda s: s.log_contribution)
     return out[:top]

@@ -1,6 +1,6 @@
 """Score placements by what a QEC experiment measures: logical errors among kept shots.
 
-For each swap-free placement, `noise.noisy_circuit` gives a stim circuit with the
+For each swap-free placement, `noise.noisy_circuit` (the one stim writer) gives a stim circuit with the
 chip's noise; stim's detector error model (DEM) lists independent fault mechanisms,
 each with its probability, the detectors it flips and whether it flips the logical
 observable (Gidney, "Stim: a fast stabilizer circuit simulator", Quantum 5, 497 (2021)).
@@ -23,32 +23,40 @@ observable (Gidney, "Stim: a fast stabilizer circuit simulator", Quantum 5, 497 
   Gidney, "Sparse Blossom", Quantum 9, 1600 (2025); value from memory).
 
 These are model estimates from user-supplied calibration, like every score here.
+
+    >>> tuple(round(x, 4) for x in wilson(5, 100))
+    (0.0215, 0.1118)
 """
 from __future__ import annotations
 
 import math
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
-from typing import Callable, Sequence
+from typing import Any
 
 import numpy as np
 
-from ..model.device import Device
 from ..errors import InputError
-from .noise import noisy_circuit
+from ..model.device import Device
 from ..model.patch import Patch
-from ..place.search import Placement
+from ..model.placement import Placement
+from .noise import noisy_circuit, stim_experiment
+
+__all__ = ["FIGURES", "FastScore", "LogicalRanking", "MonteCarlo", "decode_observables",
+           "fast_score", "fast_scores", "monte_carlo", "rank_by_logical", "require_detectors",
+           "undetected_zero_everywhere", "wilson"]
 
 FIGURES = ("undetected", "kept", "fidelity_product")
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class FastScore:
     undetected: float      # summed probability of observable-flipping, undetected faults
     kept: float            # expected fraction of shots with no detector firing
     mechanisms: int
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class MonteCarlo:
     shots: int
     kept: int
@@ -110,15 +118,15 @@ def fast_score(device: Device, patch: Patch, placement: Placement) -> FastScore:
     dem = noisy_circuit(device, patch, placement).detector_error_model(
         approximate_disjoint_errors=True)
     undetected, keep_log, count = _dem_figures(dem)
-    return FastScore(undetected, math.exp(keep_log), count)
+    return FastScore(undetected=undetected, kept=math.exp(keep_log), mechanisms=count)
 
 
-def _dem_figures(dem):
+def _dem_figures(dem: Any) -> tuple[float, float, int]:
     """(undetected to second order, log of the kept fraction, mechanisms) of a DEM: single
     mechanisms that flip the observable and no detector, plus pairs that flip the same
     detectors (so cancel there) and differ in the observable."""
     first, keep_log, count = 0.0, 0.0, 0
-    groups: dict = {}
+    groups: dict[frozenset[int], list[float]] = {}
     for inst in dem.flattened():
         if inst.type != "error":
             continue
@@ -145,12 +153,11 @@ def undetected_zero_everywhere(patch: Patch, noise: float = 1e-3) -> bool:
     so its error mechanisms are a subset of these; a zero here is a zero there."""
     import stim
 
-    from .simulate import to_stim
     n = patch.num_qubits
     everyone = list(range(n))
     universal = stim.Circuit()
     universal.append("DEPOLARIZE1", everyone, noise)
-    for inst in to_stim(patch).flattened():
+    for inst in stim_experiment(patch).flattened():
         universal.append(inst)
         gate = stim.gate_data(inst.name)
         if gate.is_noisy_gate or inst.name in ("DETECTOR", "OBSERVABLE_INCLUDE", "TICK",
@@ -173,10 +180,10 @@ def fast_scores(device: Device, patch: Patch, placements: Sequence[Placement], *
         chunks = [list(placements[i::processes]) for i in range(processes)]
         with ProcessPoolExecutor(processes) as pool:
             parts = list(pool.map(_score_chunk, [(device, patch, c) for c in chunks]))
-        out: list = [None] * len(placements)
+        merged: list[FastScore] = [FastScore(undetected=0.0, kept=0.0, mechanisms=0)] * len(placements)
         for i, part in enumerate(parts):
-            out[i::processes] = part
-        return out
+            merged[i::processes] = part
+        return merged
     out = []
     for k, p in enumerate(placements):
         out.append(fast_score(device, patch, p))
@@ -185,7 +192,7 @@ def fast_scores(device: Device, patch: Patch, placements: Sequence[Placement], *
     return out
 
 
-def _score_chunk(args):
+def _score_chunk(args: tuple[Device, Patch, list[Placement]]) -> list[FastScore]:
     device, patch, placements = args
     return [fast_score(device, patch, p) for p in placements]
 
@@ -201,12 +208,12 @@ def monte_carlo(device: Device, patch: Patch, placement: Placement, *, shots: in
     clean = ~dets.any(axis=1)
     decoded = None
     if decode:
-        decoded = int(np.sum(_decode(circuit, dets) != flipped))
-    return MonteCarlo(shots, int(clean.sum()), int(flipped.sum()), int(flipped[clean].sum()),
-                      decoded)
+        decoded = int(np.sum(decode_observables(circuit, dets) != flipped))
+    return MonteCarlo(shots=shots, kept=int(clean.sum()), raw_errors=int(flipped.sum()),
+                      kept_errors=int(flipped[clean].sum()), decoded_errors=decoded)
 
 
-def _decode(circuit, detections):
+def decode_observables(circuit: Any, detections: np.ndarray) -> np.ndarray:
     """Observable predictions by matching; refuses, plainly, a DEM that is not graph-like."""
     import pymatching
 
@@ -220,7 +227,7 @@ def _decode(circuit, detections):
     return matching.decode_batch(detections)[:, 0]
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, kw_only=True)
 class LogicalRanking:
     """Swap-free placements ordered by a logical figure (lower `undetected` first, or higher
     `kept` first), with both fast figures and, for the top ones, Monte Carlo results."""
@@ -238,15 +245,16 @@ def rank_by_logical(device: Device, patch: Patch, placements: Sequence[Placement
                     progress: Callable[[int], None] | None = None) -> LogicalRanking:
     """Rank swap-free placements by `undetected` (ascending) or `kept` (descending)."""
     if figure not in ("undetected", "kept"):
-        raise ValueError(f"figure must be 'undetected' or 'kept', not {figure!r}")
+        raise InputError(f"figure must be 'undetected' or 'kept', not {figure!r}")
     require_detectors(patch)
     fast = fast_scores(device, patch, placements, processes=processes, progress=progress)
     und = np.array([f.undetected for f in fast])
     kept = np.array([f.kept for f in fast])
     order = np.lexsort((-kept, und)) if figure == "undetected" else np.lexsort((und, -kept))
     ranked = tuple(placements[i] for i in order)
-    mc = []
+    mc: list[MonteCarlo | None] = []
     for k, placement in enumerate(ranked):
         mc.append(monte_carlo(device, patch, placement, shots=monte_carlo_shots, seed=seed + k,
                               decode=decode) if monte_carlo_shots and k < top else None)
-    return LogicalRanking(figure, ranked, und[order], kept[order], tuple(mc))
+    return LogicalRanking(figure=figure, placements=ranked, undetected=und[order],
+                          kept=kept[order], monte_carlo=tuple(mc))

@@ -1,6 +1,13 @@
-"""A placement as a noisy stim circuit, from the chip's calibration.
+"""The experiment as a stim circuit (the one stim writer): noiseless, or on a placement
+with noise from the chip's calibration.
 
-Conversions (each reported figure -> stim noise channel):
+Operations convert one to one: h, s, sdg, x, y, z, sx, sxdg, id, cx, cz, cy, swap,
+measure (keeping the basis of stim's MX/MY/MRX/MRY), reset; prep, `rounds` x round and
+readout follow each other, and the patch's detectors and observable become `rec[-k]`
+lookbacks. A gate inside an `if` block has no stim equivalent here and is refused, as
+are non-Clifford gates. Patch qubit i is stim qubit i.
+
+With a device and a placement, each reported figure becomes a stim noise channel:
 
 - Two-qubit gate with reported average gate error r: `DEPOLARIZE2(p)` after the gate
   with p = r (d + 1) / d, d = 4, i.e. p = 5r/4. For depolarizing noise that applies one
@@ -11,29 +18,45 @@ Conversions (each reported figure -> stim noise channel):
 - Readout error r: a bit flip (`X_ERROR(r)`, or `Z_ERROR` for an X-basis measurement)
   just before each measurement, mid-circuit ones included.
 - Reset error e: `X_ERROR(e)` just after each reset.
-- Idling for t with T1, T2: `PAULI_CHANNEL_1(px, py, pz)` with px = py = (1 - e^(-t/T1))/4,
-  pz = (1 - e^(-t/T2))/2 - (1 - e^(-t/T1))/4, the Pauli-twirled amplitude and phase
-  damping channel (Ghosh, Fowler & Geller, Phys. Rev. A 86, 062318 (2012)), placed
-  where the as-soon-as-possible schedule (`schedule.py`) has the qubit wait: before
-  an operation that starts after the qubit was free (or after the circuit started,
-  for a qubit that already holds state), and at the end of each circuit.
+- Idling: `PAULI_CHANNEL_1(px, py, pz)` of the one idle model (`idle.py`, Ghosh, Fowler &
+  Geller, Phys. Rev. A 86, 062318 (2012)), placed where the one schedule (`schedule.py`)
+  has the qubit wait: before an operation that starts after the qubit was free (or
+  after the circuit started, for a qubit that already holds state), and at the end of
+  each circuit.
 
 Gates that land off-coupler have no coupler error: a noisy circuit is only built for
 placements where every circuit is swap-free.
 
     >>> round(two_qubit_depolarizing(0.008), 6), round(single_qubit_depolarizing(0.0004), 6)
     (0.01, 0.0006)
+    >>> from embedcheck.model.patch import Circuit, Operation, Patch
+    >>> ops = (Operation("h", ("a",), "1q"), Operation("cx", ("a", "b"), "2q"),
+    ...        Operation("measure", ("b",), "measure"))
+    >>> patch = Patch("bell", ("a", "b"), dict.fromkeys("ab", "data"), {"round": Circuit("round", ops)})
+    >>> print(stim_experiment(patch))
+    H 0
+    CX 0 1
+    M 1
 """
 from __future__ import annotations
 
-import math
+from typing import TYPE_CHECKING, Any
 
-from ..model.device import Device, pair
 from ..errors import InputError
-from ..model.patch import Patch
-from .schedule import _duration, _median_coupler_duration
-from ..place.search import Placement
-from .simulate import _STIM, append_detectors
+from ..model.device import Device, pair
+from ..model.patch import Operation, Patch
+from ..model.placement import Placement, check_placements
+from .idle import idle_channel
+from .schedule import Timing, circuit_timing
+
+if TYPE_CHECKING:
+    import stim
+
+__all__ = ["STIM_GATES", "append_detectors", "noisy_circuit", "single_qubit_depolarizing",
+           "stim_experiment", "two_qubit_depolarizing"]
+
+STIM_GATES = {"h": "H", "s": "S", "sdg": "S_DAG", "x": "X", "y": "Y", "z": "Z", "sx": "SQRT_X",
+              "sxdg": "SQRT_X_DAG", "id": "I", "cx": "CX", "cz": "CZ", "cy": "CY", "swap": "SWAP"}
 
 
 def two_qubit_depolarizing(average_error: float) -> float:
@@ -46,109 +69,142 @@ def single_qubit_depolarizing(average_error: float) -> float:
     return min(average_error * 3 / 2, 3 / 4)
 
 
-def idle_pauli(t_ns: float, t1_us: float | None, t2_us: float | None) -> tuple[float, float, float]:
-    """(px, py, pz) of the Pauli-twirled amplitude and phase damping channel after t_ns."""
-    if not t_ns or (not t1_us and not t2_us):
-        return 0.0, 0.0, 0.0
-    t_us = t_ns / 1000.0
-    d1 = -math.expm1(-t_us / t1_us) if t1_us else 0.0
-    d2 = -math.expm1(-t_us / t2_us) if t2_us else 0.0
-    px = d1 / 4
-    pz = max(d2 / 2 - d1 / 4, 0.0)
-    return px, px, pz
-
-
-def noisy_circuit(device: Device, patch: Patch, placement: Placement, *, noise: bool = True):
+def noisy_circuit(device: Device, patch: Patch, placement: Placement) -> stim.Circuit:
     """The whole experiment on `placement` as a stim circuit with the chip's noise.
 
-    Patch qubit i is stim qubit i. Detectors and the observable are the patch's.
     Raises `InputError` when a gate is off-coupler or cannot be simulated.
     """
+    return stim_experiment(patch, device=device, placement=placement)
+
+
+def stim_experiment(patch: Patch, *, device: Device | None = None,
+                    placement: Placement | None = None, detectors: bool = True) -> stim.Circuit:
+    """The whole experiment as a `stim.Circuit`: noiseless (barriers become TICKs), or,
+    given a device and a placement, with the chip's noise (see the module docstring)."""
     import stim
 
-    where = placement.as_dict(patch)
-    index = patch.index
-    qcal = device.qubit_calibration
-    median = _median_coupler_duration(device)
+    timings: dict[str, Timing] = {}
+    if device is not None and placement is not None:
+        grid = check_placements(device, patch, [placement])
+        timings = {name: circuit_timing(patch, name, grid, device.calibration_arrays,
+                                        record_waits=True) for name, _ in patch.experiment()}
     circuit = stim.Circuit()
     measured = 0
     for name, again, times in patch.runs():
-        body = stim.Circuit()
-        count = 0
-        free = {q: 0.0 for q in patch.qubits}
-        started: set = set(patch.waiting(name, again))     # these idle from time 0
-        for op in patch.circuits[name].operations:
-            qs = op.qubits
-            if op.kind == "barrier":
-                t = max(free[q] for q in qs)
-                for q in qs:
-                    if q in started and noise:
-                        _idle(body, index[q], t - free[q], qcal.get(where[q]))
-                    free[q] = t
-                continue
-            if op.conditional:
-                raise InputError(f"circuit '{name}': a gate inside an 'if' block cannot be "
-                                 "simulated here", file=op.file, line=op.line)
-            phys = [where[q] for q in qs]
-            targets = [index[q] for q in qs]
-            length = _duration(device, op, phys, median, set())   # the schedule's rule
-            start = max(free[q] for q in qs)
-            if noise:
-                for q in qs:
-                    if q in started:
-                        _idle(body, index[q], start - free[q], qcal.get(where[q]))
-            _append(body, device, op, phys, targets, noise, name)
-            if op.kind == "measure":
-                count += 1
-            for q in qs:
-                started.add(q)
-                free[q] = start + length
-        end = max(free.values(), default=0.0)
-        if noise:
-            for q in sorted(started, key=index.get):   # a fixed order: same circuit every run
-                _idle(body, index[q], end - free[q], qcal.get(where[q]))
+        if device is not None and placement is not None:
+            body, count = _noisy_run(patch, name, again, device, placement, timings[name])
+        else:
+            body, count = _plain_run(patch, name)
         for _ in range(times):
             circuit += body
         measured += count * times
-    append_detectors(circuit, patch, measured)
+    if detectors:
+        append_detectors(circuit, patch, measured)
     return circuit
 
 
-def _idle(body, target, t_ns, cal) -> None:
+def append_detectors(circuit: stim.Circuit, patch: Patch, measured: int) -> None:
+    """The patch's detectors and observable, as lookbacks from `measured` measurements."""
+    import stim
+    for det in patch.detectors:
+        circuit.append("DETECTOR", [stim.target_rec(m - measured) for m in det.measurements])
+    if patch.observable:
+        circuit.append("OBSERVABLE_INCLUDE",
+                       [stim.target_rec(m - measured) for m in patch.observable], 0)
+
+
+def _plain_run(patch: Patch, name: str) -> tuple[stim.Circuit, int]:
+    import stim
+
+    body = stim.Circuit()
+    count = 0
+    index = patch.index
+    for op in patch.circuits[name].operations:
+        if op.kind == "barrier":
+            body.append("TICK")
+            continue
+        _refuse_conditional(op, name)
+        _append(body, op, [index[q] for q in op.qubits], name, None, ())
+        count += op.kind == "measure"
+    return body, count
+
+
+def _noisy_run(patch: Patch, name: str, again: bool, device: Device, placement: Placement,
+               timing: Timing) -> tuple[stim.Circuit, int]:
+    """One run of a circuit with noise; `again`: a later run of a repeated circuit (the
+    schedule is the same, only the qubits already holding state differ)."""
+    import stim
+
+    assert timing.waits is not None
+    where = placement.as_dict(patch)
+    index = patch.index
+    qcal = device.qubit_calibration
+    body = stim.Circuit()
+    count = 0
+    started: set[str] = set(patch.waiting(name, again))     # these idle from time 0
+    for op, waits in zip(patch.circuits[name].operations, timing.waits, strict=True):
+        qs = op.qubits
+        if op.kind != "barrier":
+            _refuse_conditional(op, name)
+        for q, wait in zip(qs, waits, strict=True):
+            if q in started:
+                _idle(body, index[q], float(wait[0]), qcal.get(where[q]))
+        if op.kind == "barrier":
+            continue
+        _append(body, op, [index[q] for q in qs], name, device, [where[q] for q in qs])
+        count += op.kind == "measure"
+        started.update(qs)
+    end = float(timing.finish[0])
+    for q in sorted(started, key=index.__getitem__):   # a fixed order: same circuit every run
+        _idle(body, index[q], end - float(timing.free[index[q], 0]), qcal.get(where[q]))
+    return body, count
+
+
+def _refuse_conditional(op: Operation, name: str) -> None:
+    if op.conditional:
+        raise InputError(f"circuit '{name}': a gate inside an 'if' block cannot be "
+                         "simulated here", file=op.file, line=op.line)
+
+
+def _idle(body: stim.Circuit, target: int, t_ns: float, cal: Any) -> None:
     if t_ns <= 0 or cal is None:
         return
-    px, py, pz = idle_pauli(t_ns, cal.t1_us, cal.t2_us)
+    channel = idle_channel(t_ns, cal.t1_us, cal.t2_us)
+    px, pz = channel.px, channel.pz
     if px or pz:
-        body.append("PAULI_CHANNEL_1", [target], [px, py, pz])
+        body.append("PAULI_CHANNEL_1", [target], [float(px), float(px), float(pz)])
 
 
-def _append(body, device, op, phys, targets, noise, circuit_name) -> None:
-    qcal = device.qubit_calibration
+def _append(body: stim.Circuit, op: Operation, targets: list[int], circuit_name: str,
+            device: Device | None, phys: Any) -> None:
+    """One operation, with its noise when a device is given (`phys`: its physical qubits)."""
+    qcal = device.qubit_calibration if device is not None else {}
     if op.kind == "measure":
         basis = op.written[-1].upper() if op.written in ("mx", "my", "mrx", "mry") else ""
-        r = getattr(qcal.get(phys[0]), "readout_error", None)
-        if noise and r:
+        r = getattr(qcal.get(phys[0]), "readout_error", None) if device is not None else None
+        if r:
             body.append("Z_ERROR" if basis == "X" else "X_ERROR", targets, r)
         body.append("M" + basis, targets)
         return
     if op.kind == "reset":
         basis = op.written[-1].upper() if op.written in ("rx", "ry", "mrx", "mry") else ""
         body.append("R" + basis, targets)
-        e = getattr(qcal.get(phys[0]), "reset_error", None)
-        if noise and e:
+        e = getattr(qcal.get(phys[0]), "reset_error", None) if device is not None else None
+        if e:
             body.append("Z_ERROR" if basis == "X" else "X_ERROR", targets, e)
         return
-    gate = _STIM.get(op.name)
+    gate = STIM_GATES.get(op.name)
     if gate is None:
         raise InputError(f"circuit '{circuit_name}': '{op.written or op.name}' is not a Clifford "
                          "gate stim can simulate", file=op.file, line=op.line)
+    if device is None:
+        body.append(gate, targets)
+        return
     if op.kind == "2q" and not device.is_coupled(*phys):
         raise InputError(f"circuit '{circuit_name}': gate on physical {phys[0]}-{phys[1]} is "
                          "off-coupler; only swap-free placements are simulated",
                          file=op.file, line=op.line)
     body.append(gate, targets)
-    if not noise:
-        return
     if op.kind == "2q":
         c = device.coupler_calibration.get(pair(*phys))
         if c is not None and c.two_qubit_error:

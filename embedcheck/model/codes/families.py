@@ -35,8 +35,9 @@ deterministic without noise, circuit-level fault distance):
 """
 from __future__ import annotations
 
-import tempfile
-from pathlib import Path
+from ...errors import InputError
+
+__all__ = ["FAMILIES", "family_yaml", "heavy_hex_layout", "surface_layout"]
 
 FAMILIES = ("repetition", "flagged", "surface", "heavy-hex", "heavy-hex-chipfit")
 
@@ -45,9 +46,9 @@ def family_yaml(family: str, *, distance: int = 3, rounds: int = 2, basis: str =
                 prep: str | None = None) -> str:
     """The patch file text of a family instance."""
     if family not in FAMILIES:
-        raise ValueError(f"unknown family {family!r}; choose from {', '.join(FAMILIES)}")
+        raise InputError(f"unknown family {family!r}; choose from {', '.join(FAMILIES)}")
     if rounds < 1:
-        raise ValueError("rounds must be at least 1")
+        raise InputError("rounds must be at least 1")
     if family == "repetition":
         return _repetition(distance, rounds, basis)
     if family == "flagged":
@@ -55,18 +56,6 @@ def family_yaml(family: str, *, distance: int = 3, rounds: int = 2, basis: str =
     if family in ("heavy-hex", "heavy-hex-chipfit"):
         return _heavy_hex(distance, rounds, chip_fit=family == "heavy-hex-chipfit")
     return _surface(distance, rounds)
-
-
-def build_patch(family: str, **options):
-    """A `Patch` of a family instance (through the ordinary YAML loader)."""
-    from ...io.patchfile import load_patch
-    text = family_yaml(family, **options)
-    with tempfile.TemporaryDirectory() as folder:
-        path = Path(folder) / f"{family}.yaml"
-        path.write_text(text)
-        patch = load_patch(path)
-    from dataclasses import replace
-    return replace(patch, source=None)
 
 
 def _header(qregs, cregs):
@@ -99,9 +88,9 @@ def _patch(name, description, rounds, roles, circuits, detectors, observable):
 
 def _repetition(d: int, rounds: int, basis: str) -> str:
     if d < 2:
-        raise ValueError("the repetition code needs distance >= 2")
+        raise InputError("the repetition code needs distance >= 2")
     if basis not in ("z", "x"):
-        raise ValueError("basis is 'z' (bit-flip code) or 'x' (phase-flip code)")
+        raise InputError("basis is 'z' (bit-flip code) or 'x' (phase-flip code)")
     data = [f"d{i}" for i in range(d)]
     anc = [f"a{i}" for i in range(d - 1)]
     q = lambda name: f"{name[0]}[{name[1:]}]"                     # noqa: E731
@@ -154,7 +143,7 @@ def _flagged(rounds: int, prep: str) -> str:
     elif prep == "naive":
         body += ["h d[0];", "cx d[0], d[1];", "cx d[1], d[2];", "cx d[2], d[3];"]
     elif prep != "product":
-        raise ValueError("prep is 'unitary', 'naive' or 'product'")
+        raise InputError("prep is 'unitary', 'naive' or 'product'")
     rnd = _header(regs, [("xs", 3), ("zs", 2)]) + _FLAG_ROUND
     readout = _header([("d", 4)], [("m", 4)]) + [f"measure d[{i}] -> m[{i}];" for i in range(4)]
     checks = ["xs[0]", "zs[0]", "zs[1]"]
@@ -178,7 +167,7 @@ def _flagged(rounds: int, prep: str) -> str:
 def surface_layout(d: int):
     """Data coordinates and checks (type, centre, data in CNOT order) of the rotated code."""
     if d < 3 or d % 2 == 0:
-        raise ValueError("the rotated surface code needs an odd distance >= 3")
+        raise InputError("the rotated surface code needs an odd distance >= 3")
     data = [(2 * i + 1, 2 * j + 1) for j in range(d) for i in range(d)]
     present = set(data)
     orders = {"X": [(-1, -1), (1, -1), (-1, 1), (1, 1)],      # NW, NE, SW, SE
@@ -246,7 +235,7 @@ def heavy_hex_layout(d: int):
     and D(d-1, c + 1) for c odd. Returns (data, flags, bulk X gauges, edge X gauges).
     """
     if d < 3 or d % 2 == 0:
-        raise ValueError("the heavy-hex code needs an odd distance >= 3")
+        raise InputError("the heavy-hex code needs an odd distance >= 3")
     data = [(r, c) for r in range(d) for c in range(d)]
     flags = [(r, c) for r in range(d - 1) for c in range(d)]
     bulk = [(r, c) for r in range(d - 1) for c in range(d - 1) if c % 2 == (1 - r % 2)]

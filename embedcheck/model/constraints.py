@@ -20,11 +20,15 @@ from __future__ import annotations
 
 import operator
 import re
+from collections.abc import Collection, Iterable, Mapping
 from dataclasses import dataclass, field
-from typing import Mapping
+from typing import Any
 
-from ..model.device import Device, Pair, pair
 from ..errors import InputError, did_you_mean
+from .device import Device, Pair, pair
+
+__all__ = ["COUPLER_FIGURES", "QUBIT_FIGURES", "Bound", "Constraints", "build", "parse_bound",
+           "parse_requirement"]
 
 QUBIT_FIGURES = ("readout_error", "single_qubit_error", "reset_error", "t1_us", "t2_us",
                  "single_qubit_duration_ns", "measurement_duration_ns")
@@ -38,7 +42,7 @@ class Bound:
     op: str
     value: float
 
-    def holds(self, value) -> bool:
+    def holds(self, value: float | None) -> bool:
         return value is not None and _OPS[self.op](value, self.value)
 
     def __str__(self) -> str:
@@ -72,7 +76,7 @@ class Constraints:
                    and x0 <= device.positions[q][0] <= x1 and y0 <= device.positions[q][1] <= y1}
         return out
 
-    def allowed_by_role(self, device: Device, roles) -> dict[str, set[int]]:
+    def allowed_by_role(self, device: Device, roles: Iterable[str]) -> dict[str, set[int]]:
         """For each role, the chip qubits a patch qubit of that role may sit on."""
         base = self.qubits(device)
         out = {}
@@ -113,7 +117,7 @@ class Constraints:
         return lines
 
 
-def parse_bound(text: str, figures=QUBIT_FIGURES + COUPLER_FIGURES) -> Bound:
+def parse_bound(text: str, figures: Collection[str] = QUBIT_FIGURES + COUPLER_FIGURES) -> Bound:
     """'readout_error <= 0.03' -> Bound; raises InputError with a hint when it is not one."""
     m = re.fullmatch(r"\s*([A-Za-z_0-9]+)\s*(<=|>=|<|>)\s*([-+0-9.eE]+)\s*", text)
     if not m:
@@ -146,8 +150,9 @@ def parse_requirement(text: str) -> tuple[str, Bound]:
     return who, parse_bound(rest, figures)
 
 
-def build(requirements=(), *, exclude_qubits=(), exclude_couplers=(), region=None,
-          region_box=None, forbid_direction_fixes=False) -> Constraints:
+def build(requirements: str | Iterable[str] = (), *, exclude_qubits: Iterable[int] = (),
+          exclude_couplers: Iterable[Any] = (), region: Iterable[int] | None = None,
+          region_box: Any = None, forbid_direction_fixes: bool = False) -> Constraints:
     """Constraints from requirement strings and lists (what the command line and files give)."""
     if isinstance(requirements, str):
         requirements = [requirements]
@@ -164,8 +169,8 @@ def build(requirements=(), *, exclude_qubits=(), exclude_couplers=(), region=Non
                 or box[0] > box[2] or box[1] > box[3]:
             raise InputError(f"region_box must be (x0, y0, x1, y1) with x0 <= x1 and y0 <= y1, "
                              f"not {region_box!r}")
-    roles: dict[str, list] = {}
-    couplers = []
+    roles: dict[str, list[Bound]] = {}
+    couplers: list[Bound] = []
     for text in requirements:
         who, bound = parse_requirement(text)
         (couplers if who == "coupler" else roles.setdefault(who, [])).append(bound)

@@ -1,0 +1,130 @@
+"""`embedcheck find CHIP PATCH`: find, audit and rank every swap-free placement."""
+from __future__ import annotations
+
+import argparse
+import re
+from typing import Any
+
+from ..errors import InputError
+from .options import (
+    add_common,
+    add_constraint_options,
+    add_search_options,
+    emit,
+    picture_bytes_for,
+    positive_int,
+    progress_printer,
+    request_constraints,
+    require_picture_path,
+    top_count,
+)
+
+__all__ = ["add_parser", "run"]
+
+
+def add_parser(sub: Any) -> None:
+    find = sub.add_parser("find", help="find, audit and rank every swap-free placement")
+    add_common(find)
+    add_search_options(find)
+    add_constraint_options(find)
+    find.add_argument("--top", type=top_count, default=10,
+                      help="placements to list (default 10; 'all' lists every one, e.g. "
+                           "for --format json)")
+    find.add_argument("--strict", action="store_true",
+                      help="exit 1 unless every circuit is swap-free on the best placement")
+    find.add_argument("--over-snapshots", default="worst", metavar="HOW",
+                      help="with several calibration snapshots, rank by 'worst' (default), "
+                           "'mean' or a quantile such as 'q0.25' of the per-snapshot score")
+    find.add_argument("--draw", metavar="FILE", help="draw the best placement on the chip "
+                      "(.png or .svg)")
+    find.add_argument("--score-map", metavar="FILE", help="draw every qubit shaded by the best "
+                      "score of any placement that uses it (.png or .svg)")
+    find.add_argument("--figure", choices=("auto", "undetected", "kept", "fidelity_product"),
+                      default="auto",
+                      help="what ranks the placements: 'undetected' (lowest-order rate of "
+                           "logical errors no detector sees, from stim's detector error model), "
+                           "'kept' (fraction of shots kept by post-selection) or "
+                           "'fidelity_product'; 'auto' (default) takes 'undetected' when the "
+                           "patch declares detectors and an observable and every circuit is "
+                           "swap-free, else 'fidelity_product'")
+    find.add_argument("--monte-carlo", type=positive_int, metavar="SHOTS",
+                      help="also sample SHOTS noisy shots of each listed placement with stim")
+    find.add_argument("--decode", action="store_true",
+                      help="with --monte-carlo, also decode by matching (pymatching)")
+    find.add_argument("--processes", type=positive_int, default=1,
+                      help="worker processes for the placement search and the logical "
+                           "scores (default 1)")
+    find.add_argument("--compare-sdk", action="store_true",
+                      help="also run qiskit's VF2Layout on the whole experiment and say where "
+                           "its choice ranks under our model")
+    find.set_defaults(run=run)
+
+
+def run(args: argparse.Namespace) -> int:
+    import numpy as np
+
+    from ..io.chipfile import load_snapshots
+    from ..io.files import Outputs
+    from ..io.patchfile import load_patch
+    from ..pipeline.find import run_find
+    from ..report.data import find_dict
+    from ..report.picture import draw_placement, draw_score_map
+    from ..report.text import render_find
+
+    snapshots, patch = load_snapshots(args.chip), load_patch(args.patch)
+    device = snapshots[-1]
+    by = args.over_snapshots
+    if by not in ("worst", "mean") and not re.fullmatch(r"q(0(\.\d+)?|1(\.0*)?)", by):
+        raise InputError(f"--over-snapshots: '{by}' should be worst, mean or q<fraction> "
+                         "such as q0.25")
+    outputs = Outputs()
+    for target, option in ((args.draw, "--draw"), (args.score_map, "--score-map")):
+        if target:
+            require_picture_path(target, option)
+            outputs.claim(target, option=option)
+    constraints = request_constraints(args, patch, device)
+    if args.decode and not args.monte_carlo:
+        raise InputError("--decode decodes sampled shots: give --monte-carlo SHOTS too")
+    progress = progress_printer()
+    try:
+        result = run_find(snapshots, patch, limit=args.limit, budget_s=args.budget_s,
+                          constraints=constraints, processes=args.processes, top=args.top,
+                          figure=args.figure, monte_carlo=args.monte_carlo or 0,
+                          decode=args.decode, over_snapshots=by,
+                          compare_sdk=args.compare_sdk, progress=progress)
+    finally:
+        if progress is not None:
+            progress.done()           # type: ignore[attr-defined]
+    payload = find_dict(result)
+    vetting, logical = result.vetting, result.logical
+    pictures: dict[str, bytes] = {}
+    if args.draw and vetting.ranking.placements:
+        best = logical.placements[0] if logical is not None else vetting.ranking.placements[0]
+        pictures[args.draw] = picture_bytes_for(args.draw, draw_placement(
+            device, None, patch=patch, placement=best,
+            title=f"{patch.name} on {device.name}: best placement"))
+        payload["pictures"] = {**payload.get("pictures", {}), "placement": args.draw}
+    elif args.draw:                          # nothing to place: the chip alone, titled so
+        pictures[args.draw] = picture_bytes_for(args.draw, draw_placement(
+            device, None, title=f"{device.name}: no placement of {patch.name} to draw"))
+        payload["pictures"] = {**payload.get("pictures", {}), "placement": args.draw}
+    if args.score_map and not vetting.ranking.placements:
+        payload["logical_note"] = (payload.get("logical_note", "") + "; " if
+                                   payload.get("logical_note") else "") + \
+            f"no placement to shade, so --score-map wrote nothing to {args.score_map}"
+    if args.score_map and vetting.ranking.placements:
+        if logical is not None:
+            values = -np.log10(np.maximum(logical.undetected, 1e-12)) \
+                if logical.figure == "undetected" else logical.kept
+            label = "-log10 undetected rate" if logical.figure == "undetected" else \
+                "kept fraction"
+            figure = draw_score_map(device, patch, logical.placements, values, None,
+                                    label=f"best {label} using it (higher is better)")
+        else:
+            figure = draw_score_map(device, patch, vetting.ranking.placements,
+                                    vetting.ranking.success, None)
+        pictures[args.score_map] = picture_bytes_for(args.score_map, figure)
+        payload["pictures"] = {**payload.get("pictures", {}), "score_map": args.score_map}
+    outputs.commit(pictures)
+    emit(args, payload, render_find(payload))
+    return 1 if args.strict and not vetting.all_swap_free else 0

@@ -1,0 +1,236 @@
+"""What the commands share: the parser class, common options, argument types, constraint
+and placement options, and how a command prints its answer.
+
+Kept cheap to import (the standard library only, at module level): `embedcheck --help`
+builds every command's parser without loading numpy, qiskit or stim.
+
+    >>> int_list("0-3,7", "--region")
+    [0, 1, 2, 3, 7]
+    >>> finite({"x": float("inf"), "y": [1.0, float("nan")]})
+    {'x': None, 'y': [1.0, None]}
+"""
+from __future__ import annotations
+
+import argparse
+import json
+import math
+import sys
+from collections.abc import Callable
+from pathlib import Path
+from typing import TYPE_CHECKING, Any, NoReturn
+
+from ..errors import InputError
+
+if TYPE_CHECKING:
+    from ..model.constraints import Constraints
+    from ..model.device import Device
+    from ..model.patch import Patch
+    from ..model.placement import Placement
+
+__all__ = ["Parser", "add_common", "add_constraint_options", "add_search_options", "emit",
+           "finite", "floats", "int_list", "kind_of", "pair_list", "parse_placement",
+           "picture_bytes_for", "positive_float", "positive_int", "progress_printer",
+           "request_constraints", "require_picture_path", "top_count"]
+
+
+class Parser(argparse.ArgumentParser):
+    """An argument parser whose usage errors are one-line `InputError`s (exit 2)."""
+
+    def error(self, message: str) -> NoReturn:  # one line, exit 2
+        raise InputError(f"{message} (see 'embedcheck --help')")
+
+
+def add_common(p: argparse.ArgumentParser) -> None:
+    p.add_argument("chip", help="chip file (YAML)")
+    p.add_argument("patch", help="patch file (YAML)")
+    p.add_argument("--format", choices=("text", "json"), default="text")
+
+
+def add_search_options(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--limit", type=positive_int, default=100_000,
+                   help="stop after this many distinct placements (default 100000); the "
+                        "ranking covers only the placements found")
+    p.add_argument("--budget-s", type=positive_float, default=60.0,
+                   help="stop the search after this many seconds (default 60)")
+
+
+def add_constraint_options(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--require", action="append", default=[], metavar="BOUND",
+                   help="a constraint such as 'ancilla: readout_error <= 0.03' or "
+                        "'coupler: two_qubit_error <= 0.02' (repeat for more)")
+    p.add_argument("--exclude-qubits", metavar="LIST", help="chip qubits not to use, e.g. 3,17")
+    p.add_argument("--exclude-couplers", metavar="LIST", help="couplers not to use, e.g. 3-4,17-18")
+    p.add_argument("--region", metavar="LIST", help="only these chip qubits, e.g. 0-40,52")
+    p.add_argument("--region-box", metavar="X0,Y0,X1,Y1",
+                   help="only chip qubits whose drawing position lies in this box")
+    p.add_argument("--forbid-direction-fixes", action="store_true",
+                   help="every CNOT must run in its coupler's native direction")
+
+
+def request_constraints(args: argparse.Namespace, patch: Patch,
+                        device: Device) -> Constraints | None:
+    """The patch's constraints merged with the command line's (the command line adds)."""
+    from ..model.constraints import build
+    from ..pipeline.requests import merge_constraints
+    try:
+        build(args.require)
+    except InputError as err:
+        raise InputError(err.message, key="--require") from None
+    given = build(args.require, exclude_qubits=int_list(args.exclude_qubits, "--exclude-qubits"),
+                  exclude_couplers=pair_list(args.exclude_couplers),
+                  region=int_list(args.region, "--region") if args.region else None,
+                  region_box=floats(args.region_box) if args.region_box else None,
+                  forbid_direction_fixes=args.forbid_direction_fixes)
+    return merge_constraints(patch.constraints, given, device)
+
+
+def int_list(text: str | None, option: str) -> list[int]:
+    out: list[int] = []
+    for part in filter(None, (t.strip() for t in (text or "").split(","))):
+        lo, sep, hi = part.partition("-")
+        try:
+            first, last = (int(lo), int(hi)) if sep else (int(part), int(part))
+        except ValueError:
+            raise InputError(f"{option}: '{part}' is not a qubit number or range") from None
+        if last < first:
+            raise InputError(f"{option}: range '{part}' runs backwards; write {last}-{first}")
+        out += list(range(first, last + 1))
+    return out
+
+
+def pair_list(text: str | None) -> list[tuple[int, int]]:
+    out = []
+    for part in filter(None, (t.strip() for t in (text or "").split(","))):
+        a, sep, b = part.partition("-")
+        try:
+            out.append((int(a), int(b)))
+        except ValueError:
+            raise InputError(f"--exclude-couplers: '{part}' should look like 3-4") from None
+    return out
+
+
+def floats(text: str) -> list[float]:
+    try:
+        values = [float(t) for t in text.split(",")]
+    except ValueError:
+        values = []
+    if len(values) != 4 or not all(math.isfinite(v) for v in values):
+        raise InputError(f"--region-box: '{text}' should be four finite numbers x0,y0,x1,y1")
+    if values[2] < values[0] or values[3] < values[1]:
+        raise InputError(f"--region-box: '{text}' is empty: x1 must be >= x0 and y1 >= y0")
+    return values
+
+
+def parse_placement(text: str, patch: Patch, device: Device) -> Placement:
+    """--placement 'd0=53,d1=55,...' as a checked placement."""
+    from ..pipeline.requests import placement_from_pairs
+    pairs = []
+    for item in filter(None, (s.strip() for s in text.split(","))):
+        name, sep, phys = item.partition("=")
+        if not sep:
+            raise InputError(f"--placement: '{item}' should look like name=physical_qubit")
+        pairs.append((name.strip(), phys))
+    return placement_from_pairs(pairs, patch, device)
+
+
+def positive_float(text: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"'{text}' is not a number") from None
+    if not value > 0 or value == float("inf"):
+        raise argparse.ArgumentTypeError(f"'{text}' must be a positive number of seconds")
+    return value
+
+
+def positive_int(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"'{text}' is not a whole number") from None
+    if value < 1:
+        raise argparse.ArgumentTypeError(f"'{text}' must be at least 1")
+    return value
+
+
+def top_count(text: str) -> int | None:
+    """--top: a positive count, or 'all' (None)."""
+    if text == "all":
+        return None
+    try:
+        return positive_int(text)
+    except argparse.ArgumentTypeError:
+        raise argparse.ArgumentTypeError(f"'{text}' is neither a whole number nor 'all'") from None
+
+
+def finite(obj: Any) -> Any:
+    """JSON has no infinity or NaN: they become null (the text report says what they mean)."""
+    if isinstance(obj, float) and not math.isfinite(obj):
+        return None
+    if isinstance(obj, dict):
+        return {k: finite(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [finite(v) for v in obj]
+    return obj
+
+
+def emit(args: argparse.Namespace, payload: dict[str, Any], text: str) -> None:
+    """Print the answer: the payload as one JSON object, or the text."""
+    if args.format == "json":
+        json.dump(finite(payload), sys.stdout, indent=2, allow_nan=False)
+        sys.stdout.write("\n")
+    else:
+        print(text)
+
+
+def progress_printer() -> Callable[[str, int], None] | None:
+    """On a terminal, a progress line on stderr ('searching: n maps so far ...'); else None.
+    Call it with (stage, count); `progress.done()` clears the line."""
+    if not sys.stderr.isatty():
+        return None
+    return _Progress()
+
+
+class _Progress:
+    words = {"searching": "maps so far", "scoring": "placements"}
+
+    def __init__(self) -> None:
+        self.stage: str | None = None
+
+    def __call__(self, stage: str, count: int) -> None:
+        if self.stage is not None and stage != self.stage:
+            self.done()
+        self.stage = stage
+        print(f"\r  {stage}: {count} {self.words.get(stage, '')} ...", end="", file=sys.stderr,
+              flush=True)
+
+    def done(self) -> None:
+        print("\r" + " " * 40 + "\r", end="", file=sys.stderr)
+
+
+def kind_of(path: str) -> str:
+    """'chip' or 'patch', from the file's top-level version key (or a circuit file's suffix)."""
+    import re
+
+    from ..io.files import read_input
+    if Path(path).suffix.lower() in (".stim", ".qasm", ".qasm2", ".qasm3"):
+        return "patch"
+    text = read_input(path)
+    m = re.search(r"^embedcheck_(chip|patch)\s*:", text, re.M)
+    if not m:
+        raise InputError("not a chip or patch file: it needs a version key "
+                         "'embedcheck_chip: 1' or 'embedcheck_patch: 1'", file=path)
+    return m.group(1)
+
+
+def require_picture_path(target: str, option: str) -> None:
+    path = Path(target)
+    if path.suffix.lower() not in (".png", ".svg"):
+        raise InputError(f"{option}: pictures are written as .png or .svg, not "
+                         f"'{path.suffix or path.name}'", file=target)
+
+
+def picture_bytes_for(target: str, figure: Any) -> bytes:
+    """A drawn figure as the bytes of `target`'s format (.png or .svg)."""
+    from ..report.picture import picture_bytes
+    return picture_bytes(figure, Path(target).suffix.lower().lstrip("."))

@@ -1,0 +1,51 @@
+"""What a placement search returns: the distinct placements and how the search ended.
+
+    >>> StopReason.BUDGET.value, StopReason("limit") is StopReason.LIMIT
+    ('budget', True)
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+from enum import Enum
+
+from ..model.placement import Placement
+
+__all__ = ["SearchResult", "StopReason"]
+
+
+class StopReason(str, Enum):
+    """Why a search stopped. The value is the word the reports print."""
+
+    COMPLETE = "complete"          # every placement was found
+    LIMIT = "limit"                # the count limit was reached
+    BUDGET = "budget"              # the time (or step) budget ran out
+
+    def __str__(self) -> str:
+        return self.value
+
+    def __format__(self, spec: str) -> str:
+        return format(self.value, spec)
+
+
+@dataclass(frozen=True, kw_only=True)
+class SearchResult:
+    """Distinct swap-free placements for the searched circuits, and how the search ended.
+
+    `stop_reason` says whether every placement was found (`StopReason.COMPLETE`) or the
+    count limit or the budget stopped the search. `reasons` explains, in plain words,
+    why there is no placement when a cheap necessary condition already rules it out.
+    """
+
+    circuits: tuple[str, ...]
+    placements: tuple[Placement, ...]
+    raw_maps: int
+    symmetry_order: int
+    stop_reason: StopReason
+    reasons: tuple[str, ...]
+    elapsed_s: float
+    symmetries: tuple[tuple[int, ...], ...] = ()   # permutations of patch qubit indices
+    notes: tuple[str, ...] = ()                    # caveats on how the result was counted
+
+    @property
+    def complete(self) -> bool:
+        return self.stop_reason is StopReason.COMPLETE
