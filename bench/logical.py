@@ -21,8 +21,11 @@ from scipy.stats import spearmanr  # noqa: E402
 from embedcheck import load_device, vet_patch  # noqa: E402
 from embedcheck.score.logical import fast_scores, monte_carlo  # noqa: E402
 from embedcheck.score.noise import noisy_circuit  # noqa: E402
-from helpers import DEMO_CHIP  # noqa: E402
-from helpers import random_calibration, syndrome_detector_patch  # noqa: E402
+from helpers import (  # noqa: E402
+    DEMO_CHIP,  # noqa: E402
+    random_calibration,
+    syndrome_detector_patch,
+)
 
 
 def main():

@@ -16,11 +16,14 @@ from qiskit import QuantumCircuit
 from qiskit.quantum_info import StabilizerState
 
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
-from embedcheck import Device, heavy_hex  # noqa: E402
-from embedcheck.model.device import pair  # noqa: E402
+from embedcheck import (  # noqa: E402
+    Device,
+    Placement,  # noqa: E402
+    heavy_hex,
+    repair_preparation,  # noqa: E402
+)
 from embedcheck.io.patchfile import patch_from_qiskit  # noqa: E402
-from embedcheck import repair_preparation  # noqa: E402
-from embedcheck import Placement  # noqa: E402
+from embedcheck.model.device import pair  # noqa: E402
 
 
 def main():

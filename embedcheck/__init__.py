@@ -123,7 +123,23 @@ _WHERE = {
     "fault_distance_at_most": ("score.simulate", None),
 }
 
-__all__ = ["__version__", *sorted(_WHERE)]
+__all__ = [
+    "__version__", "AuditReport", "CAUTION", "CODE_FAMILIES", "CheckResult", "Circuit",
+    "CircuitAudit", "CircuitFit", "Constraints", "CouplerCalibration", "Detector",
+    "DetectorProblem", "Device", "FindResult", "InputError", "InternalError", "Lattice",
+    "LogicalNote", "LogicalRanking", "MonteCarlo", "NearMiss", "OffCouplerGate", "Operation",
+    "PairResult", "Patch", "Placement", "Project", "QubitCalibration", "Ranking", "Repair",
+    "RuleOutcome", "Schedule", "SearchResult", "Sensitivity", "SnapshotRanking", "StopReason",
+    "Vetting", "audit_placement", "build_constraints", "check_detectors", "check_dict",
+    "cross_check", "device_from_target", "device_target", "draw_placement", "draw_score_map",
+    "fault_distance", "fault_distance_at_most", "find_dict", "find_placements", "heavy_hex",
+    "heavy_hex_qubit_count", "hexagonal", "initial_layout", "line", "load_device", "load_patch",
+    "load_project", "load_snapshots", "near_misses", "noisy_circuit", "off_coupler_counts",
+    "patch_from_family", "patch_from_qiskit", "patch_from_stim", "placed_qasm3",
+    "project_preparation", "qiskit_layout", "rank_across_snapshots", "rank_by_logical",
+    "rank_placements", "repair_preparation", "repaired_patch", "ring", "run_find", "run_project",
+    "schedule_circuit", "sensitivity", "square_grid", "stim_experiment", "vet_patch",
+]
 
 
 def __getattr__(name: str) -> Any:

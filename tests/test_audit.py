@@ -4,9 +4,15 @@ import random
 import numpy as np
 import pytest
 
-from embedcheck import audit_placement, load_device, load_patch, off_coupler_counts, vet_patch
+from embedcheck import (
+    Placement,
+    audit_placement,
+    load_device,
+    load_patch,
+    off_coupler_counts,
+    vet_patch,
+)
 from embedcheck.audit.qiskit_views import transpile_on_placement
-from embedcheck import Placement
 from helpers import DEMO_CHIP, DEMO_PATCH, FIXED_PATCH
 
 
@@ -74,7 +80,7 @@ def test_vectorised_counts_equal_the_per_placement_audit(demo):
 def test_dead_coupler_is_reported_as_dead(demo):
     device, patch, _ = demo
     (a, b), = device.dead_couplers
-    where = dict(zip(patch.qubits, range(100, 107)))
+    where = dict(zip(patch.qubits, range(100, 107), strict=False))
     where["d0"], where["f0"] = a, b                 # put a round gate on the dead coupler
     rest = iter(q for q in device.live_qubits if q not in (a, b))
     physical = tuple(where[q] if where[q] < 100 else next(rest) for q in patch.qubits)

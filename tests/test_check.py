@@ -8,15 +8,14 @@ import jsonschema
 import junitparser
 import pytest
 
-from embedcheck import Device, audit_placement, load_device, load_patch, vet_patch
-from embedcheck.cli import main
-from embedcheck.model.device import CouplerCalibration
-from embedcheck.io.yamlfile import schema
-from embedcheck.model.lattices import heavy_hex, line
-from embedcheck.model.patch import Circuit, Patch
-from embedcheck.io.qasm import read_qasm
+from embedcheck import Device, Placement, audit_placement, load_device, load_patch, vet_patch
 from embedcheck.audit.qiskit_views import transpile_on_placement
-from embedcheck import Placement
+from embedcheck.cli import main
+from embedcheck.io.qasm import read_qasm
+from embedcheck.io.yamlfile import schema
+from embedcheck.model.device import CouplerCalibration
+from embedcheck.model.lattices import line
+from embedcheck.model.patch import Circuit, Patch
 from helpers import DEMO_CHIP, DEMO_PATCH, FIXED_PATCH, ROOT
 
 PROJECT = ROOT / "samples" / "project.yaml"
@@ -77,7 +76,8 @@ def test_direction_fix_is_not_an_added_gate():
     # q1 -> q0 runs against the coupler's native direction (0 -> 1): single-qubit
     # gates fix it; qiskit's output has no extra two-qubit gate for it either.
     device = _ring_chip(directed={(0, 1): (0, 1), (1, 2): (1, 2)})
-    patch = _qasm_patch("chain", {"round": CNOT_CHAIN}, {"q0": "data", "q1": "data", "q2": "ancilla"})
+    patch = _qasm_patch("chain", {"round": CNOT_CHAIN},
+                        {"q0": "data", "q1": "data", "q2": "ancilla"})
     report = audit_placement(device, patch, Placement((0, 1, 2)))
     (c,) = report.circuits
     assert c.swap_free and c.direction_fixes == 2          # q1->q0 and, inside the if, q2->q1
@@ -87,7 +87,8 @@ def test_direction_fix_is_not_an_added_gate():
 
 @pytest.mark.parametrize("native", ["cz", "ecr"])
 def test_native_gate_accounting_matches_cx_chip(native):
-    patch = _qasm_patch("chain", {"round": CNOT_CHAIN}, {"q0": "data", "q1": "data", "q2": "ancilla"})
+    patch = _qasm_patch("chain", {"round": CNOT_CHAIN},
+                        {"q0": "data", "q1": "data", "q2": "ancilla"})
     on_cx = audit_placement(_ring_chip("cx"), patch, Placement((0, 1, 2))).circuits[0]
     other = _ring_chip(native)
     on_native = audit_placement(other, patch, Placement((0, 1, 2))).circuits[0]
@@ -99,7 +100,8 @@ def test_native_gate_accounting_matches_cx_chip(native):
 
 
 def test_gates_inside_if_blocks_are_audited():
-    patch = _qasm_patch("chain", {"round": CNOT_CHAIN}, {"q0": "data", "q1": "data", "q2": "ancilla"})
+    patch = _qasm_patch("chain", {"round": CNOT_CHAIN},
+                        {"q0": "data", "q1": "data", "q2": "ancilla"})
     device = _ring_chip()
     report = audit_placement(device, patch, Placement((1, 0, 3)))   # q2-q1 = 3-0: no coupler
     (c,) = report.circuits
@@ -264,7 +266,7 @@ def test_a_typo_in_the_project_rules_points_at_its_own_line(project_dir, capsys)
         "  - {file: flagged_weight4.yaml, rules: {max_off_coupler_gates: {prep: 3}}}\n").replace(
         "  max_off_coupler_gates: 0 ", "  max_off_coupler_gates: {prep: 0, rund: 1} ")
     path.write_text(text)
-    line = next(i for i, l in enumerate(text.splitlines(), 1) if "rund" in l)
+    line = next(i for i, row in enumerate(text.splitlines(), 1) if "rund" in row)
     code, out, _ = _run_check(project_dir, capsys)
     assert code == 2 and f"project.yaml:{line}: rules.max_off_coupler_gates.rund" in out.err
     assert "did you mean 'round'" in out.err

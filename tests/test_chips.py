@@ -6,10 +6,10 @@ from qiskit.transpiler import CouplingMap
 
 from embedcheck import Device, InputError, device_from_target, device_target, load_device
 from embedcheck.cli import main
-from embedcheck.model.device import CouplerCalibration, QubitCalibration
-from embedcheck.place.graphs import shortest_cycle
 from embedcheck.io.chipfile import load_snapshots
+from embedcheck.model.device import CouplerCalibration, QubitCalibration
 from embedcheck.model.lattices import build_family, cut, hexagonal, line, ring
+from embedcheck.place.graphs import shortest_cycle
 from helpers import DEMO_CHIP
 
 
@@ -197,6 +197,7 @@ def test_show_demo_chip_names_the_dead_coupler(capsys):
 def test_graphs_become_chips_or_say_why_not():
     # Reference: networkx's own graph (a directed one keeps its one-way arcs as directions).
     import networkx as nx
+
     from embedcheck import Device, InputError
     d = Device.from_graph(nx.DiGraph([(0, 1), (1, 2), (2, 1)]), name="dg")
     assert d.couplers == ((0, 1), (1, 2)) and dict(d.directed) == {(0, 1): (0, 1)}

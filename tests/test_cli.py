@@ -161,7 +161,8 @@ def test_dead_qubit_placement_is_refused(tmp_path, capsys):
     code, _, err = run(capsys, "audit", chip, patch, "--placement", "q0=1,q1=2")
     assert code == 2 and "qubit 2 of chip 'tiny' is dead" in err
     # Not adjacent at all: "no coupler", even though a dead qubit is nearby.
-    chip.write_text(GOOD_CHIP.replace("qubits: 3", "qubits: 4").replace("[1, 2]]", "[1, 2], [2, 3]]")
+    chip.write_text(GOOD_CHIP.replace("qubits: 3", "qubits: 4")
+                    .replace("[1, 2]]", "[1, 2], [2, 3]]")
                     + "dead_qubits: [3]\n")
     code, out, _ = run(capsys, "audit", chip, patch, "--placement", "q0=0,q1=2", "--format", "json")
     (gate,) = json.loads(out)["audit"]["circuits"][0]["off_coupler"]
@@ -328,6 +329,7 @@ def test_bare_chips_and_empty_pictures_are_findings(tmp_path, capsys):
 def test_find_json_follows_its_schema(capsys, extra, tmp_path):
     # Reference: the JSON Schema validator (draft 2020-12) on our shipped schema.
     import importlib.resources
+
     import jsonschema
     schema = json.loads(importlib.resources.files("embedcheck.schemas")
                         .joinpath("find-report.schema.json").read_text())
@@ -344,6 +346,7 @@ def test_find_json_follows_its_schema(capsys, extra, tmp_path):
 
 def test_audit_json_follows_its_schema(capsys, tmp_path):
     import importlib.resources
+
     import jsonschema
     schema = json.loads(importlib.resources.files("embedcheck.schemas")
                         .joinpath("audit-report.schema.json").read_text())

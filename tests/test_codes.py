@@ -8,8 +8,8 @@ import stim
 from embedcheck import Device, audit_placement, find_placements, heavy_hex
 from embedcheck.cli import main
 from embedcheck.io.patchfile import patch_from_family as build_patch
-from embedcheck.model.codes import family_yaml
 from embedcheck.io.patchfile import patch_from_stim
+from embedcheck.model.codes import family_yaml
 from embedcheck.score.simulate import check_detectors, fault_distance, fault_distance_at_most
 
 

@@ -1,6 +1,5 @@
 """Noise conversions, the fast logical score against Monte Carlo, and stim's own generator."""
 import math
-import random
 import re
 import shutil
 from dataclasses import replace
@@ -8,14 +7,13 @@ from dataclasses import replace
 import pytest
 import stim
 
-from embedcheck import Device, InputError, load_device, load_patch, vet_patch
-from embedcheck.model.device import CouplerCalibration, QubitCalibration
+from embedcheck import Device, InputError, Placement, load_device, load_patch, vet_patch
 from embedcheck.io.patchfile import patch_from_stim
+from embedcheck.model.device import CouplerCalibration, QubitCalibration
 from embedcheck.model.lattices import line
-from embedcheck.score.logical import fast_score, fast_scores, monte_carlo, rank_by_logical, wilson
 from embedcheck.score.idle import idle_channel
+from embedcheck.score.logical import fast_score, fast_scores, monte_carlo, rank_by_logical, wilson
 from embedcheck.score.noise import noisy_circuit, single_qubit_depolarizing, two_qubit_depolarizing
-from embedcheck import Placement
 from helpers import DEMO_CHIP, FIXED_PATCH, random_calibration, syndrome_detector_patch
 
 
@@ -167,6 +165,7 @@ def test_auto_figure_falls_back_only_when_zero_on_every_placement(capsys):
     # placement on the zero-error end of the chip scores 0); distance 5: it cannot, and
     # find says so and keeps the fidelity product.
     from pathlib import Path
+
     from embedcheck.cli import main
     from embedcheck.io.patchfile import patch_from_family as build_patch
     from embedcheck.score.logical import undetected_zero_everywhere
@@ -185,6 +184,7 @@ def test_monte_carlo_is_sampled_when_the_lowest_order_is_zero(capsys):
     import json
     import tempfile
     from pathlib import Path
+
     from embedcheck.cli import main
     from embedcheck.model.codes import family_yaml
     with tempfile.TemporaryDirectory() as tmp:

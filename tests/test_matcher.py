@@ -179,6 +179,7 @@ def test_worker_caps_never_fake_a_limit():
     # qubit the lone ancilla may use, so nothing fits; worker processes must still say
     # 'complete', not stop at a count of maps that never became placements.
     import networkx as nx
+
     from embedcheck import Device
     from embedcheck.model.constraints import build
     from embedcheck.model.device import QubitCalibration
@@ -200,11 +201,12 @@ def test_worker_caps_never_fake_a_limit():
 def test_a_huge_symmetry_group_is_not_listed():
     # A star with 8 leaves has 8! = 40320 symmetries: more than the search lists, so maps
     # are not merged and the result says so (and every map is still found, per networkx).
+    import math
+
     from embedcheck import Device
     from embedcheck.place.search import find_placements
     from embedcheck.place.symmetry import MAX_SYMMETRIES
     from helpers import patch_from_edges
-    import math
     assert math.factorial(8) > MAX_SYMMETRIES
     star = patch_from_edges([(0, k) for k in range(1, 9)])
     hub = nx.star_graph(8)                               # centre 0 with 8 leaves

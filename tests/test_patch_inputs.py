@@ -5,7 +5,7 @@ import pytest
 import stim
 from qiskit import qasm2, qasm3
 
-from embedcheck import InputError, load_patch
+from embedcheck import load_patch
 from embedcheck.cli import main
 from embedcheck.io.patchfile import patch_from_qiskit, patch_from_stim
 from embedcheck.score.simulate import check_detectors
@@ -105,7 +105,7 @@ def test_stim_generated_circuits_as_stim_and_as_its_openqasm(task, distance, tmp
     circuit = stim.Circuit.generated(task, distance=distance, rounds=4)
     flat = circuit.flattened()
     stim_cx = [(a.value, b.value) for inst in flat if inst.name == "CX"
-               for a, b in zip(inst.targets_copy()[::2], inst.targets_copy()[1::2])]
+               for a, b in zip(inst.targets_copy()[::2], inst.targets_copy()[1::2], strict=False)]
     used = {q for pair in stim_cx for q in pair} | {t.value for inst in flat
                                                     if inst.name in ("M", "MR", "R")
                                                     for t in inst.targets_copy()}

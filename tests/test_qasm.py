@@ -2,7 +2,7 @@
 from collections import Counter
 
 import pytest
-from qiskit import QuantumCircuit, qasm2, transpile
+from qiskit import qasm2, transpile
 from qiskit.circuit.random import random_circuit
 
 from embedcheck import InputError, load_patch
@@ -101,12 +101,15 @@ def test_inline_lines_are_lines_of_the_yaml_file():
         assert lines[op.line - 1].strip() == op.text
 
 
+HEAD2 = 'OPENQASM 2.0; include "qelib1.inc";\nqreg q[2];\n'
+
+
 @pytest.mark.parametrize("text,expected", [
-    ("OPENQASM 2.0; include \"qelib1.inc\";\nqreg q[2];\ncx q[0] q[1];", "t.qasm:3: OpenQASM syntax error"),
-    ("OPENQASM 2.0; include \"qelib1.inc\";\nqreg q[2];\nfoo q[0], q[1];", "t.qasm:3: unknown gate 'foo'"),
-    ("OPENQASM 2.0; include \"qelib1.inc\";\nqreg q[2];\ncx q[0], q[2];", "t.qasm:3: index 2 is outside register 'q'"),
-    ("OPENQASM 2.0; include \"qelib1.inc\";\nqreg q[2];\ncx q[0], r[0];", "t.qasm:3: qubit register 'r' is not declared"),
-    ("OPENQASM 2.0; include \"qelib1.inc\";\nqreg q[2];\ncx q[0], q[0];", "t.qasm:3: 'cx' acts twice on qubit q0"),
+    (HEAD2 + "cx q[0] q[1];", "t.qasm:3: OpenQASM syntax error"),
+    (HEAD2 + "foo q[0], q[1];", "t.qasm:3: unknown gate 'foo'"),
+    (HEAD2 + "cx q[0], q[2];", "t.qasm:3: index 2 is outside register 'q'"),
+    (HEAD2 + "cx q[0], r[0];", "t.qasm:3: qubit register 'r' is not declared"),
+    (HEAD2 + "cx q[0], q[0];", "t.qasm:3: 'cx' acts twice on qubit q0"),
 ])
 def test_bad_qasm_names_file_and_line(text, expected):
     with pytest.raises(InputError) as err:
@@ -115,11 +118,13 @@ def test_bad_qasm_names_file_and_line(text, expected):
 
 
 @pytest.mark.parametrize("text,expected", [
-    ('OPENQASM 2.0;\ninclude "qelib1.inc";\nqreg q[2];\ncnot q[0], q[1];', ":4: unknown gate 'cnot'"),
+    ('OPENQASM 2.0;\ninclude "qelib1.inc";\nqreg q[2];\ncnot q[0], q[1];',
+     ":4: unknown gate 'cnot'"),
     ('OPENQASM 2.0;\ninclude "mine.inc";\nqreg q[2];', ':2: include "mine.inc" is not supported'),
     ("OPENQASM 2.0;\nqreg q[2];\nh q[0];", ":3: gate 'h' is not defined: include the standard"),
     ("OPENQASM 4.0;\nqreg q[2];", ":1: OPENQASM 4.0 is not supported"),
-    ('OPENQASM 2.0;\ninclude "qelib1.inc";\nqreg q[2];\nqreg q[3];', ":4: register 'q' is declared twice"),
+    ('OPENQASM 2.0;\ninclude "qelib1.inc";\nqreg q[2];\nqreg q[3];',
+     ":4: register 'q' is declared twice"),
     ('OPENQASM 2.0;\ninclude "qelib1.inc";\nqreg q[2];\nmeasure q[0] -> x[0];',
      ":4: classical register 'x' is not declared"),
     ('OPENQASM 2.0;\ninclude "qelib1.inc";\nqreg q[2];\nu3(1, 2) q[0];',

@@ -5,10 +5,9 @@ import random
 import numpy as np
 import pytest
 
-from embedcheck import load_device, load_patch, rank_placements, vet_patch
+from embedcheck import Placement, load_device, load_patch, rank_placements, vet_patch
 from embedcheck.score.idle import idle_channel
 from embedcheck.score.schedule import schedule_circuit
-from embedcheck import Placement
 from helpers import DEMO_CHIP, DEMO_PATCH, FIXED_PATCH
 
 
@@ -81,7 +80,7 @@ def test_vectorised_score_equals_gate_by_gate_product(patch_file):
     device, patch = load_device(DEMO_CHIP), load_patch(patch_file)
     placements = list(vet_patch(device, patch).ranking.placements)
     ranking = rank_placements(device, patch, placements)
-    for placement, success in zip(ranking.placements, ranking.success):
+    for placement, success in zip(ranking.placements, ranking.success, strict=False):
         assert success == pytest.approx(_product_by_hand(device, patch, placement), rel=1e-12)
     total = sum(ranking.terms.values())
     assert np.allclose(total, ranking.log_success)

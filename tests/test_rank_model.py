@@ -11,11 +11,11 @@ from embedcheck.cli import main
 from embedcheck.model.device import CouplerCalibration, QubitCalibration
 from embedcheck.model.lattices import heavy_hex, line
 from embedcheck.model.patch import Circuit, Operation, Patch
-from embedcheck.score.cost import rank_across_snapshots, scores, sensitivity
-from embedcheck.score.idle import idle_channel
-from embedcheck.report.picture import draw_placement, draw_score_map
 from embedcheck.model.placement import Placement, placement_grid
 from embedcheck.place.search import find_placements
+from embedcheck.report.picture import draw_placement, draw_score_map
+from embedcheck.score.cost import rank_across_snapshots, scores, sensitivity
+from embedcheck.score.idle import idle_channel
 from embedcheck.score.schedule import schedule_circuit
 from helpers import DEMO_CHIP, FIXED_PATCH
 
@@ -90,7 +90,7 @@ def test_vectorised_scores_equal_a_per_placement_reference_on_random_calibration
     rng = random.Random(4)
     lat = heavy_hex(2, 3)
     patch = load_patch(FIXED_PATCH)
-    for trial in range(3):
+    for _trial in range(3):
         qcal = {q: QubitCalibration(readout_error=rng.uniform(0, 0.05),
                                     single_qubit_error=rng.uniform(0, 1e-3),
                                     reset_error=rng.uniform(0, 0.01), t1_us=rng.uniform(30, 200),

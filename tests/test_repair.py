@@ -1,4 +1,5 @@
-"""Repairing preparations: proofs by tableau and statevector, depth against an exhaustive optimum."""
+"""Repairing preparations: proofs by tableau and statevector, depth against an exhaustive
+optimum."""
 import itertools
 import random
 import shutil
@@ -9,14 +10,20 @@ import pytest
 from qiskit import QuantumCircuit
 from qiskit.quantum_info import random_clifford
 
-from embedcheck import Device, InputError, audit_placement, load_device, load_patch, vet_patch
+from embedcheck import (
+    Device,
+    InputError,
+    Placement,
+    audit_placement,
+    load_device,
+    load_patch,
+    vet_patch,
+)
 from embedcheck.cli import main
-from embedcheck.model.device import pair
 from embedcheck.io.patchfile import patch_from_qiskit
+from embedcheck.model.device import pair
 from embedcheck.model.lattices import heavy_hex
 from embedcheck.repair import repair_preparation, repaired_patch
-from embedcheck.repair.state import two_qubit_count_depth
-from embedcheck import Placement
 from helpers import DEMO_CHIP, DEMO_PATCH
 
 
@@ -207,6 +214,7 @@ def test_product_state_option_refuses_what_rounds_cannot_project():
     # from any product state, so no round projects a product state onto it.
     patch = build_patch("repetition", distance=3, rounds=2)
     from dataclasses import replace
+
     from embedcheck.io.qasm import read_qasm
     from embedcheck.model.patch import Circuit
     text = ('OPENQASM 2.0;\ninclude "qelib1.inc";\nqreg d[3];\nqreg a[2];\n'
@@ -265,12 +273,12 @@ def test_surface_code_logical_zero_rewritten_onto_its_couplers():
     # prepared naively over the data qubits, rewritten onto the data-ancilla couplers
     # with the ancillas as helpers. Reference: qiskit StabilizerState expectation values
     # of every check and of logical Z on the repaired circuit.
+    import numpy as np
     from qiskit.quantum_info import Pauli, StabilizerState
 
     from embedcheck.model.codes import surface_layout
     from embedcheck.model.gf2 import row_reduce
     from embedcheck.repair.state import ops_circuit
-    import numpy as np
     data, checks = surface_layout(3)
     ancillas = [centre for _, centre, _ in checks]
     index = {p: i for i, p in enumerate(data + ancillas)}

@@ -4,19 +4,17 @@ import textwrap
 from pathlib import Path
 
 import pytest
-import stim
 
 from embedcheck import Device, InputError, audit_placement, load_device, load_patch, vet_patch
 from embedcheck.cli import main
-from embedcheck.model.constraints import build
-from embedcheck.model.device import QubitCalibration
 from embedcheck.io.qasm import read_qasm
 from embedcheck.io.stimfile import read_stim
+from embedcheck.model.constraints import build
+from embedcheck.model.device import QubitCalibration
 from embedcheck.model.lattices import line
 from embedcheck.model.patch import Circuit, Patch
 from embedcheck.place.search import find_placements
 from embedcheck.score.simulate import check_detectors
-from helpers import patch_from_edges
 
 DATA = Path(__file__).parent / "data"
 

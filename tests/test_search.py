@@ -119,6 +119,7 @@ def test_a_tiny_budget_never_reads_as_no_placement(capsys):
     # With too little time the verdict is 'unknown' and the report says INCOMPLETE, never
     # that nothing fits; a circuit without two-qubit gates fits without a search.
     import json
+
     from embedcheck import load_device, load_patch, vet_patch
     from embedcheck.cli import main
     from helpers import DEMO_CHIP, FIXED_PATCH
@@ -140,8 +141,14 @@ def test_a_tiny_budget_never_reads_as_no_placement(capsys):
 def test_the_api_refuses_what_the_command_line_refuses():
     # Bad requests and impossible placements are InputErrors with a reason, not KeyErrors,
     # TypeErrors or silently accepted nonsense.
-    from embedcheck import InputError, audit_placement, load_device, load_patch, rank_placements
-    from embedcheck import Placement
+    from embedcheck import (
+        InputError,
+        Placement,
+        audit_placement,
+        load_device,
+        load_patch,
+        rank_placements,
+    )
     from helpers import DEMO_CHIP, FIXED_PATCH
     device, patch = load_device(DEMO_CHIP), load_patch(FIXED_PATCH)
     for kwargs, words in (({"circuits": ["rund"]}, "did you mean 'round'"),
@@ -162,12 +169,17 @@ def test_the_api_refuses_what_the_command_line_refuses():
 
 def test_empty_patches_numpy_numbers_and_huge_qubit_numbers():
     import numpy as np
-    from embedcheck import InputError, rank_placements, vet_patch
+
+    from embedcheck import (
+        InputError,
+        Placement,
+        load_device,
+        load_patch,
+        rank_placements,
+        vet_patch,
+    )
     from embedcheck.model.patch import Patch
-    from embedcheck import Placement
-    from helpers import DEMO_CHIP
-    from embedcheck import load_device, load_patch
-    from helpers import FIXED_PATCH
+    from helpers import DEMO_CHIP, FIXED_PATCH
     device, patch = load_device(DEMO_CHIP), load_patch(FIXED_PATCH)
     empty = Patch("empty", (), {}, {})
     assert len(vet_patch(device, empty).ranking.placements) == 1   # the empty placement

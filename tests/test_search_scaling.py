@@ -11,11 +11,10 @@ from hypothesis import strategies as st
 from networkx.algorithms.isomorphism import DiGraphMatcher, GraphMatcher
 
 from embedcheck import Device, load_device, load_patch
+from embedcheck.io.patchfile import patch_from_stim
 from embedcheck.model.constraints import build
 from embedcheck.model.device import QubitCalibration, pair
-from embedcheck.io.patchfile import patch_from_stim
 from embedcheck.model.lattices import heavy_hex
-from embedcheck.model.patch import Circuit, Operation, Patch
 from embedcheck.place.search import find_placements
 from helpers import DEMO_CHIP, FIXED_PATCH, patch_from_edges
 
@@ -205,6 +204,7 @@ def test_constraints_in_the_patch_file_and_on_the_command_line(tmp_path, capsys)
 
 def test_near_misses_when_nothing_fits():
     import stim
+
     from embedcheck import vet_patch
     patch = patch_from_stim(stim.Circuit.generated("surface_code:rotated_memory_z", distance=3,
                                                    rounds=2))

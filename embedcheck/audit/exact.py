@@ -16,7 +16,8 @@ duration come from the one schedule (`embedcheck.score.schedule`).
     >>> from embedcheck.model.patch import Patch, Circuit, Operation
     >>> from embedcheck.model.placement import Placement
     >>> ops = (Operation("cx", ("a", "b"), "2q", line=4), Operation("cx", ("a", "c"), "2q", line=5))
-    >>> patch = Patch("t", ("a", "b", "c"), dict.fromkeys("abc", "data"), {"round": Circuit("round", ops)})
+    >>> patch = Patch("t", ("a", "b", "c"), dict.fromkeys("abc", "data"),
+    ...               {"round": Circuit("round", ops)})
     >>> dev = Device.from_lattice(square_grid(1, 3), name="line")
     >>> report = audit_placement(dev, patch, Placement((0, 1, 2)))
     >>> [(c.circuit, c.two_qubit_gates, len(c.off_coupler)) for c in report.circuits]
@@ -32,7 +33,6 @@ from ..model.device import Device
 from ..model.patch import SYMMETRIC_GATES, Patch
 from ..model.placement import Placement, check_placements
 from ..score.schedule import schedule_circuit
-from .qiskit_views import transpile_on_placement
 
 __all__ = ["AuditReport", "CircuitAudit", "OffCouplerGate", "audit_placement",
            "estimate_router_overhead"]

@@ -15,9 +15,9 @@ from __future__ import annotations
 import datetime as dt
 from pathlib import Path
 
+from ..errors import InputError
 from ..model.device import CouplerCalibration, Device, QubitCalibration, pair
 from ..model.lattices import FAMILIES, Lattice, build_family, cut
-from ..errors import InputError
 from .files import note_input
 from .yamlfile import Document, read_yaml
 
@@ -113,7 +113,8 @@ def _graph(doc: Document):
     data = doc.data
     if "family" in data:
         if "qubits" in data or "couplers" in data:
-            raise doc.error(("family",), "give either 'family' or 'qubits' and 'couplers', not both")
+            raise doc.error(("family",),
+                            "give either 'family' or 'qubits' and 'couplers', not both")
         fam = data["family"]
         _, params = FAMILIES[fam["kind"]]
         for p in params:
@@ -182,12 +183,14 @@ def _dead(doc, path, known, couplers):
     dead_q, dead_c = set(), set()
     for i, q in enumerate(data.get("dead_qubits", [])):
         if q not in known:
-            raise doc.error(path + ("dead_qubits", i), f"dead qubit {q} is not a qubit of this chip")
+            raise doc.error(path + ("dead_qubits", i),
+                            f"dead qubit {q} is not a qubit of this chip")
         dead_q.add(q)
     for i, (a, b) in enumerate(data.get("dead_couplers", [])):
         _check_pair(doc, path + ("dead_couplers", i), (a, b), known)
         if pair(a, b) not in set(couplers):
-            raise doc.error(path + ("dead_couplers", i), f"dead coupler [{a}, {b}] is not a coupler")
+            raise doc.error(path + ("dead_couplers", i),
+                            f"dead coupler [{a}, {b}] is not a coupler")
         dead_c.add(pair(a, b))
     return dead_q, dead_c
 
@@ -196,7 +199,8 @@ def _check_pair(doc, path, ab, known):
     a, b = ab
     for q in (a, b):
         if q not in known:
-            raise doc.error(path, f"coupler [{a}, {b}] names qubit {q}, which this chip does not have")
+            raise doc.error(path,
+                            f"coupler [{a}, {b}] names qubit {q}, which this chip does not have")
     if a == b:
         raise doc.error(path, f"coupler [{a}, {b}] joins a qubit to itself")
 

@@ -48,7 +48,8 @@ def load_patch(path: str | Path) -> Patch:
     if suffix in (".qasm", ".qasm3", ".qasm2"):
         text = read_input(path)
         ops = read_qasm(text, file=str(path))
-        return _with_roles(Path(path).stem, {"round": Circuit("round", tuple(ops), text, str(path))},
+        return _with_roles(Path(path).stem,
+                           {"round": Circuit("round", tuple(ops), text, str(path))},
                            rounds=1, source=str(path))
     return patch_from_document(read_yaml(path, "patch"))
 
@@ -97,7 +98,7 @@ def patch_from_stim_experiment(exp, *, name: str, source: str | None) -> Patch:
     circuits = {k: Circuit(k, v, None, source) for k, v in exp.circuits.items()}
     patch = _with_roles(name, circuits, rounds=exp.rounds, source=source)
     detectors = tuple(Detector(f"D{i}", m, line) for i, (m, line)
-                      in enumerate(zip(exp.detectors, exp.detector_lines)))
+                      in enumerate(zip(exp.detectors, exp.detector_lines, strict=False)))
     return _replace(patch, detectors=detectors, observable=exp.observable)
 
 
@@ -311,7 +312,8 @@ def _resolve(doc: Document, patch: Patch, path, ref: str) -> int:
     if m.group("k") is not None:
         k = int(m.group("k"))
         if k >= len(mine):
-            raise doc.error(path, f"'{ref}': circuit '{circuit}' has only {len(mine)} measurement(s)")
+            raise doc.error(path, f"'{ref}': circuit '{circuit}' has only {len(mine)} "
+                            "measurement(s)")
         return mine[k]
     bit = m.group("bit")
     hits = [i for i in mine if record[i][2].clbit == bit]

@@ -9,7 +9,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Mapping
 
-from ..errors import InputError, did_you_mean
+from ..errors import did_you_mean
 from .yamlfile import Document, read_yaml
 
 __all__ = ["PatchEntry", "Project", "Rules", "load_project"]

@@ -24,8 +24,8 @@ from functools import lru_cache
 import openqasm3
 from openqasm3 import ast
 
-from ..model.patch import Operation
 from ..errors import InputError
+from ..model.patch import Operation
 
 __all__ = ["declared_qubits", "qasm_version", "read_qasm"]
 
@@ -158,7 +158,7 @@ class _Walker:
                     bits = [f"{target}[{k}]" for k in range(len(qubits))]
                 else:
                     bits = [_bit_name(stmt.target)] * len(qubits)
-            for q, bit in zip(qubits, bits):
+            for q, bit in zip(qubits, bits, strict=False):
                 self.emit(stmt, "measure", (q,), "measure", conditional, "measure", clbit=bit)
         elif isinstance(stmt, ast.QuantumReset):
             for q in self.operand(stmt.qubits, stmt):
@@ -210,7 +210,7 @@ class _Walker:
             raise self.fail(stmt, f"subroutine '{name}' takes {len(definition.arguments)} "
                                   f"argument(s), got {len(call.arguments)}")
         bind = {}
-        for formal, actual in zip(definition.arguments, call.arguments):
+        for formal, actual in zip(definition.arguments, call.arguments, strict=False):
             if isinstance(formal, ast.QuantumArgument):
                 names = self.operand(actual, stmt)
                 if len(names) != 1:
@@ -269,8 +269,9 @@ class _Walker:
             definition = self.definitions[name]
             formal = [q.name for q in definition.qubits]
             if len(formal) != len(qubits):
-                raise self.fail(stmt, f"gate '{name}' takes {len(formal)} qubits, got {len(qubits)}")
-            bind = dict(zip(formal, qubits))
+                raise self.fail(stmt, f"gate '{name}' takes {len(formal)} qubits, "
+                                      f"got {len(qubits)}")
+            bind = dict(zip(formal, qubits, strict=False))
             for inner in definition.body:
                 if isinstance(inner, ast.QuantumGate):
                     names = [[bind[q.name]] for q in inner.qubits]

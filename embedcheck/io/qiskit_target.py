@@ -35,8 +35,15 @@ def device_target(device: Device) -> Any:
     control-flow operations are listed too: without them qiskit refuses circuits with
     classically-controlled blocks.
     """
-    from qiskit.circuit import (ForLoopOp, IfElseOp, Measure, Parameter, Reset, SwitchCaseOp,
-                                WhileLoopOp)
+    from qiskit.circuit import (
+        ForLoopOp,
+        IfElseOp,
+        Measure,
+        Parameter,
+        Reset,
+        SwitchCaseOp,
+        WhileLoopOp,
+    )
     from qiskit.circuit.library import RZGate, SXGate, XGate
     from qiskit.providers.backend import QubitProperties
     from qiskit.transpiler import InstructionProperties, Target

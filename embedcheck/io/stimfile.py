@@ -24,8 +24,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 from pathlib import Path
 
-from ..model.patch import Operation
 from ..errors import InputError
+from ..model.patch import Operation
 from .files import read_input
 
 __all__ = ["StimExperiment", "load_stim", "read_stim"]
@@ -33,7 +33,8 @@ __all__ = ["StimExperiment", "load_stim", "read_stim"]
 
 @dataclass(frozen=True)
 class StimExperiment:
-    """Operations per circuit, the round count, detectors and the observable (measurement indices)."""
+    """Operations per circuit, the round count, detectors and the observable (measurement
+    indices)."""
 
     circuits: dict
     rounds: int
@@ -201,7 +202,7 @@ class _Walker:
             out += [Operation("reset", (f"q{t.value}",), "reset", line=line, text=text,
                               file=self.file, written=name.lower()) for t in targets]
         elif data.is_two_qubit_gate:
-            for a, b in zip(targets[::2], targets[1::2]):
+            for a, b in zip(targets[::2], targets[1::2], strict=False):
                 if a.is_measurement_record_target or b.is_measurement_record_target or \
                         a.is_sweep_bit_target or b.is_sweep_bit_target:
                     q = b if a.is_measurement_record_target or a.is_sweep_bit_target else a

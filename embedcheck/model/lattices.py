@@ -95,7 +95,8 @@ def ring(size: int) -> Lattice:
     if size < 3:
         raise InputError("ring needs size >= 3")
     angle = 2 * math.pi / size
-    positions = {i: (round(size / 2 * math.cos(i * angle), 6), round(size / 2 * math.sin(i * angle), 6))
+    positions = {i: (round(size / 2 * math.cos(i * angle), 6),
+                     round(size / 2 * math.sin(i * angle), 6))
                  for i in range(size)}
     couplers = tuple(sorted(pair(i, (i + 1) % size) for i in range(size)))
     return Lattice("ring", tuple(range(size)), couplers, positions)
@@ -126,7 +127,8 @@ def square_grid(rows: int, columns: int) -> Lattice:
 
 
 # family name -> (builder, its size parameters)
-FAMILIES: dict[str, tuple[Callable[..., Lattice], tuple[str, ...]]] = {"heavy-hex": (heavy_hex, ("rows", "columns")),
+FAMILIES: dict[str, tuple[Callable[..., Lattice], tuple[str, ...]]] = {
+            "heavy-hex": (heavy_hex, ("rows", "columns")),
             "square-grid": (square_grid, ("rows", "columns")),
             "hexagonal": (hexagonal, ("rows", "columns")),
             "line": (line, ("size",)),

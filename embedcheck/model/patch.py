@@ -148,7 +148,8 @@ class Patch:
     def waiting(self, circuit: str, again: bool = False) -> frozenset[str]:
         """Qubits that hold state when `circuit` starts and will be used again: touched by
         an earlier circuit of the experiment (or by this one, on a later run) and not reset
-        last, with a next operation (in this circuit or a later one) that is not a reset. Their wait from
+        last, with a next operation (in this circuit or a later one) that is not a reset. Their
+        wait from
         the circuit's start is idle time; a qubit still in its initial |0> does not decay,
         and one that is reset next, or never used again, has nothing to lose."""
         names = [n for n, _ in self.experiment()]

@@ -10,9 +10,11 @@ qubits), which the scoring indexes without a per-placement loop.
     >>> from embedcheck.model.lattices import line
     >>> from embedcheck.model.patch import Circuit, Operation, Patch
     >>> ops = (Operation("cx", ("a", "b"), "2q"), Operation("cx", ("a", "c"), "2q"))
-    >>> patch = Patch("t", ("a", "b", "c"), dict.fromkeys("abc", "data"), {"round": Circuit("round", ops)})
+    >>> patch = Patch("t", ("a", "b", "c"), dict.fromkeys("abc", "data"),
+    ...               {"round": Circuit("round", ops)})
     >>> dev = Device.from_lattice(line(3), name="line")
-    >>> off_coupler_counts(dev, patch, [Placement((0, 1, 2)), Placement((1, 0, 2))], ["round"]).tolist()
+    >>> placements = [Placement((0, 1, 2)), Placement((1, 0, 2))]
+    >>> off_coupler_counts(dev, patch, placements, ["round"]).tolist()
     [[1], [0]]
 """
 from __future__ import annotations

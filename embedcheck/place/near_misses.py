@@ -6,7 +6,8 @@ off-coupler gates, from a greedy heuristic (not exhaustive; the report says so).
     >>> from embedcheck.model.patch import Circuit, Operation, Patch
     >>> ring = tuple(Operation("cx", (f"q{i}", f"q{(i + 1) % 3}"), "2q") for i in range(3))
     >>> names = ("q0", "q1", "q2")
-    >>> patch = Patch("triangle", names, dict.fromkeys(names, "data"), {"round": Circuit("round", ring)})
+    >>> patch = Patch("triangle", names, dict.fromkeys(names, "data"),
+    ...               {"round": Circuit("round", ring)})
     >>> best = near_misses(Device.from_lattice(line(4), name="line"), patch, ["round"])[0]
     >>> best.off_coupler_gates, len(best.missing_pairs)        # a triangle on a line: one pair
     (1, 1)
@@ -40,7 +41,8 @@ class NearMiss:
 
 def near_misses(device: Device, patch: Patch, circuits: Sequence[str], *,
                 constraints: Constraints | None = None, keep: int = 5,
-                budget_s: float = 5.0, clock: Callable[[], float] = time.monotonic) -> list[NearMiss]:
+                budget_s: float = 5.0,
+                clock: Callable[[], float] = time.monotonic) -> list[NearMiss]:
     """Placements needing the fewest off-coupler gates when none is swap-free (a heuristic).
 
     Greedy edge removal: drop one interacting pair at a time, first at the patch qubits

@@ -150,7 +150,8 @@ def constraint_reasons(device: Device, patch: Patch, names: Sequence[str], rules
                        clock: Callable[[], float], budget_s: float | None, *,
                        search: Search) -> list[str]:
     """Which single constraint, dropped, would let the patch fit (plain words)."""
-    trials: list[tuple[str, Constraints]] = [(f"{role}: {b}", replace(rules, roles={**rules.roles, role: tuple(
+    trials: list[tuple[str, Constraints]] = [(f"{role}: {b}", replace(rules, roles={
+        **rules.roles, role: tuple(
         x for x in rules.roles[role] if x is not b)})) for role in rules.roles
         for b in rules.roles[role]]
     trials += [(f"coupler: {b}", replace(rules, couplers=tuple(x for x in rules.couplers

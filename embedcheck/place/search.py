@@ -24,7 +24,8 @@ placed ones) so that every placement is complete.
     >>> from embedcheck.model.patch import Patch, Circuit, Operation
     >>> ring = [Operation("cx", (f"q{i}", f"q{(i + 1) % 12}"), "2q") for i in range(12)]
     >>> patch = Patch("ring", tuple(f"q{i}" for i in range(12)),
-    ...               {f"q{i}": "data" for i in range(12)}, {"round": Circuit("round", tuple(ring))})
+    ...               {f"q{i}": "data" for i in range(12)},
+    ...               {"round": Circuit("round", tuple(ring))})
     >>> result = find_placements(Device.from_lattice(heavy_hex(2, 2), name="hh"), patch)
     >>> len(result.placements), result.symmetry_order, result.complete   # one per hexagon
     (4, 24, True)

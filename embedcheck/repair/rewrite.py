@@ -130,7 +130,8 @@ def repair_preparation(device: Device, patch: Patch, placement: Placement, *,
     if check_distance:
         before["fault_distance"] = _safe(fault_distance, patch)
     lowered: list[str] = []
-    for _two, _depth, method, ops, helpers in sorted(scored, key=lambda s: (s[0], s[1])):
+    for candidate in sorted(scored, key=lambda s: (s[0], s[1])):
+        _, _, method, ops, helpers = candidate
         text = to_qasm(patch, ops)
         fixed = with_circuit(patch, circuit, Circuit(circuit, tuple(read_qasm(text)), text,
                                                       None))

@@ -126,7 +126,7 @@ def ops_circuit(patch: Patch, ops: Ops) -> Any:
 def two_qubit_count_depth(ops: Ops) -> tuple[int, int]:
     level: dict[str, int] = {}
     count = depth = 0
-    for name, qubits in ops:
+    for _name, qubits in ops:
         if len(qubits) != 2:
             continue
         count += 1

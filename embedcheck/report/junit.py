@@ -44,4 +44,5 @@ def render_junit(d: dict) -> str:
     suites.set("failures", str(failures))
     suites.set("errors", str(len(d["internal_errors"])))
     ET.indent(suites)
-    return '<?xml version="1.0" encoding="UTF-8"?>\n' + ET.tostring(suites, encoding="unicode") + "\n"
+    return ('<?xml version="1.0" encoding="UTF-8"?>\n' + ET.tostring(suites, encoding="unicode")
+            + "\n")

@@ -17,7 +17,8 @@ from ..model.device import Device
 from ..model.patch import Patch
 from ..model.placement import Placement
 
-__all__ = ["DEAD", "LABELLED_UP_TO", "ROLE_STYLE", "draw_placement", "draw_score_map", "picture_bytes"]
+__all__ = ["DEAD", "LABELLED_UP_TO", "ROLE_STYLE", "draw_placement", "draw_score_map",
+           "picture_bytes"]
 
 ROLE_STYLE = {"data": ("o", "#0072B2"), "flag": ("D", "#E69F00"), "ancilla": ("s", "#009E73")}
 # (a diamond, not a triangle, for flags: wide enough to hold the name)
@@ -98,7 +99,8 @@ def _draw_couplers(ax, device: Device, pos, highlight=frozenset(), plain=False):
 
 def draw_placement(device: Device, path: str | Path | None = None, *, patch: Patch | None = None,
                    placement: Placement | None = None, title: str | None = None):
-    """Draw the chip, and the placement on top when given; write `path` (PNG/SVG); return the figure."""
+    """Draw the chip, and the placement on top when given; write `path` (PNG/SVG); return the
+    figure."""
     plt, fig, ax = _figure(device)
     pos = _positions(device)
     where = placement.as_dict(patch) if placement is not None else {}
@@ -156,7 +158,8 @@ def draw_score_map(device: Device, patch: Patch, placements, success, path=None,
     shaded = sorted(best)
     other = [q for q in device.live_qubits if q not in best]
     ax.scatter([pos[q][0] for q in other], [pos[q][1] for q in other], s=30, c="#DDDDDD",
-               edgecolors="#888888", linewidths=0.5, zorder=2, label="in no placement", gid="unused")
+               edgecolors="#888888", linewidths=0.5, zorder=2, label="in no placement",
+               gid="unused")
     if shaded:
         values = [best[q] for q in shaded]
         points = ax.scatter([pos[q][0] for q in shaded], [pos[q][1] for q in shaded], s=90,

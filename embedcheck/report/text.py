@@ -3,8 +3,8 @@ from __future__ import annotations
 
 import math
 
-__all__ = ["format_score", "render_audit", "render_check", "render_chip", "render_find", "render_patch",
-           "render_repair"]
+__all__ = ["format_score", "render_audit", "render_check", "render_chip", "render_find",
+           "render_patch", "render_repair"]
 
 
 def _where(gate: dict) -> str:
@@ -24,7 +24,8 @@ def _off_gates(audit: dict, indent: str = "  ") -> list[str]:
             a, b = g["patch_qubits"]
             p, q = g["physical_qubits"]
             written = f" (part of '{g['written']}')" if g["written"] not in ("cx", "") else ""
-            lines.append(f"{indent}{c['circuit']}, two-qubit gate {g['gate_index'] + 1}: {_where(g)}")
+            lines.append(f"{indent}{c['circuit']}, two-qubit gate {g['gate_index'] + 1}: "
+                         f"{_where(g)}")
             lines.append(f"{indent}    {g['text']}{written}")
             lines.append(f"{indent}    needs {a}-{b} = physical {p}-{q}: {g['reason']}")
         est = c.get("router_estimate")
@@ -114,7 +115,8 @@ def render_find(d: dict) -> str:
             "time budget (--budget-s)"
         out.append(f"INCOMPLETE: the {stopper} stopped the search after "
                    f"{s['distinct_placements']} distinct placement(s) swap-free for "
-                   f"{', '.join(s['circuits'])} ({s['raw_maps']} maps seen, {s['elapsed_s']:.2f} s).")
+                   f"{', '.join(s['circuits'])} ({s['raw_maps']} maps seen, "
+                   f"{s['elapsed_s']:.2f} s).")
         out.append("The ranking covers only these; better placements may exist. Raise the "
                    "limit or the budget for a complete answer.")
     for note in s.get("notes", ()):
@@ -125,7 +127,8 @@ def render_find(d: dict) -> str:
                    "the nearest free qubits, not searched.")
     excluded = [c["circuit"] for c in d["circuits"] if not c["in_core"]]
     if d["all_swap_free"]:
-        out.append("Every circuit is swap-free on every placement listed: no added two-qubit gates.")
+        out.append("Every circuit is swap-free on every placement listed: no added two-qubit "
+                   "gates.")
     elif d.get("inconclusive_circuits"):
         out.append(f"None of the placements listed makes every circuit swap-free: "
                    f"{', '.join(excluded)} need(s) routing on all of them (see the gates "
@@ -193,14 +196,15 @@ def render_find(d: dict) -> str:
                    f"snapshots (its rank in each: {', '.join(map(str, snap['winner_ranks']))}); "
                    f"the newest snapshot's own winner ranks {snap['newest_winner_rank']} here.")
         if snap["newest_winner_rank"] != 1:
-            out.append(f"  The robust choice differs from the newest snapshot's best: prefer it "
-                       f"if the calibration drifts as it has.")
+            out.append("  The robust choice differs from the newest snapshot's best: prefer it "
+                       "if the calibration drifts as it has.")
     sdk = d.get("sdk_choice")
     if sdk:
         out.append("")
         if sdk["found"]:
             out.append(f"qiskit's VF2Layout picks {_placement(sdk['qubits'])}: est. success "
-                       f"{format_score(sdk['success'])}, rank {sdk['our_rank']} of {sdk['of']} under our "
+                       f"{format_score(sdk['success'])}, rank {sdk['our_rank']} of {sdk['of']} "
+                       "under our "
                        f"{sdk['figure']}.")
         else:
             out.append(f"qiskit's VF2Layout: {sdk['status']}.")
@@ -317,7 +321,8 @@ def render_patch(d: dict) -> str:
     cycle = d["shortest_cycle"] if d["shortest_cycle"] is not None else "none (a tree)"
     out += ["", f"Interaction graph (all circuits): degrees {degrees}; shortest cycle {cycle}"]
     if d.get("detectors"):
-        out.append(f"Detectors: {d['detectors']}; observable: {d['observable_size']} measurement(s)")
+        out.append(f"Detectors: {d['detectors']}; observable: {d['observable_size']} "
+                   "measurement(s)")
     return "\n".join(_fold(line) for line in out)
 
 
@@ -386,7 +391,8 @@ def render_repair(d) -> str:
              f"  {'':<22} {'before':>10} {'after':>10}",
              f"  {'two-qubit gates':<22} {b['two_qubit_gates']:>10} {a['two_qubit_gates']:>10}",
              f"  {'two-qubit depth':<22} {b['two_qubit_depth']:>10} {a['two_qubit_depth']:>10}",
-             f"  {'off-coupler gates':<22} {b['off_coupler_gates']:>10} {a['off_coupler_gates']:>10}",
+             f"  {'off-coupler gates':<22} {b['off_coupler_gates']:>10} "
+             f"{a['off_coupler_gates']:>10}",
              f"  {'fidelity_product':<22} {format_score(b['fidelity_product']):>10} "
              f"{format_score(a['fidelity_product']):>10}"]
     if "fault_distance" in b:

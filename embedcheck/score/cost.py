@@ -39,7 +39,8 @@ over placements.
     >>> from embedcheck.model.patch import Patch, Circuit, Operation
     >>> from embedcheck.model.placement import Placement
     >>> dev = Device.from_lattice(square_grid(1, 3), name="line",
-    ...     coupler_calibration={(0, 1): CouplerCalibration(0.01), (1, 2): CouplerCalibration(0.02)})
+    ...     coupler_calibration={(0, 1): CouplerCalibration(0.01),
+    ...                          (1, 2): CouplerCalibration(0.02)})
     >>> patch = Patch("t", ("a", "b"), dict.fromkeys("ab", "data"),
     ...               {"round": Circuit("round", (Operation("cx", ("a", "b"), "2q"),))})
     >>> r = rank_placements(dev, patch, [Placement((1, 2)), Placement((0, 1))])

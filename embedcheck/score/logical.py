@@ -1,7 +1,7 @@
 """Score placements by what a QEC experiment measures: logical errors among kept shots.
 
-For each swap-free placement, `noise.noisy_circuit` (the one stim writer) gives a stim circuit with the
-chip's noise; stim's detector error model (DEM) lists independent fault mechanisms,
+For each swap-free placement, `noise.noisy_circuit` (the one stim writer) gives a stim
+circuit with the chip's noise; stim's detector error model (DEM) lists independent fault mechanisms,
 each with its probability, the detectors it flips and whether it flips the logical
 observable (Gidney, "Stim: a fast stabilizer circuit simulator", Quantum 5, 497 (2021)).
 
@@ -78,7 +78,8 @@ class MonteCarlo:
 
     def interval(self, which: str = "post_selected", z: float = 1.96) -> tuple[float, float]:
         """Wilson score interval for 'raw', 'post_selected', 'kept' or 'decoded'."""
-        k, n = {"raw": (self.raw_errors, self.shots), "post_selected": (self.kept_errors, self.kept),
+        k, n = {"raw": (self.raw_errors, self.shots),
+                "post_selected": (self.kept_errors, self.kept),
                 "kept": (self.kept, self.shots),
                 "decoded": (self.decoded_errors or 0, self.shots)}[which]
         return wilson(k, n, z)
@@ -172,7 +173,8 @@ def undetected_zero_everywhere(patch: Patch, noise: float = 1e-3) -> bool:
 
 
 def fast_scores(device: Device, patch: Patch, placements: Sequence[Placement], *,
-                processes: int = 1, progress: Callable[[int], None] | None = None) -> list[FastScore]:
+                processes: int = 1,
+                progress: Callable[[int], None] | None = None) -> list[FastScore]:
     """`fast_score` for every placement, split over `processes` worker processes."""
     require_detectors(patch)
     if processes > 1 and len(placements) > 64:
@@ -180,7 +182,8 @@ def fast_scores(device: Device, patch: Patch, placements: Sequence[Placement], *
         chunks = [list(placements[i::processes]) for i in range(processes)]
         with ProcessPoolExecutor(processes) as pool:
             parts = list(pool.map(_score_chunk, [(device, patch, c) for c in chunks]))
-        merged: list[FastScore] = [FastScore(undetected=0.0, kept=0.0, mechanisms=0)] * len(placements)
+        empty = FastScore(undetected=0.0, kept=0.0, mechanisms=0)
+        merged: list[FastScore] = [empty] * len(placements)
         for i, part in enumerate(parts):
             merged[i::processes] = part
         return merged

@@ -32,7 +32,8 @@ placements where every circuit is swap-free.
     >>> from embedcheck.model.patch import Circuit, Operation, Patch
     >>> ops = (Operation("h", ("a",), "1q"), Operation("cx", ("a", "b"), "2q"),
     ...        Operation("measure", ("b",), "measure"))
-    >>> patch = Patch("bell", ("a", "b"), dict.fromkeys("ab", "data"), {"round": Circuit("round", ops)})
+    >>> patch = Patch("bell", ("a", "b"), dict.fromkeys("ab", "data"),
+    ...               {"round": Circuit("round", ops)})
     >>> print(stim_experiment(patch))
     H 0
     CX 0 1

@@ -29,7 +29,8 @@ passes every placement, the audit and the noisy circuit pass one.
     ...                          (1, 2): CouplerCalibration(duration_ns=300)})
     >>> ops = (Operation("h", ("a",), "1q"), Operation("cx", ("a", "b"), "2q"),
     ...        Operation("cx", ("b", "c"), "2q"))
-    >>> patch = Patch("p", ("a", "b", "c"), dict.fromkeys("abc", "data"), {"round": Circuit("round", ops)})
+    >>> patch = Patch("p", ("a", "b", "c"), dict.fromkeys("abc", "data"),
+    ...               {"round": Circuit("round", ops)})
     >>> s = schedule_circuit(dev, patch, "round", Placement((0, 1, 2)))
     >>> s.depth, s.duration_ns, s.idle_ns["c"]
     (3, 650.0, 0.0)

@@ -267,7 +267,7 @@ def _heavy_hex(d: int, rounds: int, chip_fit: bool = False) -> str:
         if en:
             s = sn[len(bulk) + k]
             rnd += [f"cx {q(s)}, {q(en[2 * k])};", f"cx {q(s)}, {q(en[2 * k + 1])};"]
-    for k, (r, c) in enumerate(bulk):
+    for r, c in bulk:
         for col in (c, c + 1):
             rnd += [f"cx {q(fn[(r, col)])}, {q(dn[(r, col)])};",
                     f"cx {q(fn[(r, col)])}, {q(dn[(r + 1, col)])};"]
@@ -287,8 +287,9 @@ def _heavy_hex(d: int, rounds: int, chip_fit: bool = False) -> str:
     rnd += [f"measure {q(e)} -> ge[{k}];" for k, e in enumerate(en)]
     # Z gauges: Z(D(r, c)) Z(D(r + 1, c)) on the flag between them.
     rnd += [f"reset {q(fn[f])};" for f in flags]
-    for k, (r, c) in enumerate(flags):
-        rnd += [f"cx {q(dn[(r, c)])}, {q(fn[(r, c)])};", f"cx {q(dn[(r + 1, c)])}, {q(fn[(r, c)])};"]
+    for r, c in flags:
+        rnd += [f"cx {q(dn[(r, c)])}, {q(fn[(r, c)])};",
+                f"cx {q(dn[(r + 1, c)])}, {q(fn[(r, c)])};"]
     rnd += [f"measure {q(fn[f])} -> gz[{k}];" for k, f in enumerate(flags)]
     readout = _header([("d", len(data))], [("m", len(data))])
     readout += [f"measure d[{k}] -> m[{k}];" for k in range(len(data))]
@@ -311,14 +312,15 @@ def _heavy_hex(d: int, rounds: int, chip_fit: bool = False) -> str:
         for f in used:
             detectors.append((f"flag{flag_index[f]}_r{t}", [f"round[{t}]:gf[{flag_index[f]}]"]))
         detectors += [(f"eflag{k}_r{t}", [f"round[{t}]:ge[{k}]"]) for k in range(len(en))]
-        for k, (where, cols) in enumerate(zstabs):
-            refs = lambda tt: [f"round[{tt}]:gz[{flag_index[x]}]" for x in cols]  # noqa: E731
+        for k, (_, cols) in enumerate(zstabs):
+            refs = lambda tt, cols=cols: [f"round[{tt}]:gz[{flag_index[x]}]"  # noqa: E731
+                                          for x in cols]
             detectors.append((f"Z{k}_r{t}", refs(t) if t == 0 else refs(t - 1) + refs(t)))
         if t:
             for c, gauges in xstabs:
                 detectors.append((f"X{c}_r{t}", [f"round[{tt}]:gx[{g}]" for tt in (t - 1, t)
                                                  for g in gauges]))
-    for k, (where, cols) in enumerate(zstabs):
+    for k, (_, cols) in enumerate(zstabs):
         refs = [f"round[{rounds - 1}]:gz[{flag_index[x]}]" for x in cols]
         for x in cols:
             refs += [f"readout:m[{dn[(x[0], x[1])][1:]}]",
