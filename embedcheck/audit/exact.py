@@ -84,7 +84,7 @@ class AuditReport:
     def swap_free(self) -> bool:
         return all(c.swap_free for c in self.circuits)
 
-    def experiment_totals(self) -> dict[str, int]:
+    def experiment_totals(self) -> dict[str, float]:
         """Two-qubit gates and off-coupler gates over the experiment (rounds counted)."""
         run = [c for c in self.circuits if c.times_run]
         return {"two_qubit_gates": sum(c.two_qubit_gates * c.times_run for c in run),

@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import argparse
 import re
+from pathlib import Path
 from typing import Any
 
 from ..errors import InputError
@@ -97,7 +98,7 @@ def run(args: argparse.Namespace) -> int:
             progress.done()           # type: ignore[attr-defined]
     payload = find_dict(result)
     vetting, logical = result.vetting, result.logical
-    pictures: dict[str, bytes] = {}
+    pictures: dict[str | Path, str | bytes] = {}
     if args.draw and vetting.ranking.placements:
         best = logical.placements[0] if logical is not None else vetting.ranking.placements[0]
         pictures[args.draw] = picture_bytes_for(args.draw, draw_placement(

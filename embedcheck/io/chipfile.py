@@ -70,6 +70,7 @@ def devices_from_document(doc: Document) -> list[Device]:
     base_dead = _dead(doc, (), known, couplers)
     if "calibration" in data and "snapshots" in data:
         raise doc.error(("snapshots",), "give either 'calibration' or 'snapshots', not both")
+    paths: list[tuple[str | int, ...]]
     if "snapshots" in data:
         paths = [("snapshots", i) for i in range(len(data["snapshots"]))]
     else:
@@ -161,7 +162,7 @@ def _graph(doc: Document):
 
 
 def _directions(doc, known, couplers) -> dict:
-    directed = {}
+    directed: dict[tuple[int, int], tuple[int, int]] = {}
     present = set(couplers)
     for i, (a, b) in enumerate(doc.data.get("directed_couplers", [])):
         path = ("directed_couplers", i)

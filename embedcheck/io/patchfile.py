@@ -15,7 +15,7 @@ from __future__ import annotations
 import os
 import re
 from pathlib import Path
-from typing import Mapping
+from typing import Any, Mapping
 
 from ..errors import InputError, did_you_mean
 from ..model.codes import family_yaml
@@ -213,12 +213,12 @@ def _trim_barriers(circuit: Circuit, qubits) -> Circuit:
     return Circuit(circuit.name, tuple(ops), circuit.qasm, circuit.file)
 
 
-def _replace(patch: Patch, **changes) -> Patch:
-    fields = dict(name=patch.name, qubits=patch.qubits, roles=dict(patch.roles),
-                  circuits=dict(patch.circuits), rounds=patch.rounds,
-                  description=patch.description, source=patch.source,
-                  detectors=patch.detectors, observable=patch.observable,
-                  roles_inferred=patch.roles_inferred, constraints=patch.constraints)
+def _replace(patch: Patch, **changes: Any) -> Patch:
+    fields: dict[str, Any] = dict(
+        name=patch.name, qubits=patch.qubits, roles=dict(patch.roles),
+        circuits=dict(patch.circuits), rounds=patch.rounds, description=patch.description,
+        source=patch.source, detectors=patch.detectors, observable=patch.observable,
+        roles_inferred=patch.roles_inferred, constraints=patch.constraints)
     fields.update(changes)
     return Patch(**fields)
 
@@ -248,12 +248,12 @@ def _circuit(doc: Document, name: str, spec: dict) -> Circuit:
         text, file = spec["qasm"], doc.file
         block = path + ("qasm", "<text>") in doc.lines
         first = doc.lines.get(path + ("qasm", "<text>"), doc.line(path + ("qasm",)))
-        ops = read_qasm(text, file=file, first_line=first)
+        parsed = read_qasm(text, file=file, first_line=first or 1)
         if not block:
             # A quoted or plain scalar folds its lines: only the key's line is known.
             from dataclasses import replace
-            ops = [replace(op, line=first) for op in ops]
-        return Circuit(name, tuple(ops), text, file)
+            parsed = [replace(op, line=first) for op in parsed]
+        return Circuit(name, tuple(parsed), text, file)
     key = given[0]
     target = _circuit_file(doc, path + (key,), spec[key])
     try:
@@ -297,6 +297,7 @@ _REF = re.compile(r"^(?P<circuit>[A-Za-z_][A-Za-z0-9_-]*)(\[(?P<rep>[0-9]+)\])?"
 def _resolve(doc: Document, patch: Patch, path, ref: str) -> int:
     """A measurement reference -> its index in the experiment's measurement record."""
     m = _REF.match(ref)
+    assert m is not None                  # the schema's pattern already matched it
     circuit, rep = m.group("circuit"), int(m.group("rep") or 0)
     times = dict(patch.experiment())
     if circuit not in patch.circuits:

@@ -14,8 +14,8 @@ from .yamlfile import Document, read_yaml
 
 __all__ = ["PatchEntry", "Project", "Rules", "load_project"]
 
-DEFAULT_RULES = {"max_off_coupler_gates": 0, "min_placements": 1, "score_floor": None,
-                 "required_circuits": []}
+DEFAULT_RULES: dict[str, object] = {
+    "max_off_coupler_gates": 0, "min_placements": 1, "score_floor": None, "required_circuits": []}
 
 
 @dataclass(frozen=True)

@@ -29,6 +29,10 @@ from ..model.patch import Operation
 
 __all__ = ["declared_qubits", "qasm_version", "read_qasm"]
 
+# Classical declarations (IODeclaration exists in newer openqasm3 versions only).
+_DECLARATIONS: tuple[type[ast.ClassicalDeclaration], ...] = tuple(
+    t for t in (ast.ClassicalDeclaration, getattr(ast, "IODeclaration", None)) if t is not None)
+
 _ONE_QUBIT = {"id", "x", "y", "z", "h", "s", "sdg", "t", "tdg", "sx", "sxdg", "rx", "ry",
               "rz", "p", "u", "u1", "u2", "u3", "U", "r", "phase", "gphase"}
 _KEEP = {"cx", "CX"}   # already one CNOT; everything else goes through qiskit
@@ -119,7 +123,7 @@ class _Walker:
                                           f"give a qubit named '{n}'; rename one")
                 taken[n] = stmt.qubit.name
             self.registers[stmt.qubit.name] = size
-        elif isinstance(stmt, (ast.ClassicalDeclaration, getattr(ast, "IODeclaration", ()))):
+        elif isinstance(stmt, _DECLARATIONS):
             name = stmt.identifier.name
             if self.call_stmt is not None:          # a local inside an inlined subroutine
                 return
@@ -164,8 +168,8 @@ class _Walker:
             for q in self.operand(stmt.qubits, stmt):
                 self.emit(stmt, "reset", (q,), "reset", conditional, "reset")
         elif isinstance(stmt, ast.QuantumBarrier):
-            qubits = tuple(q for operand in stmt.qubits for q in self.operand(operand, stmt))
-            self.emit(stmt, "barrier", qubits, "barrier", conditional, "barrier")
+            held = tuple(q for operand in stmt.qubits for q in self.operand(operand, stmt))
+            self.emit(stmt, "barrier", held, "barrier", conditional, "barrier")
         elif isinstance(stmt, ast.BranchingStatement):
             self.block(stmt.if_block, True)
             self.block(stmt.else_block, True)
@@ -191,9 +195,10 @@ class _Walker:
                 raise self.fail(stmt, f"gate '{name}' is not defined: include the standard library "
                                       "(include \"qelib1.inc\"; for OpenQASM 2, include "
                                       "\"stdgates.inc\"; for OpenQASM 3)")
-            want = _standard_parameters(name)
-            if want is None:
+            known = _standard_parameters(name)
+            if known is None:
                 raise self.fail(stmt, f"unknown gate '{name}'")
+            want = known
         if len(stmt.arguments) != want:
             raise self.fail(stmt, f"gate '{name}' takes {want} parameter(s), got "
                                   f"{len(stmt.arguments)}")
@@ -274,7 +279,7 @@ class _Walker:
             bind = dict(zip(formal, qubits, strict=False))
             for inner in definition.body:
                 if isinstance(inner, ast.QuantumGate):
-                    names = [[bind[q.name]] for q in inner.qubits]
+                    names = [[bind[str(q.name)]] for q in inner.qubits]
                     self.gate(stmt, inner.name.name, names, conditional, written, depth + 1)
             return
         if name in _ONE_QUBIT or name in _KEEP:
@@ -296,7 +301,8 @@ class _Walker:
         stmt = self.call_stmt or stmt          # inside a subroutine: the line of the call
         start = stmt.span.start_line if stmt.span else None
         end = stmt.span.end_line if stmt.span else start
-        text = " ".join(self.lines[i - 1].strip() for i in range(start, end + 1)) if start else ""
+        text = " ".join(self.lines[i - 1].strip()
+                        for i in range(start, (end or start) + 1)) if start else ""
         self.ops.append(Operation(name, qubits, kind, line=start + self.offset if start else None,
                                   text=text, file=self.file, written=written,
                                   conditional=conditional, clbit=clbit))

@@ -63,8 +63,8 @@ def device_target(device: Device) -> Any:
     target = Target(num_qubits=n, qubit_properties=qubit_props)
     two = {}
     for a, b in device.live_couplers:
-        c = device.coupler_calibration.get((a, b))
-        p = (c.two_qubit_error, c.duration_ns) if c else (None, None)
+        cc = device.coupler_calibration.get((a, b))
+        p = (cc.two_qubit_error, cc.duration_ns) if cc else (None, None)
         for e in ([device.directed[(a, b)]] if (a, b) in device.directed else [(a, b), (b, a)]):
             two[e] = props(*p)
     target.add_instruction(_native_gate(device.native_two_qubit_gate), two)

@@ -23,6 +23,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 from ..errors import InputError
 from ..model.patch import Operation
@@ -110,7 +111,8 @@ def _lines(text: str, file):
             raise InputError(f"stim: {str(exc).strip().splitlines()[0]}", file=file,
                              line=number) from None
 
-    out, block = [], None
+    out: list[Any] = []
+    block: tuple[int, int, list[Any]] | None = None
     for number, raw in enumerate(text.splitlines(), 1):
         line = raw.split("#", 1)[0].strip()
         if not line:

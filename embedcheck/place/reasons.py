@@ -73,12 +73,12 @@ def necessary_conditions(device: Device, patch: Patch, circuits: Sequence[str],
         chip_degree[b] = chip_degree.get(b, 0) + 1
     top = max(chip_degree.values(), default=0)
     for k in sorted(set(degree.values()), reverse=True):
-        need = [i for i in sorted(degree) if degree[i] >= k]
+        busy = [i for i in sorted(degree) if degree[i] >= k]
         have = sum(1 for d in chip_degree.values() if d >= k)
-        if have < len(need):
-            named = ", ".join(f"{patch.qubits[i]} ({patch.roles[patch.qubits[i]]})" for i in need)
+        if have < len(busy):
+            named = ", ".join(f"{patch.qubits[i]} ({patch.roles[patch.qubits[i]]})" for i in busy)
             reasons.append(
-                f"{len(need)} patch qubit(s) interact with {k} or more others ({named}), but the "
+                f"{len(busy)} patch qubit(s) interact with {k} or more others ({named}), but the "
                 f"chip has only {have} live qubit(s) with {k} or more usable couplers (largest "
                 f"live degree {top})")
             break
@@ -157,13 +157,14 @@ def constraint_reasons(device: Device, patch: Patch, names: Sequence[str], rules
     trials += [(f"coupler: {b}", replace(rules, couplers=tuple(x for x in rules.couplers
                                                                 if x is not b)))
                for b in rules.couplers]
-    trials += [(label, replace(rules, **{key: value})) for label, key, value, on in (
+    dropped: tuple[tuple[str, str, Any, Any], ...] = (
         ("the excluded qubits", "exclude_qubits", frozenset(), rules.exclude_qubits),
         ("the excluded couplers", "exclude_couplers", frozenset(), rules.exclude_couplers),
         ("the region", "region", None, rules.region is not None),
         ("the region box", "region_box", None, rules.region_box is not None),
         ("the native-direction rule", "forbid_direction_fixes", False,
-         rules.forbid_direction_fixes)) if on]
+         rules.forbid_direction_fixes))
+    trials += [(label, replace(rules, **{key: value})) for label, key, value, on in dropped if on]
     out = []
     for label, relaxed in trials:
         found = search(device, patch, circuits=names, limit=1, constraints=relaxed,

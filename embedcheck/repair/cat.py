@@ -39,14 +39,18 @@ def cat_circuit(patch: Patch, state: Any, support: tuple[str, ...],
     steiner = _prune(tree, set(targets))
     if steiner is None:
         raise NotCat
-    best = None
+    best: tuple[tuple[int, int], Ops] | None = None
     for root in sorted(steiner):            # a helper may be the best root
         if root not in targets and len(steiner) > len(targets) and not steiner[root]:
             continue
-        ops = _broadcast(steiner, root, set(targets))
-        two, depth = two_qubit_count_depth(ops)
+        fan_out = _broadcast(steiner, root, set(targets))
+        if fan_out is None:                 # its helpers could not all return to |0>
+            continue
+        two, depth = two_qubit_count_depth(fan_out)
         if best is None or (depth, two) < best[0]:
-            best = ((depth, two), ops)
+            best = ((depth, two), fan_out)
+    if best is None:
+        raise NotCat
     ops = best[1]
     correction = pauli_correction(patch, state, ops)
     if correction is None:

@@ -25,7 +25,7 @@ from ..model.patch import Circuit, Detector, Patch
 from ..score.noise import stim_experiment
 from ..score.simulate import check_detectors
 from .result import Repair
-from .state import target_state, to_qasm, with_circuit
+from .state import Ops, target_state, to_qasm, with_circuit
 
 __all__ = ["project_preparation"]
 
@@ -48,7 +48,7 @@ def project_preparation(patch: Patch, *, circuit: str = "prep", runs: int = 16,
     state, support, _ = target_state(patch, circuit)
     target = _support_generators(patch, circuit, support)
     for basis in ("z", "x"):
-        ops = [("h", (q,)) for q in support] if basis == "x" else []
+        ops: Ops = [("h", (q,)) for q in support] if basis == "x" else []
         text = to_qasm(patch, ops)
         trial = with_circuit(patch, circuit, Circuit(circuit, tuple(read_qasm(text)), text, None))
         one_round = _replace_rounds(trial, 1)

@@ -190,13 +190,13 @@ def calibration_summary(device: Device) -> Json:
               "single_qubit_duration_ns", "measurement_duration_ns")
     live_q = device.live_qubits
     for f in fields:
-        vals = {q: getattr(device.qubit_calibration[q], f) for q in live_q
-                if q in device.qubit_calibration}
+        vals: dict[Any, float | None] = {q: getattr(device.qubit_calibration[q], f)
+                                         for q in live_q if q in device.qubit_calibration}
         summary = _figure_summary(vals)
         if summary:
             given = {k: v for k, v in vals.items() if v is not None}
             pick = min if f in _WORST_IS_LOW else max
-            where = pick(given, key=given.get)
+            where = pick(given, key=given.__getitem__)
             summary.update(worst=float(given[where]), worst_at=f"qubit {where}")
             out[f] = summary
     for f in ("two_qubit_error", "duration_ns"):
@@ -205,8 +205,8 @@ def calibration_summary(device: Device) -> Json:
         summary = _figure_summary(vals)
         if summary:
             given = {k: v for k, v in vals.items() if v is not None}
-            where = max(given, key=given.get)
-            summary.update(worst=float(given[where]), worst_at=f"coupler {list(where)}")
+            worst = max(given, key=given.__getitem__)
+            summary.update(worst=float(given[worst]), worst_at=f"coupler {list(worst)}")
             out["two_qubit_duration_ns" if f == "duration_ns" else f] = summary
     return out
 

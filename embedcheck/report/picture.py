@@ -13,6 +13,7 @@ from pathlib import Path
 
 import numpy as np
 
+from ..errors import InputError
 from ..model.device import Device
 from ..model.patch import Patch
 from ..model.placement import Placement
@@ -74,9 +75,8 @@ def _draw_couplers(ax, device: Device, pos, highlight=frozenset(), plain=False):
     import matplotlib as mpl
     from matplotlib.collections import LineCollection
 
-    errors = [device.coupler_calibration[c].two_qubit_error for c in device.live_couplers
-              if c in device.coupler_calibration
-              and device.coupler_calibration[c].two_qubit_error is not None]
+    errors = [e for c in device.live_couplers if c in device.coupler_calibration
+              and (e := device.coupler_calibration[c].two_qubit_error) is not None]
     lo, hi = (min(errors), max(errors)) if errors else (0.0, 1.0)
     norm = mpl.colors.Normalize(vmin=lo, vmax=hi if hi > lo else lo + 1e-9)
     cmap = mpl.colormaps["cividis_r"]
@@ -103,9 +103,11 @@ def draw_placement(device: Device, path: str | Path | None = None, *, patch: Pat
     figure."""
     plt, fig, ax = _figure(device)
     pos = _positions(device)
-    where = placement.as_dict(patch) if placement is not None else {}
+    if placement is not None and patch is None:
+        raise InputError("a placement is drawn with its patch: give patch=")
+    where = placement.as_dict(patch) if placement is not None and patch is not None else {}
     edges = set()
-    if placement is not None:
+    if placement is not None and patch is not None:
         for (a, b) in patch.interaction_counts():
             p, q = where[patch.qubits[a]], where[patch.qubits[b]]
             edges.add((min(p, q), max(p, q)))
@@ -122,7 +124,7 @@ def draw_placement(device: Device, path: str | Path | None = None, *, patch: Pat
         ax.plot([], [], color=DEAD, linestyle="dotted", label="dead coupler")
     for role, (marker, colour) in ROLE_STYLE.items():
         qs = [where[q] for q in patch.qubits_with_role(role)] if patch and where else []
-        if qs:
+        if qs and patch is not None:
             ax.scatter([pos[q][0] for q in qs], [pos[q][1] for q in qs], s=190, marker=marker,
                        c=colour, edgecolors="black", linewidths=1.0, zorder=3, label=role, gid=role)
             if len(qs) <= 60:                # names inside the markers: they never overlap

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import os
 from pathlib import Path
+from typing import Any
 
 from ..version import __version__
 
@@ -38,8 +39,8 @@ def _uri(file: str | None) -> str:
         return path.as_uri()
 
 
-def _location(file, line=None) -> dict:
-    loc = {"physicalLocation": {"artifactLocation": {"uri": _uri(file)}}}
+def _location(file: str | None, line: int | None = None) -> dict[str, Any]:
+    loc: dict[str, Any] = {"physicalLocation": {"artifactLocation": {"uri": _uri(file)}}}
     if line:
         loc["physicalLocation"]["region"] = {"startLine": int(line)}
     return loc

@@ -185,13 +185,13 @@ def rank_across_snapshots(snapshots: Sequence[Device], patch: Patch,
                           top_k: int = 5) -> SnapshotRanking:
     """Rank by the mean, the worst, or a quantile ('q0.25') of the per-snapshot log score."""
     grid = placement_grid(placements, patch.num_qubits)
-    logs, unscored = [], []
+    per_device, off_per_device = [], []
     for device in snapshots:
         terms, off = scores(device, patch, grid)
-        logs.append(sum(terms.values()))
-        unscored.append(off)
-    logs = np.array(logs).reshape(len(snapshots), len(placements))
-    unscored = np.array(unscored).reshape(len(snapshots), len(placements))
+        per_device.append(sum(terms.values()))
+        off_per_device.append(off)
+    logs = np.array(per_device).reshape(len(snapshots), len(placements))
+    unscored = np.array(off_per_device).reshape(len(snapshots), len(placements))
     # A placement that needs more off-coupler gates in some snapshot than it does at its
     # best (a coupler or qubit dead that day), or sits on a qubit dead that day, cannot
     # run as planned then: it scores 0 (log -inf) in that snapshot.
@@ -248,10 +248,10 @@ def sensitivity(device: Device, patch: Patch, placement: Placement,
     out = []
     for (a, b), n in pairs.items():
         p, q = sorted((where[a], where[b]))
-        cal = device.coupler_calibration.get((p, q))
-        if not device.is_coupled(p, q) or cal is None or cal.two_qubit_error is None:
+        coupler = device.coupler_calibration.get((p, q))
+        if not device.is_coupled(p, q) or coupler is None or coupler.two_qubit_error is None:
             continue
-        e = cal.two_qubit_error
+        e = coupler.two_qubit_error
         out.append(Sensitivity(item=f"coupler {p}-{q}", figure="two_qubit_error", value=e,
                                log_contribution=n * np.log1p(-e), derivative=-n / (1 - e)))
     grid = placement_grid([placement], patch.num_qubits)

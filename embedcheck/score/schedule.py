@@ -40,6 +40,7 @@ from __future__ import annotations
 from collections.abc import Mapping
 from dataclasses import dataclass
 from types import MappingProxyType
+from typing import Any
 
 import numpy as np
 
@@ -160,7 +161,7 @@ def _missing(patch: Patch, circuit: str, rows: np.ndarray, cal: CalibrationArray
     count = rows.shape[1]
     out: dict[str, np.ndarray] = {}
 
-    def mark(name: str, on: np.ndarray) -> None:
+    def mark(name: str, on: Any) -> None:
         out[name] = out.get(name, np.zeros(count, dtype=bool)) | on
     for kind, name, given in (("1q", "single_qubit_duration_ns", cal.single_qubit_ns_given),
                               ("measure", "measurement_duration_ns", cal.measurement_ns_given),
@@ -170,10 +171,12 @@ def _missing(patch: Patch, circuit: str, rows: np.ndarray, cal: CalibrationArray
             mark(name, (~given[rows[qubits]]).any(axis=0))
     if where is not None and pairs:
         coupled = where >= 0
-        given = np.where(coupled, cal.coupler_ns_given[np.maximum(where, 0)]
-                         if len(cal.coupler_ns_given) else False, False)
+        given = np.zeros(where.shape, dtype=bool)
+        if len(cal.coupler_ns_given):
+            given = coupled & cal.coupler_ns_given[np.maximum(where, 0)]
         median = cal.median_two_qubit_ns > 0
-        mark(_TWO_QUBIT_NOTE, ((coupled & ~given) | (~coupled & (not median))).any(axis=0))
+        unknown = (coupled & ~given) | (~coupled & (not median))
+        mark(_TWO_QUBIT_NOTE, unknown.any(axis=0))
         if median:
             mark(_MEDIAN_NOTE, (~coupled).any(axis=0))
     return out

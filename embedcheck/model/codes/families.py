@@ -182,8 +182,8 @@ def surface_layout(d: int):
             if edge_y and kind != "X" or edge_x and kind != "Z":
                 continue
             centre = (2 * i, 2 * j)
-            touched = [(centre[0] + dx, centre[1] + dy) for dx, dy in orders[kind]]
-            touched = [p if p in present else None for p in touched]
+            around = [(centre[0] + dx, centre[1] + dy) for dx, dy in orders[kind]]
+            touched = [p if p in present else None for p in around]
             checks.append((kind, centre, touched))
     return data, checks
 
@@ -321,11 +321,11 @@ def _heavy_hex(d: int, rounds: int, chip_fit: bool = False) -> str:
                 detectors.append((f"X{c}_r{t}", [f"round[{tt}]:gx[{g}]" for tt in (t - 1, t)
                                                  for g in gauges]))
     for k, (_, cols) in enumerate(zstabs):
-        refs = [f"round[{rounds - 1}]:gz[{flag_index[x]}]" for x in cols]
+        final = [f"round[{rounds - 1}]:gz[{flag_index[x]}]" for x in cols]
         for x in cols:
-            refs += [f"readout:m[{dn[(x[0], x[1])][1:]}]",
-                     f"readout:m[{dn[(x[0] + 1, x[1])][1:]}]"]
-        detectors.append((f"Z{k}_final", refs))
+            final += [f"readout:m[{dn[(x[0], x[1])][1:]}]",
+                      f"readout:m[{dn[(x[0] + 1, x[1])][1:]}]"]
+        detectors.append((f"Z{k}_final", final))
     top = [f"readout:m[{dn[(0, c)][1:]}]" for c in range(d)]
     label = "12-cycle edge variant" if chip_fit else "Phys. Rev. X 10, 011022 (2020) layout"
     return _patch(f"heavy-hex-code{'-chipfit' if chip_fit else ''}-d{d}",
