@@ -10,6 +10,7 @@ ROOT = Path(__file__).resolve().parent.parent
 DEMO_CHIP = ROOT / "devices" / "demo_heavy_hex.yaml"
 DEMO_PATCH = ROOT / "samples" / "flagged_weight4.yaml"
 FIXED_PATCH = ROOT / "samples" / "flagged_weight4_coupler_prep.yaml"
+TEST_DATA = ROOT / "tests" / "data"
 
 
 def patch_from_edges(edges, name="graph", role="data"):

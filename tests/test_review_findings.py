@@ -1,7 +1,6 @@
 """Regression tests for defects a code review found (each test names the defect)."""
 import json
 import textwrap
-from pathlib import Path
 
 import pytest
 
@@ -15,8 +14,9 @@ from embedcheck.model.lattices import line
 from embedcheck.model.patch import Circuit, Patch
 from embedcheck.place.search import find_placements
 from embedcheck.score.simulate import check_detectors
+from helpers import TEST_DATA
 
-DATA = Path(__file__).parent / "data"
+DATA = TEST_DATA
 
 
 def test_the_listed_placement_is_the_best_member_of_its_symmetry_orbit():

@@ -79,6 +79,7 @@ def parse_yaml(text: str, file: str, schema_name: str) -> Document:
                          line=mark.line + 1 if mark else None) from None
     if node is None:
         raise InputError("file is empty", file=file)
+    _refuse_alias_bombs(node, file)
     lines: dict = {}
     budget = [_MAX_NODES]
     data = _to_python(node, (), lines, file, budget)
@@ -112,6 +113,52 @@ def _check_kind(doc: Document, schema_name: str) -> None:
 _MAX_NODES = 1_000_000      # values after expanding aliases; refuses "billion laughs" files
 _PLAIN_TAGS = {f"tag:yaml.org,2002:{t}" for t in
                ("map", "seq", "str", "int", "float", "bool", "null", "timestamp")}
+
+
+def _children(node: Any) -> list[Any]:
+    """The value nodes `_to_python` visits below `node` (mapping values, sequence items)."""
+    if isinstance(node, yaml.MappingNode):
+        return [value for _, value in node.value]
+    if isinstance(node, yaml.SequenceNode):
+        return list(node.value)
+    return []
+
+
+def _refuse_alias_bombs(root: Any, file: str) -> None:
+    """Refuse, before building anything, a file that expands past `_MAX_NODES` values.
+
+    An alias repeats a node, so the expanded size is counted once per distinct node
+    (memoised); the error names the line of the value at which the count passes the
+    limit, in the order `_to_python` visits values. Time: one pass over the distinct
+    nodes, however many values the aliases would make.
+    """
+    sizes: dict[int, int] = {}
+    order: list[Any] = []                  # distinct nodes, parents before children
+    stack, seen = [root], set()
+    while stack:
+        node = stack.pop()
+        if id(node) in seen:
+            continue
+        seen.add(id(node))
+        order.append(node)
+        stack.extend(_children(node))
+    for node in reversed(order):           # children before parents (the graph is acyclic)
+        sizes[id(node)] = 1 + sum(sizes.get(id(c), 0) for c in _children(node))
+    if sizes[id(root)] <= _MAX_NODES:
+        return
+    node, left = root, _MAX_NODES
+    while True:                            # walk down to the value that passes the limit
+        left -= 1
+        if left < 0:
+            break
+        for child in _children(node):
+            if sizes[id(child)] <= left:
+                left -= sizes[id(child)]
+                continue
+            node = child
+            break
+    raise InputError(f"the file expands to more than {_MAX_NODES} values (through YAML "
+                     "aliases?); refusing to read it", file=file, line=node.start_mark.line + 1)
 
 
 def _to_python(node, path, lines, file, budget):

@@ -60,7 +60,14 @@ from .css import NotCSS, css_circuit
 from .proof import prove
 from .result import Repair
 from .routed import routed_circuit
-from .state import Ops, placement_edges, target_state, to_qasm, two_qubit_count_depth, with_circuit
+from .state import (
+    Ops,
+    placement_edges,
+    rewrite_circuit,
+    target_state,
+    two_qubit_count_depth,
+    with_circuit,
+)
 
 __all__ = ["Repair", "repair_preparation", "repaired_patch"]
 
@@ -132,9 +139,9 @@ def repair_preparation(device: Device, patch: Patch, placement: Placement, *,
     lowered: list[str] = []
     for candidate in sorted(scored, key=lambda s: (s[0], s[1])):
         _, _, method, ops, helpers = candidate
-        text = to_qasm(patch, ops)
-        fixed = with_circuit(patch, circuit, Circuit(circuit, tuple(read_qasm(text)), text,
-                                                      None))
+        rewritten = rewrite_circuit(patch, circuit, ops)
+        text = rewritten.qasm or ""
+        fixed = with_circuit(patch, circuit, rewritten)
         distance = _safe(fault_distance, fixed) if check_distance else None
         old = before.get("fault_distance")
         if check_distance and distance is not None and old is not None and distance < old:

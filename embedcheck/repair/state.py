@@ -20,13 +20,14 @@ import numpy as np
 
 from ..audit.qiskit_views import qiskit_circuit
 from ..errors import InputError
+from ..io.qasm import read_qasm
 from ..model import gf2
 from ..model.device import Device
-from ..model.patch import Circuit, Patch
+from ..model.patch import Circuit, Operation, Patch
 from ..model.placement import Placement
 
-__all__ = ["Ops", "ops_circuit", "pauli_correction", "placement_edges", "target_state",
-           "to_qasm", "two_qubit_count_depth", "with_circuit"]
+__all__ = ["Ops", "ops_circuit", "pauli_correction", "placement_edges", "rewrite_circuit",
+           "target_state", "to_qasm", "two_qubit_count_depth", "with_circuit"]
 
 Ops = list[tuple[str, tuple[str, ...]]]      # (gate, patch qubits) in order
 
@@ -156,6 +157,35 @@ def to_qasm(patch: Patch, ops: Ops) -> str:
     for name, qubits in ops:
         lines.append(f"{name} {', '.join(ref(q) for q in qubits)};")
     return "\n".join(lines) + "\n"
+
+
+def rewrite_circuit(patch: Patch, name: str, ops: Ops) -> Circuit:
+    """The circuit `name` made of `ops`, with its OpenQASM 2 text (`to_qasm`) and the
+    operations our reader gives for that text (resets of every patch qubit, then `ops`,
+    each with its line), built directly when every patch qubit's name round-trips
+    through a register and index (d0 <-> d[0]), else read back with `read_qasm`."""
+    text = to_qasm(patch, ops)
+    if not all(_round_trips(q) for q in patch.qubits) or \
+            not all(gate in _DIRECT_GATES for gate, _ in ops):
+        return Circuit(name, tuple(read_qasm(text)), text, None)
+    lines = text.splitlines()
+    first = len(lines) - len(patch.qubits) - len(ops) + 1      # line of the first reset
+    made = [Operation("reset", (q,), "reset", line=first + k, text=lines[first + k - 1],
+                      written="reset") for k, q in enumerate(patch.qubits)]
+    start = first + len(patch.qubits)
+    made += [Operation(gate, tuple(qubits), "2q" if len(qubits) == 2 else "1q", line=start + k,
+                       text=lines[start + k - 1], written=gate)
+             for k, (gate, qubits) in enumerate(ops)]
+    return Circuit(name, tuple(made), text, None)
+
+
+# Gates a rewrite uses that our reader keeps as they are (one CNOT, or one 1q gate).
+_DIRECT_GATES = frozenset({"cx", "h", "s", "sdg", "x", "y", "z", "sx", "sxdg", "id"})
+
+
+def _round_trips(q: str) -> bool:
+    m = re.fullmatch(r"(.*?)(\d+)", q)
+    return bool(m and m.group(1) and str(int(m.group(2))) == m.group(2))
 
 
 def with_circuit(patch: Patch, name: str, circuit: Circuit) -> Patch:

@@ -14,7 +14,7 @@ from embedcheck.model.lattices import line
 from embedcheck.score.idle import idle_channel
 from embedcheck.score.logical import fast_score, fast_scores, monte_carlo, rank_by_logical, wilson
 from embedcheck.score.noise import noisy_circuit, single_qubit_depolarizing, two_qubit_depolarizing
-from helpers import DEMO_CHIP, FIXED_PATCH, random_calibration, syndrome_detector_patch
+from helpers import DEMO_CHIP, FIXED_PATCH, TEST_DATA, random_calibration, syndrome_detector_patch
 
 
 def idle_pauli(t_ns, t1_us, t2_us):
@@ -164,12 +164,11 @@ def test_auto_figure_falls_back_only_when_zero_on_every_placement(capsys):
     # Distance 2: one data flip is undetected, so 'undetected' ranks (even though the
     # placement on the zero-error end of the chip scores 0); distance 5: it cannot, and
     # find says so and keeps the fidelity product.
-    from pathlib import Path
 
     from embedcheck.cli import main
     from embedcheck.io.patchfile import patch_from_family as build_patch
     from embedcheck.score.logical import undetected_zero_everywhere
-    data = Path(__file__).parent / "data"
+    data = TEST_DATA
     assert not undetected_zero_everywhere(load_patch(data / "rep2_one_round.yaml"))
     assert undetected_zero_everywhere(build_patch("repetition", distance=5, rounds=3))
     assert main(["find", str(data / "line5_zero_errors.yaml"),

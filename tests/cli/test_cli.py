@@ -7,7 +7,7 @@ import textwrap
 import pytest
 
 from embedcheck.cli import main
-from helpers import DEMO_CHIP, DEMO_PATCH, FIXED_PATCH
+from helpers import DEMO_CHIP, DEMO_PATCH, FIXED_PATCH, TEST_DATA
 
 GOOD_CHIP = """\
 embedcheck_chip: 1
@@ -300,8 +300,7 @@ def test_find_gives_the_same_answer_every_run(tmp_path):
 def test_a_round_that_cannot_fit_ranks_no_layout_for_the_rest(capsys):
     # The rotated surface code's round needs degree-4 qubits, which heavy-hex lacks; its
     # CSS preparation would fit alone, but no layout is ranked for the preparation alone.
-    from pathlib import Path
-    patch = Path(__file__).parent / "data" / "surface3_css_prep.yaml"
+    patch = TEST_DATA / "surface3_css_prep.yaml"
     assert main(["find", str(DEMO_CHIP), str(patch), "--format", "json"]) == 0
     data = json.loads(capsys.readouterr().out)
     fits = {c["circuit"]: c["fits_alone"] for c in data["circuits"]}
