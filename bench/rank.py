@@ -53,7 +53,7 @@ def main():
     patch = synthetic_patch()
     n = len(lat.qubits)
     grid = np.argsort(rng.random((count, n)), axis=1)[:, :patch.num_qubits].astype(np.int64)
-    arrays = dev.calibration_arrays()
+    arrays = dev.calibration_arrays
     pairs, measures, _, _ = experiment_counts(patch)
     ab = np.array(list(pairs), dtype=np.int64)
     weight = np.array(list(pairs.values()), dtype=float)

@@ -52,7 +52,7 @@ def search_case(rows, columns, patch):
 
 
 def rank_case(dev, patch, placements):
-    arrays = dev.calibration_arrays()
+    arrays = dev.calibration_arrays
     readout, single = arrays.readout_error, arrays.single_qubit_error
 
     def loop():

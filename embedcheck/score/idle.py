@@ -22,13 +22,21 @@ stim circuit `px` and `pz`, the sensitivity the T1 and T2 parts of the total.
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from functools import cached_property
+from typing import TypeGuard
 
 import numpy as np
 from numpy.typing import ArrayLike
 
 __all__ = ["IdleChannel", "idle_channel"]
+
+_PLAIN = (int, float, type(None))          # plain Python numbers (not numpy scalars)
+
+
+def _plain(x: object) -> TypeGuard[float | None]:
+    return type(x) in _PLAIN
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -46,12 +54,16 @@ class IdleChannel:
     @cached_property
     def pz(self) -> np.ndarray:
         """Probability of Z, clamped at 0."""
+        if type(self.t1_part) is float:
+            return max(self.t2_part - self.t1_part, 0.0)
         return np.maximum(self.t2_part - self.t1_part, 0.0)
 
     @cached_property
     def t2_share(self) -> np.ndarray:
         """p_y + p_z: the T2 part of the total, (1 - exp(-t/T2)) / 2 (or p_y where p_z is
         clamped)."""
+        if type(self.t1_part) is float:
+            return max(self.t2_part, self.t1_part)
         return np.maximum(self.t2_part, self.t1_part)
 
     @cached_property
@@ -63,7 +75,15 @@ class IdleChannel:
 def idle_channel(t_ns: ArrayLike, t1_us: ArrayLike | None,
                  t2_us: ArrayLike | None) -> IdleChannel:
     """The idle channel after waiting `t_ns` nanoseconds with T1 and T2 in microseconds
-    (numpy broadcasting; None or inf: no decay of that kind)."""
+    (numpy broadcasting; None or inf: no decay of that kind). Plain numbers take a
+    scalar path (the same formula with `math`), as the noisy circuit asks for one idle
+    period at a time."""
+    if _plain(t_ns) and t_ns is not None and _plain(t1_us) and _plain(t2_us):
+        t = t_ns / 1000.0
+        d1 = -math.expm1(-t / t1_us) if t1_us else 0.0
+        d2 = -math.expm1(-t / t2_us) if t2_us else 0.0
+        return IdleChannel(t1_part=d1 / 4, t2_part=d2 / 2)   # type: ignore[arg-type]
+    assert t_ns is not None
     t_us = np.asarray(t_ns, dtype=float) / 1000.0
     t1 = np.inf if t1_us is None else np.asarray(t1_us, dtype=float)
     t2 = np.inf if t2_us is None else np.asarray(t2_us, dtype=float)

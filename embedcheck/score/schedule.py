@@ -62,7 +62,8 @@ class Timing:
     operation starts; `busy`: how long it is busy; `free`: when it is last free;
     `finish`: when the circuit ends (per placement). `waits[k][j]`, when recorded, is how
     long the j-th qubit of operation k waits for it (for a barrier: for the others).
-    `missing[name]` marks the placements on which a duration of that kind is missing.
+    `missing[name]` marks the placements on which a duration of that kind is missing (when
+    asked for).
     """
 
     circuit: str
@@ -93,11 +94,12 @@ class Schedule:
 
 
 def circuit_timing(patch: Patch, circuit: str, grid: np.ndarray, cal: CalibrationArrays, *,
-                   record_waits: bool = False) -> Timing:
+                   record_waits: bool = False, with_missing: bool = False) -> Timing:
     """ASAP-schedule `circuit` of `patch` on every placement in `grid` (placements x patch
     qubits) with the durations in `cal`. Durations are gathered once per qubit and per
     interacting pair; with `record_waits`, each operation's waits are kept (for the noisy
-    circuit, which places idle noise where a qubit waits)."""
+    circuit, which places idle noise where a qubit waits); with `with_missing`, which
+    durations the chip file does not give (for the audit)."""
     count, n = grid.shape
     ops = patch.circuits[circuit].operations
     idx = patch.index
@@ -149,7 +151,8 @@ def circuit_timing(patch: Patch, circuit: str, grid: np.ndarray, cal: Calibratio
     finish = free.max(axis=0) if n else np.zeros(count)
     return Timing(circuit=circuit, finish=finish, first=first, busy=busy, free=free,
                   started=started, depth=max(layer, default=0),
-                  missing=_missing(patch, circuit, rows, cal, pairs, where if pairs else None),
+                  missing=_missing(patch, circuit, rows, cal, pairs, where if pairs else None)
+                  if with_missing else {},
                   waits=tuple(waits) if record_waits else None)
 
 
@@ -203,7 +206,7 @@ def schedule_circuit(device: Device, patch: Patch, circuit: str, placement: Plac
     """ASAP-schedule `circuit` of `patch` on one placement with the chip's durations."""
     grid = check_placements(device, patch, [placement])
     cal = device.calibration_arrays
-    timing = circuit_timing(patch, circuit, grid, cal)
+    timing = circuit_timing(patch, circuit, grid, cal, with_missing=True)
     idle = idle_times(patch, circuit, grid, cal, again=again, timing=timing)[0]
     return Schedule(circuit=circuit, depth=timing.depth, duration_ns=float(timing.finish[0]),
                     idle_ns=MappingProxyType({q: float(idle[i])

@@ -190,7 +190,7 @@ def test_monte_carlo_is_sampled_when_the_lowest_order_is_zero(capsys):
         path = Path(tmp) / "rep5.yaml"
         path.write_text(family_yaml("repetition", distance=5, rounds=3))
         assert main(["find", str(DEMO_CHIP), str(path), "--monte-carlo", "500", "--decode",
-                     "--top", "2", "--format", "json"]) == 0
+                     "--top", "2", "--limit", "40", "--format", "json"]) == 0
     data = json.loads(capsys.readouterr().out)
     assert data["ranked_by"] == "kept" and "sampled" in data["logical_note"]
     assert all(row["monte_carlo"]["decoded_logical_error"] is not None
