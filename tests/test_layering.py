@@ -6,6 +6,7 @@ has no cycle, and no module (nor a test or bench script) reaches for another mod
 `_private` name. See DEVELOPERS.md for the stages.
 """
 import ast
+import functools
 from pathlib import Path
 
 import pytest
@@ -40,9 +41,14 @@ def _is_package(module: str) -> bool:
     return MODULES[module].name == "__init__.py"
 
 
+@functools.lru_cache(maxsize=None)
+def _tree(path: Path) -> ast.Module:
+    return ast.parse(path.read_text())
+
+
 def _imports(module: str):
     """(imported module, imported names, line) for every embedcheck import in `module`."""
-    tree = ast.parse(MODULES[module].read_text())
+    tree = _tree(MODULES[module])
     base = module if _is_package(module) else module.rsplit(".", 1)[0]
     for node in ast.walk(tree):
         if isinstance(node, ast.Import):
@@ -109,7 +115,7 @@ def test_the_import_graph_has_no_cycle():
 
 def _private_uses(path: Path, own: str | None = None):
     """`from x import _y` and `x._y` (x an imported embedcheck module or test helper) in a file."""
-    tree = ast.parse(path.read_text())
+    tree = _tree(path)
     aliases = {}
     for node in ast.walk(tree):
         if isinstance(node, ast.Import):
@@ -155,7 +161,7 @@ NO_ALL_YET = {"embedcheck.__main__", "embedcheck.place.matcher"}
 
 def test_every_module_says_what_it_exports():
     missing = [m for m, p in MODULES.items()
-               if "__all__" not in {t.id for node in ast.parse(p.read_text()).body
+               if "__all__" not in {t.id for node in _tree(p).body
                                     if isinstance(node, (ast.Assign, ast.AnnAssign))
                                     for t in (node.targets if isinstance(node, ast.Assign)
                                               else [node.target]) if isinstance(t, ast.Name)}

@@ -21,6 +21,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 
+from ..io.qiskit_target import device_target
 from ..model.device import Device
 from ..model.patch import Patch
 from ..model.placement import Placement
@@ -39,13 +40,14 @@ def cross_check(device: Device, patch: Patch, placements: Sequence[Placement], *
     circuit with off-coupler gates gains two-qubit gates.
     """
     problems = []
+    target = device_target(device)           # built once for every transpilation below
     for placement in placements:
         report = audit_placement(device, patch, placement)
         for c in report.circuits:
             if patch.circuits[c.circuit].qasm is None:
                 continue
-            after = qiskit_views.transpile_on_placement(device, patch, c.circuit, placement,
-                                           seed=seed)["two_qubit_gates"]
+            after = qiskit_views.transpile_on_placement(
+                device, patch, c.circuit, placement, seed=seed, target=target)["two_qubit_gates"]
             if c.swap_free and after != c.two_qubit_gates:
                 problems.append(f"{patch.name} on {device.name}, circuit {c.circuit}: our audit "
                                 f"finds it swap-free with {c.two_qubit_gates} two-qubit gates, "

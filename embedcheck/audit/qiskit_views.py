@@ -53,17 +53,19 @@ def qiskit_circuit(patch: Patch, circuit: str) -> tuple[Any, list[str]]:
 
 
 def transpile_on_placement(device: Device, patch: Patch, circuit: str, placement: Placement,
-                           *, seed: int = 11) -> dict[str, Any]:
+                           *, seed: int = 11, target: Any = None) -> dict[str, Any]:
     """Transpile one circuit with the placement as initial layout; count two-qubit gates.
 
     optimization_level=0: higher levels cancel and resynthesise gates, which would hide
-    both real and added gates.
+    both real and added gates. `target` is the device's qiskit `Target`
+    (`io.qiskit_target.device_target`), for callers that transpile many times.
     """
     from qiskit import transpile
 
     qc, names = qiskit_circuit(patch, circuit)
     layout = _layout_list(device, patch, names, placement)
-    out = transpile(qc, target=device_target(device), initial_layout=layout,
+    out = transpile(qc, target=device_target(device) if target is None else target,
+                    initial_layout=layout,
                     optimization_level=0, seed_transpiler=seed)
     return {"two_qubit_gates": _count_two_qubit(out), "circuit": out}
 

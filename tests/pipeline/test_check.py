@@ -8,7 +8,15 @@ import jsonschema
 import junitparser
 import pytest
 
-from embedcheck import Device, Placement, audit_placement, load_device, load_patch, vet_patch
+from embedcheck import (
+    Device,
+    Placement,
+    audit_placement,
+    device_target,
+    load_device,
+    load_patch,
+    vet_patch,
+)
 from embedcheck.audit.qiskit_views import transpile_on_placement
 from embedcheck.cli import main
 from embedcheck.io.qasm import read_qasm
@@ -41,9 +49,11 @@ def test_exact_audit_agrees_with_qiskit_on_fifty_placements(patch_file):
     while len(placements) < 50:        # deliberately bad ones: random qubits
         placements.append(Placement(tuple(rng.sample(device.live_qubits, patch.num_qubits))))
     agree = 0
+    target = device_target(device)
     for placement in placements:
         for c in audit_placement(device, patch, placement).circuits:
-            after = transpile_on_placement(device, patch, c.circuit, placement)["two_qubit_gates"]
+            after = transpile_on_placement(device, patch, c.circuit, placement,
+                                           target=target)["two_qubit_gates"]
             assert (after == c.two_qubit_gates) == c.swap_free, (c.circuit, placement)
             assert after >= c.two_qubit_gates
             agree += 1
@@ -252,9 +262,11 @@ def test_exact_audit_agrees_with_qiskit_on_family_patches(family, options):
     rng = random.Random(23)
     placements = found + [Placement(tuple(rng.sample(device.live_qubits, patch.num_qubits)))
                           for _ in range(50 - len(found))]
+    target = device_target(device)
     for placement in placements:
         for c in audit_placement(device, patch, placement).circuits:
-            after = transpile_on_placement(device, patch, c.circuit, placement)["two_qubit_gates"]
+            after = transpile_on_placement(device, patch, c.circuit, placement,
+                                           target=target)["two_qubit_gates"]
             assert (after == c.two_qubit_gates) == c.swap_free, (family, c.circuit)
 
 
