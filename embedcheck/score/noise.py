@@ -136,7 +136,7 @@ def _noisy_run(patch: Patch, name: str, again: bool, device: Device, placement: 
     schedule is the same, only the qubits already holding state differ)."""
     import stim
 
-    assert timing.waits is not None
+    assert timing.waits is not None and timing.free is not None
     where = placement.as_dict(patch)
     index = patch.index
     qcal = device.qubit_calibration

@@ -59,7 +59,8 @@ class Timing:
     """The schedule of one circuit over many placements (arrays over qubits x placements).
 
     `started[q]`: patch qubit q has an operation in the circuit; `first`: when its first
-    operation starts; `busy`: how long it is busy; `free`: when it is last free;
+    operation starts; `busy`: how long it is busy; `free`: when it is last free (kept with
+    the waits only: it is one more array of qubits x placements);
     `finish`: when the circuit ends (per placement). `waits[k][j]`, when recorded, is how
     long the j-th qubit of operation k waits for it (for a barrier: for the others).
     `missing[name]` marks the placements on which a duration of that kind is missing (when
@@ -70,7 +71,7 @@ class Timing:
     finish: np.ndarray
     first: np.ndarray
     busy: np.ndarray
-    free: np.ndarray
+    free: np.ndarray | None
     started: np.ndarray
     depth: int
     missing: Mapping[str, np.ndarray]
@@ -108,11 +109,14 @@ def circuit_timing(patch: Patch, circuit: str, grid: np.ndarray, cal: Calibratio
     measure_ns = cal.measurement_ns[rows]
     pairs = sorted({(idx[op.qubits[0]], idx[op.qubits[1]]) for op in ops if op.kind == "2q"})
     column = {p: k for k, p in enumerate(pairs)}
+    where = None                                             # coupler of each pair, if needed
     if pairs:
         ab = np.array(pairs, dtype=np.int64)
-        where = cal.coupler_index(rows[ab[:, 0]], rows[ab[:, 1]])     # (pairs, placements)
-        two_ns = cal.values_at(where, cal.coupler_ns)
+        index = cal.coupler_index(rows[ab[:, 0]], rows[ab[:, 1]])     # (pairs, placements)
+        two_ns = cal.values_at(index, cal.coupler_ns)
         two_ns = np.where(np.isnan(two_ns), cal.median_two_qubit_ns, two_ns)
+        where = index if with_missing else None
+        del index
     free = np.zeros((n, count))
     busy = np.zeros((n, count))
     first = np.zeros((n, count))
@@ -149,9 +153,10 @@ def circuit_timing(patch: Patch, circuit: str, grid: np.ndarray, cal: Calibratio
             busy[c] += length
             layer[c] = top
     finish = free.max(axis=0) if n else np.zeros(count)
-    return Timing(circuit=circuit, finish=finish, first=first, busy=busy, free=free,
+    return Timing(circuit=circuit, finish=finish, first=first, busy=busy,
+                  free=free if record_waits else None,
                   started=started, depth=max(layer, default=0),
-                  missing=_missing(patch, circuit, rows, cal, pairs, where if pairs else None)
+                  missing=_missing(patch, circuit, rows, cal, pairs, where)
                   if with_missing else {},
                   waits=tuple(waits) if record_waits else None)
 
