@@ -167,3 +167,29 @@ def test_every_module_says_what_it_exports():
                                               else [node.target]) if isinstance(t, ast.Name)}
                and m not in NO_ALL_YET]
     assert not missing
+
+
+def test_the_public_api_names_resolve_and_list_themselves():
+    import embedcheck
+    assert embedcheck.__all__[0] == "__version__" and len(set(embedcheck.__all__)) == len(
+        embedcheck.__all__)
+    for name in embedcheck.__all__:
+        assert getattr(embedcheck, name) is not None, name
+    assert set(embedcheck.__all__) <= set(dir(embedcheck))
+    with pytest.raises(AttributeError):
+        embedcheck.no_such_name  # noqa: B018
+
+
+def test_help_and_import_load_no_heavy_library():
+    # Cheap start-up: the command line builds every parser, and `import embedcheck`
+    # finishes, without importing the scientific stack (bench/startup.py times it).
+    import subprocess
+    import sys
+    heavy = ("numpy", "qiskit", "stim", "jsonschema", "openqasm3", "matplotlib", "rustworkx",
+             "networkx", "yaml")
+    code = ("import sys, embedcheck\nfrom embedcheck.cli.app import build_parser\n"
+            "build_parser().format_help()\n"
+            f"print(','.join(m for m in {heavy!r} if m in sys.modules))")
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                          check=True, cwd=ROOT)
+    assert done.stdout.strip() == ""
