@@ -27,7 +27,7 @@ from openqasm3 import ast
 from ..errors import InputError
 from ..model.patch import Operation
 
-__all__ = ["declared_qubits", "qasm_version", "read_qasm"]
+__all__ = ["COMMON_GATE_PARAMETERS", "declared_qubits", "qasm_version", "read_qasm"]
 
 # Classical declarations (IODeclaration exists in newer openqasm3 versions only).
 _DECLARATIONS: tuple[type[ast.ClassicalDeclaration], ...] = tuple(
@@ -324,11 +324,20 @@ def _standard_gate(name: str):
     return get_standard_gate_name_mapping().get(name)
 
 
+# Parameters of the standard-library gates circuits use most (qelib1.inc, stdgates.inc),
+# so that reading them does not import qiskit (a test holds the table to qiskit's gates).
+COMMON_GATE_PARAMETERS = {
+    "id": 0, "x": 0, "y": 0, "z": 0, "h": 0, "s": 0, "sdg": 0, "t": 0, "tdg": 0, "sx": 0,
+    "sxdg": 0, "rx": 1, "ry": 1, "rz": 1, "p": 1, "u1": 1, "u2": 2, "u3": 3, "u": 3,
+    "cx": 0, "cy": 0, "cz": 0, "ch": 0, "swap": 0, "ccx": 0, "cp": 1, "crx": 1, "cry": 1,
+    "crz": 1, "rzz": 1, "rxx": 1, "ryy": 1, "ecr": 0, "iswap": 0, "dcx": 0, "cswap": 0}
+
+
 @lru_cache(maxsize=None)
 def _standard_parameters(name: str) -> int | None:
     """Parameters of a standard-library gate, or None when qiskit has no such gate."""
-    if name in ("u", "u3"):
-        return 3
+    if name in COMMON_GATE_PARAMETERS:
+        return COMMON_GATE_PARAMETERS[name]
     gate = _standard_gate(name)
     return None if gate is None else len(gate.params)
 

@@ -150,3 +150,13 @@ def test_plain_text_is_a_syntax_error_without_chatter(capsys):
         read_qasm("hello: this is not a circuit", file="t.qasm")
     assert "t.qasm:1: OpenQASM syntax error" in str(err.value)
     assert capsys.readouterr().err == ""
+
+
+def test_the_common_gate_table_matches_qiskits_standard_gates():
+    # Reference: qiskit's standard gate library (the reader skips importing it for these).
+    from qiskit.circuit.library import get_standard_gate_name_mapping
+
+    from embedcheck.io.qasm import COMMON_GATE_PARAMETERS
+    gates = get_standard_gate_name_mapping()
+    assert {name: len(gates[name].params) for name in COMMON_GATE_PARAMETERS} == \
+        COMMON_GATE_PARAMETERS
