@@ -15,8 +15,8 @@ from helpers import ROOT
 
 PACKAGE = ROOT / "embedcheck"
 # Import order: a module may import modules of its own stage or of an earlier one.
-STAGES = ("version", "errors", "model", "io", "schemas", "place", "score", "audit", "repair",
-          "pipeline", "report", "cli")
+STAGES = ("version", "errors", "engine", "model", "io", "schemas", "place", "score", "audit",
+          "repair", "pipeline", "sweep", "report", "cli", "plugins")
 TOP = len(STAGES)          # embedcheck/__init__.py and __main__.py: the public face
 
 

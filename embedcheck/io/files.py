@@ -125,6 +125,13 @@ class Outputs:
 
     def claim(self, path: str | Path, *, option: str, overwrite: bool = True) -> Path:
         """Reserve `path` for writing, or raise `InputError` naming the option and why."""
+        target = self.vet(path, option=option, overwrite=overwrite)
+        self._claims[_resolved(target)] = (target, option, overwrite)
+        return target
+
+    def vet(self, path: str | Path, *, option: str, overwrite: bool = True) -> Path:
+        """Check `path` as `claim` does, without reserving it (for a file another writer,
+        such as SQLite, updates in place)."""
         target = Path(path)
         file = str(path)
         if not target.name or target.name in (".", ".."):
@@ -147,7 +154,6 @@ class Outputs:
                 raise InputError(f"{option}: file exists; will not overwrite it (add --force "
                                  "to replace it)", file=file)
         _probe(folder, file, option)
-        self._claims[key] = (target, option, overwrite)
         return target
 
     def claimed(self) -> list[Path]:

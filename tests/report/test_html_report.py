@@ -1,0 +1,92 @@
+"""The HTML report: valid HTML (html5lib's strict parser, an implementation of the WHATWG
+parsing algorithm), self-contained (nothing fetched from anywhere), the chip with hover
+figures, the failing gates with file and line; and it renders in headless Chromium with no
+console errors and a screenshot."""
+import json
+import re
+import shutil
+import subprocess
+from html import escape
+
+import html5lib
+import pytest
+
+from embedcheck import load_device, load_patch
+from embedcheck.cli import main
+from embedcheck.report.html import render_html
+from embedcheck.report.svg import chip_svg
+from helpers import DEMO_CHIP, DEMO_PATCH, ROOT
+
+
+def _find_page(capsys):
+    assert main(["find", str(DEMO_CHIP), str(DEMO_PATCH), "--format", "json", "--top", "5"]) == 0
+    payload = json.loads(capsys.readouterr().out)
+    device, patch = load_device(DEMO_CHIP), load_patch(DEMO_PATCH)
+    missing = [tuple(g["physical_qubits"]) for c in payload["best_audit"]["circuits"]
+               for g in c["off_coupler"]]
+    svg = chip_svg(device, placement=payload["placements"][0]["qubits"], roles=dict(patch.roles),
+                   missing=missing, title="best placement")
+    return payload, render_html(payload, pictures={"best placement": svg})
+
+
+def test_find_page_is_valid_self_contained_html_with_the_failing_gates(capsys):
+    payload, page = _find_page(capsys)
+    html5lib.HTMLParser(strict=True).parse(page)        # raises on any parse error
+    assert not re.search(r"(src|href)\s*=|https?://(?!www\.w3\.org/2000/svg)", page)
+    for gate in (23, 24, 25):                            # the naive prep's three CNOTs
+        assert f"flagged_weight4.yaml:{gate}" in page
+    # Hover figures: a <title> on every qubit and coupler of the chip.
+    device = load_device(DEMO_CHIP)
+    assert page.count("<title>qubit ") == device.num_qubits
+    assert page.count("<title>coupler ") == len(device.couplers)
+    assert "<title>qubit 25 = a0 (ancilla): readout_error" in page
+    assert page.count('class="missing"') == 3
+    assert escape(payload["caution"]) in page
+
+
+def test_check_and_audit_pages_parse(capsys):
+    assert main(["check", str(ROOT / "samples" / "project.yaml"), "--format", "json",
+                 "--cross-check-top", "0"]) == 1
+    check = json.loads(capsys.readouterr().out)
+    page = render_html(check, pictures={})
+    html5lib.HTMLParser(strict=True).parse(page)
+    assert "FAIL" in page and "flagged_weight4.yaml:23" in page
+    assert main(["audit", str(DEMO_CHIP), str(DEMO_PATCH), "--pick", "1", "--format",
+                 "json"]) == 0
+    page = render_html(json.loads(capsys.readouterr().out), pictures={})
+    html5lib.HTMLParser(strict=True).parse(page)
+    assert "needs routing" in page
+
+
+def _chromium():
+    return shutil.which("chromium") or shutil.which("chromium-browser")
+
+
+def _render(browser, page_path, png_path, profile):
+    """Headless Chromium: screenshot the page; return the console messages it logged."""
+    run = subprocess.run(
+        [browser, "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic",
+         "--no-first-run", "--disable-background-networking", "--disable-component-update",
+         "--disable-sync", f"--user-data-dir={profile}", "--enable-logging=stderr", "--v=0",
+         f"--screenshot={png_path}", "--window-size=1100,1400", page_path.as_uri()],
+        capture_output=True, text=True, timeout=120)
+    return [line for line in run.stderr.splitlines() if "CONSOLE" in line]
+
+
+def test_page_renders_in_headless_chromium_without_console_errors(capsys, tmp_path):
+    browser = _chromium()
+    if browser is None:
+        pytest.skip("Chromium is not installed (Debian package 'chromium'; .ci/run installs "
+                    "it): the browser check did not run")
+    _, page = _find_page(capsys)
+    path = tmp_path / "find.html"
+    path.write_text(page)
+    console = _render(browser, path, tmp_path / "find.png", tmp_path / "profile")
+    assert console == []
+    png = (tmp_path / "find.png").read_bytes()
+    assert png.startswith(b"\x89PNG") and len(png) > 20_000      # a real, non-blank picture
+    # The console check can fail: a page that logs an error is caught.
+    bad = tmp_path / "bad.html"
+    bad.write_text("<!DOCTYPE html><title>x</title><script>console.error('broken')</script>")
+    assert any("broken" in line for line in
+               _render(browser, bad, tmp_path / "bad.png", tmp_path / "profile2"))

@@ -1,0 +1,151 @@
+"""Fleet sweeps: the same stored results on every executor, no row lost or doubled when a
+worker dies or the run is interrupted, and one bad chip failing only its own units.
+
+The chips are the invented fleet of `devices/fleet` (two snapshots of two chips); the
+patch is the repetition code at distance 3, sampled and decoded (pymatching) on each
+unit's two best placements: 4 ranking tasks and 8 sampling tasks.
+"""
+import json
+import os
+import shutil
+import signal
+import sqlite3
+
+import jsonschema
+import pytest
+
+from embedcheck.cli import main
+from embedcheck.engine import DaskExecutor, SerialExecutor
+from embedcheck.io.sweepfile import load_sweep
+from embedcheck.io.yamlfile import schema
+from embedcheck.sweep import ResultStore, run_sweep, summarise
+from helpers import ROOT
+
+FLEET = ROOT / "devices" / "fleet"
+TASKS = 12                      # 2 chips x 2 snapshots: 4 rankings + 4 x 2 samplings
+
+
+@pytest.fixture()
+def sweep_file(tmp_path):
+    for chip in ("fleet-hex-a", "fleet-hex-b"):
+        (tmp_path / chip).mkdir()
+        for day in ("2026-11-23", "2026-11-24"):
+            shutil.copy(FLEET / chip / f"{day}.yaml", tmp_path / chip / f"{day}.yaml")
+    path = tmp_path / "sweep.yaml"
+    path.write_text("embedcheck_sweep: 1\nname: test\nchips: [fleet-hex-a, fleet-hex-b]\n"
+                    "patches: [{family: repetition, distances: [3], rounds: 2}]\n"
+                    "figures: [fidelity_product, decoded]\ntop: 2\n"
+                    "sampling: {shots: 3000, max_errors: 1000, seed: 5}\n")
+    return path
+
+
+def _stored(database) -> tuple[list, list]:
+    """Results and units, without timings: what must be identical between runs."""
+    db = sqlite3.connect(database)
+    results = db.execute("SELECT * FROM results ORDER BY unit, rank, figure").fetchall()
+    units = db.execute("SELECT * FROM units ORDER BY unit").fetchall()
+    db.close()
+    return results, units
+
+
+def test_serial_local_default_and_explicit_local_cluster_store_identical_results(sweep_file,
+                                                                                tmp_path):
+    from dask.distributed import LocalCluster
+    sweep = load_sweep(sweep_file)
+    with SerialExecutor() as run:
+        serial = run_sweep(sweep, executor=run, database=str(tmp_path / "serial.sqlite"))
+    with DaskExecutor(workers=2) as run:
+        default = run_sweep(sweep, executor=run, database=str(tmp_path / "default.sqlite"))
+    with LocalCluster(n_workers=1, threads_per_worker=1, processes=True,
+                      dashboard_address=None) as cluster, DaskExecutor(cluster=cluster) as run:
+        explicit = run_sweep(sweep, executor=run, database=str(tmp_path / "explicit.sqlite"))
+    assert serial.computed == default.computed == explicit.computed == TASKS
+    reference = _stored(tmp_path / "serial.sqlite")
+    assert len(reference[0]) == 4 * 2 + 4 * 2          # fidelity rows + decoded rows
+    assert _stored(tmp_path / "default.sqlite") == reference
+    assert _stored(tmp_path / "explicit.sqlite") == reference
+
+
+def test_a_worker_killed_mid_sweep_and_every_row_present_once(sweep_file, tmp_path):
+    sweep = load_sweep(sweep_file)
+    with SerialExecutor() as run:
+        run_sweep(sweep, executor=run, database=str(tmp_path / "reference.sqlite"))
+    killed = []
+    with DaskExecutor(workers=2, retries=2) as run:
+        pids = list(run.worker_pids.values())
+
+        def kill_one(done, total):
+            if not killed:                     # after the first stored task
+                os.kill(pids[0], signal.SIGKILL)
+                killed.append(pids[0])
+        outcome = run_sweep(sweep, executor=run, database=str(tmp_path / "killed.sqlite"),
+                            progress=kill_one)
+        assert pids[0] not in run.worker_pids.values()      # the worker really died
+    assert killed and outcome.ok and outcome.computed == TASKS
+    assert _stored(tmp_path / "killed.sqlite") == _stored(tmp_path / "reference.sqlite")
+
+
+def test_interrupted_sweep_resumes_without_computing_anything_twice(sweep_file, tmp_path):
+    sweep = load_sweep(sweep_file)
+    database = str(tmp_path / "resumed.sqlite")
+
+    def interrupt(done, total):
+        if done == 5:
+            raise KeyboardInterrupt
+    with SerialExecutor() as run, pytest.raises(KeyboardInterrupt):
+        run_sweep(sweep, executor=run, database=database, progress=interrupt)
+    assert len(ResultStore(database).done_tasks()) == 5      # every finished task kept
+    with SerialExecutor() as run:
+        resumed = run_sweep(sweep, executor=run, database=database)
+    assert resumed.computed == TASKS - 5 and resumed.skipped == 5
+    with SerialExecutor() as run:
+        again = run_sweep(sweep, executor=run, database=database)
+    assert again.computed == 0 and again.skipped == TASKS
+    with SerialExecutor() as run:
+        run_sweep(sweep, executor=run, database=str(tmp_path / "whole.sqlite"))
+    assert _stored(database) == _stored(tmp_path / "whole.sqlite")
+
+
+def test_a_malformed_chip_fails_its_own_units_and_the_rest_complete(sweep_file, tmp_path,
+                                                                    capsys):
+    bad = tmp_path / "broken.yaml"
+    bad.write_text("embedcheck_chip: 1\nname: broken\nqubits: [0, 1]\ncouplers: [[0, 7]]\n")
+    sweep_file.write_text(sweep_file.read_text().replace(
+        "chips: [fleet-hex-a, fleet-hex-b]", "chips: [fleet-hex-a, broken.yaml]"))
+    code = main(["sweep", str(sweep_file), "--serial", "--format", "json"])
+    assert code == 1
+    database = tmp_path / "sweep.sqlite"
+    units = {u["chip"]: u for u in ResultStore(str(database)).units()}
+    assert units["broken"]["status"] == "failed"
+    assert "broken.yaml" in units["broken"]["error"] and "qubit 7" in units["broken"]["error"]
+    assert units["fleet-hex-a"]["status"] == "done"
+    summary = summarise(ResultStore(str(database)))
+    assert summary["failed"] and summary["patches"][0]["snapshots"][0]["best"]["chip"] \
+        == "fleet-hex-a"
+
+
+def test_cli_report_files_and_bad_sweep_files(sweep_file, tmp_path, capsys):
+    out = tmp_path / "report.md"
+    picture = tmp_path / "best.svg"
+    assert main(["sweep", str(sweep_file), "--serial", "--markdown", str(out),
+                 "--picture", str(picture)]) == 0
+    text = capsys.readouterr().out
+    assert "repetition d=3: ranked by decoded logical error" in text
+    assert out.read_text().startswith("## embedcheck sweep: test")
+    assert picture.read_text().lstrip().startswith("<?xml")
+    # A rerun resumes: nothing computed again; the JSON follows its shipped schema.
+    assert main(["sweep", str(sweep_file), "--serial"]) == 0
+    assert f"0 task(s) computed, {TASKS} already stored" in capsys.readouterr().out
+    assert main(["sweep", str(sweep_file), "--report-only", "--format", "json"]) == 0
+    payload = json.loads(capsys.readouterr().out)
+    jsonschema.validate(payload, schema("sweep-report"))
+    assert payload["run"] is None and payload["units"] == 4
+    # Bad sweep files: one line, exit 2.
+    sweep_file.write_text(sweep_file.read_text().replace("top: 2", "tops: 2"))
+    assert main(["sweep", str(sweep_file), "--serial"]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "unknown key 'tops'" in err
+    # The database never lands on an input.
+    sweep_file.write_text(sweep_file.read_text().replace("tops: 2", "top: 2"))
+    assert main(["sweep", str(sweep_file), "--serial", "--database", str(sweep_file)]) == 2
+    assert "will not write over an input file" in capsys.readouterr().err
