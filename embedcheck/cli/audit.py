@@ -3,14 +3,22 @@ placement, gate by gate."""
 from __future__ import annotations
 
 import argparse
+from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from ..errors import InputError, InternalError
-from .options import add_common, add_search_options, emit, parse_placement, positive_int
+from .options import (
+    add_common,
+    add_html_option,
+    add_search_options,
+    emit,
+    parse_placement,
+    positive_int,
+    require_html_path,
+)
 
 if TYPE_CHECKING:
     from ..audit.exact import AuditReport
-    from ..io.files import Outputs
     from ..model.device import Device
     from ..model.patch import Patch
 
@@ -38,6 +46,7 @@ def add_parser(sub: Any) -> None:
                             "existing files are kept unless --force")
     audit.add_argument("--force", action="store_true",
                        help="with --write-qasm, replace existing <circuit>.qasm files")
+    add_html_option(audit)
     audit.set_defaults(run=run)
 
 
@@ -67,6 +76,9 @@ def run(args: argparse.Namespace) -> int:
             raise InputError(f"--write-qasm: folder '{args.write_qasm}' does not exist")
         for name in patch.circuits:
             outputs.claim(folder / f"{name}.qasm", option="--write-qasm", overwrite=args.force)
+    if args.html:
+        require_html_path(args.html)
+        outputs.claim(args.html, option="--html")
     if args.placement is not None:
         placement = parse_placement(args.placement, patch, device)
     else:
@@ -78,7 +90,8 @@ def run(args: argparse.Namespace) -> int:
         placement = vetting.ranking.placements[args.pick - 1]
     report = audit_placement(device, patch, placement, router_estimate=args.router_estimate,
                              seed=args.seed)
-    written = _write_placed(args.write_qasm, device, patch, report, outputs) \
+    files: dict[str | Path, str | bytes] = {}
+    written = _write_placed(args.write_qasm, device, patch, report, files) \
         if args.write_qasm else None
     ranking = rank_placements(device, patch, [placement])
     zeros = np.zeros((1, len(patch.circuits)), dtype=int)
@@ -94,6 +107,15 @@ def run(args: argparse.Namespace) -> int:
         disagreements = cross_check(device, patch, [placement], seed=args.seed)
         payload["cross_check"] = {"method": "qiskit transpile, optimization_level=0",
                                   "disagreements": disagreements}
+    if args.html:
+        from ..report.html import render_html
+        from ..report.svg import placement_svg
+        gates = [g for c in report_data.audit_dict(patch, report)["circuits"]
+                 for g in c["off_coupler"]]
+        files[args.html] = render_html(payload, pictures={"the placement": placement_svg(
+            device, patch, placement.as_dict(patch), gates,
+            title=f"{patch.name} on {device.name}")})
+    outputs.commit(files)
     emit(args, payload, render_audit(payload))
     if disagreements:
         raise InternalError("the exact audit and qiskit's transpiler disagree: "
@@ -110,8 +132,9 @@ def need_qasm(patch: Patch, option: str) -> None:
 
 
 def _write_placed(folder: str, device: Device, patch: Patch, report: AuditReport,
-                  outputs: Outputs) -> dict[str, Any]:
-    """Write each swap-free circuit as placed OpenQASM 3; say why any other is not written."""
+                  files: dict[str | Path, str | bytes]) -> dict[str, Any]:
+    """Each swap-free circuit as placed OpenQASM 3, added to `files` (written with the rest,
+    all or nothing); say why any other is not written."""
     from pathlib import Path
 
     from ..audit.qiskit_views import placed_qasm3
@@ -123,6 +146,6 @@ def _write_placed(folder: str, device: Device, patch: Patch, report: AuditReport
             texts[c.circuit] = placed_qasm3(device, patch, c.circuit, report.placement)
         else:
             skipped[c.circuit] = f"needs routing ({len(c.off_coupler)} off-coupler gates)"
-    files = {name: str(target / f"{name}.qasm") for name in texts}
-    outputs.commit({files[name]: text for name, text in texts.items()})
-    return {"files": files, "not_written": skipped}
+    paths = {name: str(target / f"{name}.qasm") for name in texts}
+    files.update({paths[name]: text for name, text in texts.items()})
+    return {"files": paths, "not_written": skipped}

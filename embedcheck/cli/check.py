@@ -17,9 +17,11 @@ def add_parser(sub: Any) -> None:
                            "failed rule)")
     check.add_argument("project", help="project file (YAML)")
     check.add_argument("--format", choices=("text", "json"), default="text")
-    for kind in ("json", "markdown", "junit", "sarif"):
+    for kind in ("json", "markdown", "junit", "sarif", "html"):
         check.add_argument(f"--{kind}", metavar="FILE", help=f"write the {kind} report here "
-                           "(overrides the project file)")
+                           "(overrides the project file)" + (
+                               "; self-contained, the chip of each chip x patch drawn with "
+                               "its chosen placement" if kind == "html" else ""))
     check.add_argument("--baseline", metavar="FILE",
                        help="a previous JSON report: say what got worse and what got better")
     check.add_argument("--fail-on-worse", action="store_true",
@@ -44,7 +46,7 @@ def run(args: argparse.Namespace) -> int:
         raise InputError("--fail-on-worse compares with a previous report: give --baseline FILE")
     project = load_project(args.project)
     targets = dict(project.reports)
-    for kind in ("json", "markdown", "junit", "sarif"):
+    for kind in ("json", "markdown", "junit", "sarif", "html"):
         if getattr(args, kind):
             targets[kind] = getattr(args, kind)
     baseline = _read_baseline(args.baseline) if args.baseline else None
@@ -68,7 +70,8 @@ def run(args: argparse.Namespace) -> int:
     writers = {"json": lambda: json.dumps(finite(payload), indent=2, allow_nan=False) + "\n",
                "markdown": lambda: render_markdown(payload),
                "junit": lambda: render_junit(payload),
-               "sarif": lambda: json.dumps(render_sarif(payload), indent=2) + "\n"}
+               "sarif": lambda: json.dumps(render_sarif(payload), indent=2) + "\n",
+               "html": lambda: _html(result, payload)}
     outputs.commit({target: writers[kind]() for kind, target in targets.items()})
     emit(args, payload, render_check(payload))
     if result.internal_errors:
@@ -76,6 +79,20 @@ def run(args: argparse.Namespace) -> int:
                             "please report it")
     worse = bool(payload["baseline"] and payload["baseline"]["worse"])
     return 0 if result.passed and not (args.fail_on_worse and worse) else 1
+
+
+def _html(result: Any, payload: dict[str, Any]) -> str:
+    """The check as one HTML page: each chip x patch with its chosen placement drawn."""
+    from ..report.html import render_html
+    from ..report.svg import placement_svg
+    pictures = {}
+    for pair, shown in zip(result.pairs, payload["results"], strict=True):
+        placement = shown.get("chosen_placement")
+        gates = [g for c in shown.get("circuits", []) for g in c.get("gates", [])]
+        pictures[f"{shown['patch']} on {shown['chip']}"] = placement_svg(
+            pair.device, pair.patch, placement, gates, title=f"{shown['patch']} on "
+                                                             f"{shown['chip']}")
+    return render_html(payload, pictures=pictures)
 
 
 def _read_baseline(path: str) -> dict[str, Any]:

@@ -10,12 +10,14 @@ from ..errors import InputError
 from .options import (
     add_common,
     add_constraint_options,
+    add_html_option,
     add_search_options,
     emit,
     picture_bytes_for,
     positive_int,
     progress_printer,
     request_constraints,
+    require_html_path,
     require_picture_path,
     top_count,
 )
@@ -58,6 +60,7 @@ def add_parser(sub: Any) -> None:
     find.add_argument("--compare-sdk", action="store_true",
                       help="also run qiskit's VF2Layout on the whole experiment and say where "
                            "its choice ranks under our model")
+    add_html_option(find)
     find.set_defaults(run=run)
 
 
@@ -83,6 +86,9 @@ def run(args: argparse.Namespace) -> int:
         if target:
             require_picture_path(target, option)
             outputs.claim(target, option=option)
+    if args.html:
+        require_html_path(args.html)
+        outputs.claim(args.html, option="--html")
     constraints = request_constraints(args, patch, device)
     if args.decode and not args.monte_carlo:
         raise InputError("--decode decodes sampled shots: give --monte-carlo SHOTS too")
@@ -126,6 +132,21 @@ def run(args: argparse.Namespace) -> int:
                                     vetting.ranking.success, None)
         pictures[args.score_map] = picture_bytes_for(args.score_map, figure)
         payload["pictures"] = {**payload.get("pictures", {}), "score_map": args.score_map}
+    if args.html:
+        from ..report.html import render_html
+        from ..report.svg import placement_svg
+        svgs = {}
+        if vetting.ranking.placements:
+            best = logical.placements[0] if logical is not None else \
+                vetting.ranking.placements[0]
+            gates = [g for c in (payload.get("best_audit") or {}).get("circuits", [])
+                     for g in c["off_coupler"]] if logical is None else []
+            svgs["best placement"] = placement_svg(device, patch, best.as_dict(patch), gates,
+                                                   title=f"{patch.name} on {device.name}")
+        else:
+            svgs["the chip (no placement)"] = placement_svg(device, patch, None,
+                                                            title=device.name)
+        pictures[args.html] = render_html(payload, pictures=svgs)
     outputs.commit(pictures)
     emit(args, payload, render_find(payload))
     return 1 if args.strict and not vetting.all_swap_free else 0

@@ -27,10 +27,11 @@ if TYPE_CHECKING:
     from ..model.patch import Patch
     from ..model.placement import Placement
 
-__all__ = ["Parser", "add_common", "add_constraint_options", "add_search_options", "emit",
+__all__ = ["Parser", "add_common", "add_constraint_options", "add_html_option",
+           "add_search_options", "emit",
            "finite", "floats", "int_list", "kind_of", "pair_list", "parse_placement",
            "picture_bytes_for", "positive_float", "positive_int", "progress_printer",
-           "request_constraints", "require_picture_path", "top_count"]
+           "request_constraints", "require_html_path", "require_picture_path", "top_count"]
 
 
 class Parser(argparse.ArgumentParser):
@@ -221,6 +222,18 @@ def kind_of(path: str) -> str:
         raise InputError("not a chip or patch file: it needs a version key "
                          "'embedcheck_chip: 1' or 'embedcheck_patch: 1'", file=path)
     return m.group(1)
+
+
+def add_html_option(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--html", metavar="FILE",
+                   help="also write a self-contained HTML report (the chip with the placement, "
+                        "hover for figures; the gates that need routing with file and line; "
+                        "the ranking); viewing it needs no network")
+
+
+def require_html_path(target: str) -> None:
+    if not target.lower().endswith((".html", ".htm")):
+        raise InputError("--html: give a file name ending in .html", file=target)
 
 
 def require_picture_path(target: str, option: str) -> None:

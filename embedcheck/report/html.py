@@ -33,7 +33,8 @@ figcaption{font-size:.8rem;color:#555}.caution{font-size:.85rem;color:#555;margi
 
 
 def render_html(payload: Mapping[str, Any], *, pictures: Mapping[str, str]) -> str:
-    """The page for a `find`, `audit` or `check` payload; `pictures`: caption -> SVG text."""
+    """The page for a `find`, `audit` or `check` payload; `pictures`: caption -> SVG text
+    (for `check`, captioned '<patch> on <chip>', each shown in its pair's section)."""
     command = payload["command"]
     if command == "check":
         title = f"embedcheck check: {payload['project']['name']}"
@@ -146,10 +147,12 @@ def _find(payload, pictures) -> str:
 
 def _check(payload, pictures) -> str:
     out = [f"<p>Project <code>{escape(payload['project']['name'])}</code>: "
-           f"{_verdict(payload['passed'])}</p>", _pictures(pictures)]
+           f"{_verdict(payload['passed'])}</p>"]
     for result in payload["results"]:
-        out.append(f"<h2>{escape(result['patch'])} on {escape(result['chip'])}: "
-                   f"{_verdict(result['passed'])}</h2>")
+        name = f"{result['patch']} on {result['chip']}"
+        out.append(f"<h2>{escape(name)}: {_verdict(result['passed'])}</h2>")
+        if name in pictures:
+            out.append(_pictures({name: pictures[name]}))
         rows = [[o["rule"], o.get("circuit") or "", f"<td>{_verdict(o['passed'])}</td>",
                  o["message"]] for o in result["outcomes"]]
         out.append(_table(["rule", "circuit", "verdict", "why"], rows))

@@ -18,7 +18,7 @@ from __future__ import annotations
 from html import escape
 from typing import Iterable, Mapping
 
-__all__ = ["chip_svg"]
+__all__ = ["chip_svg", "placement_svg"]
 
 ROLE_FILL = {"data": "#0072B2", "flag": "#E69F00", "ancilla": "#009E73"}
 DEAD = "#D55E00"
@@ -108,6 +108,15 @@ def chip_svg(device, *, placement: Mapping[str, int] | None = None,
         out.append('</g>')
     out.append('</g></svg>')
     return "".join(out)
+
+
+def placement_svg(device, patch, placement: Mapping[str, int] | None,
+                  gates: Iterable[Mapping] = (), *, title: str | None = None) -> str:
+    """The chip with a placement of `patch` and the chip pairs of `gates` (off-coupler gate
+    records of an audit, as the JSON reports give them) dashed: what the HTML report shows."""
+    missing = sorted({tuple(sorted(g["physical_qubits"])) for g in gates})
+    return chip_svg(device, placement=placement, roles=dict(patch.roles), missing=missing,
+                    title=title)
 
 
 def _positions(device) -> dict:

@@ -49,14 +49,14 @@ INPUTS = ["project.yaml", "chip.yaml", "flagged_weight4_coupler_prep.yaml",
           "flagged_weight4_round.qasm"]
 
 
-@pytest.mark.parametrize("kind", ["json", "markdown", "junit", "sarif"])
+@pytest.mark.parametrize("kind", ["json", "markdown", "junit", "sarif", "html"])
 @pytest.mark.parametrize("victim", INPUTS)
 def test_check_report_options_never_overwrite_an_input(work, capsys, kind, victim):
     _refused(work, capsys, ["check", work / "project.yaml", f"--{kind}", work / victim],
              message="will not write over an input file")
 
 
-@pytest.mark.parametrize("kind", ["json", "markdown", "junit", "sarif"])
+@pytest.mark.parametrize("kind", ["json", "markdown", "junit", "sarif", "html"])
 @pytest.mark.parametrize("victim", INPUTS)
 def test_project_reports_never_overwrite_an_input(work, capsys, kind, victim):
     project = work / "project.yaml"

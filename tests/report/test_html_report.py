@@ -14,23 +14,19 @@ import pytest
 from embedcheck import load_device, load_patch
 from embedcheck.cli import main
 from embedcheck.report.html import render_html
-from embedcheck.report.svg import chip_svg
+from embedcheck.report.svg import placement_svg
 from helpers import DEMO_CHIP, DEMO_PATCH, ROOT
 
 
-def _find_page(capsys):
-    assert main(["find", str(DEMO_CHIP), str(DEMO_PATCH), "--format", "json", "--top", "5"]) == 0
-    payload = json.loads(capsys.readouterr().out)
-    device, patch = load_device(DEMO_CHIP), load_patch(DEMO_PATCH)
-    missing = [tuple(g["physical_qubits"]) for c in payload["best_audit"]["circuits"]
-               for g in c["off_coupler"]]
-    svg = chip_svg(device, placement=payload["placements"][0]["qubits"], roles=dict(patch.roles),
-                   missing=missing, title="best placement")
-    return payload, render_html(payload, pictures={"best placement": svg})
+def _find_page(tmp_path, capsys):
+    page = tmp_path / "find.html"
+    assert main(["find", str(DEMO_CHIP), str(DEMO_PATCH), "--format", "json", "--top", "5",
+                 "--html", str(page)]) == 0
+    return json.loads(capsys.readouterr().out), page.read_text()
 
 
-def test_find_page_is_valid_self_contained_html_with_the_failing_gates(capsys):
-    payload, page = _find_page(capsys)
+def test_find_page_is_valid_self_contained_html_with_the_failing_gates(tmp_path, capsys):
+    payload, page = _find_page(tmp_path, capsys)
     html5lib.HTMLParser(strict=True).parse(page)        # raises on any parse error
     assert not re.search(r"(src|href)\s*=|https?://(?!www\.w3\.org/2000/svg)", page)
     for gate in (23, 24, 25):                            # the naive prep's three CNOTs
@@ -42,20 +38,31 @@ def test_find_page_is_valid_self_contained_html_with_the_failing_gates(capsys):
     assert "<title>qubit 25 = a0 (ancilla): readout_error" in page
     assert page.count('class="missing"') == 3
     assert escape(payload["caution"]) in page
+    # The renderer alone gives the same page from the same payload.
+    patch = load_patch(DEMO_PATCH)
+    gates = [g for c in payload["best_audit"]["circuits"] for g in c["off_coupler"]]
+    svg = placement_svg(device, patch, payload["placements"][0]["qubits"], gates,
+                        title=f"{patch.name} on {device.name}")
+    assert render_html(payload, pictures={"best placement": svg}) == page
 
 
-def test_check_and_audit_pages_parse(capsys):
-    assert main(["check", str(ROOT / "samples" / "project.yaml"), "--format", "json",
+def test_check_and_audit_pages_parse(tmp_path, capsys):
+    page = tmp_path / "check.html"
+    assert main(["check", str(ROOT / "samples" / "project.yaml"), "--html", str(page),
                  "--cross-check-top", "0"]) == 1
-    check = json.loads(capsys.readouterr().out)
-    page = render_html(check, pictures={})
-    html5lib.HTMLParser(strict=True).parse(page)
-    assert "FAIL" in page and "flagged_weight4.yaml:23" in page
-    assert main(["audit", str(DEMO_CHIP), str(DEMO_PATCH), "--pick", "1", "--format",
-                 "json"]) == 0
-    page = render_html(json.loads(capsys.readouterr().out), pictures={})
-    html5lib.HTMLParser(strict=True).parse(page)
-    assert "needs routing" in page
+    text = page.read_text()
+    html5lib.HTMLParser(strict=True).parse(text)
+    assert "FAIL" in text and "flagged_weight4.yaml:23" in text
+    assert text.count("<svg") == 2                        # one chip per chip x patch
+    page = tmp_path / "audit.html"
+    assert main(["audit", str(DEMO_CHIP), str(DEMO_PATCH), "--pick", "1", "--html",
+                 str(page)]) == 0
+    html5lib.HTMLParser(strict=True).parse(page.read_text())
+    assert "needs routing" in page.read_text()
+    capsys.readouterr()
+    assert main(["audit", str(DEMO_CHIP), str(DEMO_PATCH), "--pick", "1", "--html",
+                 str(tmp_path / "x.txt")]) == 2
+    assert "ending in .html" in capsys.readouterr().err
 
 
 def _chromium():
@@ -78,9 +85,8 @@ def test_page_renders_in_headless_chromium_without_console_errors(capsys, tmp_pa
     if browser is None:
         pytest.skip("Chromium is not installed (Debian package 'chromium'; .ci/run installs "
                     "it): the browser check did not run")
-    _, page = _find_page(capsys)
+    _find_page(tmp_path, capsys)
     path = tmp_path / "find.html"
-    path.write_text(page)
     console = _render(browser, path, tmp_path / "find.png", tmp_path / "profile")
     assert console == []
     png = (tmp_path / "find.png").read_bytes()
