@@ -112,7 +112,7 @@ def _broadcast(adj: dict[str, set[str]], root: str, targets: set[str]) -> Ops | 
     order = [root]
     seen = {root}
     for u in order:
-        children[u] = [v for v in adj[u] if v not in seen]
+        children[u] = [v for v in sorted(adj[u]) if v not in seen]   # not hash order
         seen.update(children[u])
         order.extend(children[u])
     finish: dict[str, int] = {}
@@ -141,7 +141,7 @@ def _broadcast(adj: dict[str, set[str]], root: str, targets: set[str]) -> Ops | 
         progress = False
         for h in sorted(helpers, key=lambda n: sum(m in holding and m not in targets
                                                    for m in adj[n])):
-            donors = [m for m in adj[h] if m in holding and m != h]
+            donors = [m for m in sorted(adj[h]) if m in holding and m != h]
             others = [m for m in donors if m not in targets]
             if donors and (len(others) <= 1 or any(m in targets for m in donors)):
                 donor = next((m for m in donors if m in targets), donors[0])

@@ -135,7 +135,7 @@ def scores(device: Device, patch: Patch, grid: np.ndarray,
                 if runs <= 0:
                     continue
                 run = total.copy()
-                for q in patch.waiting(name, again):
+                for q in sorted(patch.waiting(name, again), key=patch.index.__getitem__):
                     i = patch.index[q]
                     from_start = np.maximum(finish - busy[i], 0.0)
                     run += np.log1p(-idle_channel(from_start, t1[i], t2[i]).total) - log_base[i]
