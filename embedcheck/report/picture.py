@@ -5,7 +5,8 @@ Colours: couplers and the score map use matplotlib's `cividis` colour map (desig
 to read the same with colour-vision deficiency: Nunez, Anderton & Renslow, PLoS ONE
 13, e0199239 (2018)); roles use three colours from the Okabe-Ito palette (Okabe & Ito,
 "Color Universal Design", 2008) *and* three marker shapes, so they differ even in grey.
-Written as PNG or SVG by the file suffix, with matplotlib's Agg backend (no screen).
+Written as PNG or SVG by the file suffix. Each picture is a `matplotlib.figure.Figure` of its
+own (never pyplot's): no backend is switched, so a notebook's own plots keep working.
 """
 from __future__ import annotations
 
@@ -27,19 +28,21 @@ DEAD = "#D55E00"
 
 
 def _figure(device: Device):
-    import matplotlib
-    matplotlib.use("Agg", force=True)
-    import matplotlib.pyplot as plt
+    # A Figure of its own, not pyplot's: no backend is switched and no global state kept,
+    # so a notebook's own plots keep showing (matplotlib saves a bare Figure to PNG or SVG
+    # with the matching canvas by itself).
+    from matplotlib.figure import Figure
 
     xs = [xy[0] for xy in device.positions.values()] or [0]
     ys = [xy[1] for xy in device.positions.values()] or [0]
     width = max(5.0, min(24.0, (max(xs) - min(xs) + 2) * 0.6))
     height = max(3.5, min(24.0, (max(ys) - min(ys) + 2) * 0.6 + 1.0))
-    fig, ax = plt.subplots(figsize=(width, height), dpi=100)
+    fig = Figure(figsize=(width, height), dpi=100)
+    ax = fig.subplots()
     ax.set_aspect("equal")
     ax.invert_yaxis()                       # row 0 at the top, as the qubits are numbered
     ax.axis("off")
-    return plt, fig, ax
+    return None, fig, ax
 
 
 def _positions(device: Device) -> dict:
@@ -181,13 +184,10 @@ def draw_score_map(device: Device, patch: Patch, placements, success, path=None,
 
 
 def picture_bytes(fig, suffix: str) -> bytes:
-    """The figure as PNG or SVG bytes (`suffix` 'png' or 'svg'); closes the figure."""
+    """The figure as PNG or SVG bytes (`suffix` 'png' or 'svg')."""
     import io
-
-    import matplotlib.pyplot as plt
     buffer = io.BytesIO()
     fig.savefig(buffer, format=suffix, bbox_inches="tight")
-    plt.close(fig)
     return buffer.getvalue()
 
 
