@@ -51,6 +51,7 @@ if TYPE_CHECKING:
     from .place.search import SearchResult, StopReason, find_placements
     from .repair import Repair, project_preparation, repair_preparation, repaired_patch
     from .report.data import check_dict, find_dict
+    from .report.notebook import PlacementView, view
     from .report.picture import draw_placement, draw_score_map
     from .score.cost import (
         CAUTION,
@@ -110,6 +111,7 @@ _WHERE = {
     "repair_preparation": ("repair", None), "repaired_patch": ("repair", None),
     "check_dict": ("report.data", None), "find_dict": ("report.data", None),
     "draw_placement": ("report.picture", None), "draw_score_map": ("report.picture", None),
+    "view": ("report.notebook", None), "PlacementView": ("report.notebook", None),
     "CAUTION": ("score.cost", None), "Ranking": ("score.cost", None),
     "Sensitivity": ("score.cost", None), "SnapshotRanking": ("score.cost", None),
     "rank_across_snapshots": ("score.cost", None), "rank_placements": ("score.cost", None),
@@ -128,7 +130,8 @@ __all__ = [
     "CircuitAudit", "CircuitFit", "Constraints", "CouplerCalibration", "Detector",
     "DetectorProblem", "Device", "FindResult", "InputError", "InternalError", "Lattice",
     "LogicalNote", "LogicalRanking", "MonteCarlo", "NearMiss", "OffCouplerGate", "Operation",
-    "PairResult", "Patch", "Placement", "Project", "QubitCalibration", "Ranking", "Repair",
+    "PairResult", "Patch", "Placement", "PlacementView", "Project", "QubitCalibration",
+    "Ranking", "Repair",
     "RuleOutcome", "Schedule", "SearchResult", "Sensitivity", "SnapshotRanking", "StopReason",
     "Vetting", "audit_placement", "build_constraints", "check_detectors", "check_dict",
     "cross_check", "device_from_target", "device_target", "draw_placement", "draw_score_map",
@@ -138,7 +141,7 @@ __all__ = [
     "patch_from_family", "patch_from_qiskit", "patch_from_stim", "placed_qasm3",
     "project_preparation", "qiskit_layout", "rank_across_snapshots", "rank_by_logical",
     "rank_placements", "repair_preparation", "repaired_patch", "ring", "run_find", "run_project",
-    "schedule_circuit", "sensitivity", "square_grid", "stim_experiment", "vet_patch",
+    "schedule_circuit", "sensitivity", "square_grid", "stim_experiment", "vet_patch", "view",
 ]
 
 

@@ -93,6 +93,16 @@ class AuditReport:
                 "measurements": sum(c.measurements * c.times_run for c in run),
                 "duration_ns": sum(c.duration_ns * c.times_run for c in run)}
 
+    def __repr__(self) -> str:
+        bad = [f"{c.circuit} ({len(c.off_coupler)} off-coupler)" for c in self.circuits
+               if not c.swap_free]
+        verdict = "needs routing: " + ", ".join(bad) if bad else "every circuit swap-free"
+        return f"AuditReport({self.placement!r}: {verdict})"
+
+    def _repr_html_(self) -> str:
+        from ..report.notebook import html_of  # display hook: see DEVELOPERS.md
+        return html_of(self)
+
 
 def audit_placement(device: Device, patch: Patch, placement: Placement, *,
                     router_estimate: bool = False, seed: int = 11) -> AuditReport:

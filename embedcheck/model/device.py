@@ -281,3 +281,17 @@ class Device:
             measurement_ns_given=given("measurement_duration_ns"),
             t1_us=qubit_array("t1_us", np.inf), t2_us=qubit_array("t2_us", np.inf),
             median_two_qubit_ns=float(np.median(known)) if known.size else 0.0)
+
+    def __repr__(self) -> str:
+        dead = f", dead: {len(self.dead_qubits)} qubits and {len(self.dead_couplers)} " \
+               "couplers" if self.dead_qubits or self.dead_couplers else ""
+        when = f", calibration of {self.calibration_timestamp}" \
+            if self.calibration_timestamp else ""
+        return (f"Device({self.name!r}: {len(self.qubits)} qubits, {len(self.couplers)} "
+                f"couplers{dead}, native {self.native_two_qubit_gate}{when})")
+
+    def _repr_html_(self) -> str:
+        from ..report.notebook import html_of  # display hook: see DEVELOPERS.md
+        return html_of(self)
+
+

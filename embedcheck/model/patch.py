@@ -205,6 +205,19 @@ class Patch:
                 out += [(name, rep, op) for op in measures]
         return out
 
+    def __repr__(self) -> str:
+        counts: dict[str, int] = {}
+        for q in self.qubits:
+            counts[self.roles[q]] = counts.get(self.roles[q], 0) + 1
+        roles = ", ".join(f"{n} {r}" for r, n in counts.items())
+        return (f"Patch({self.name!r}: {len(self.qubits)} qubits ({roles}); circuits "
+                f"{', '.join(self.circuits)}; {self.rounds} round(s), {len(self.detectors)} "
+                "detectors)")
+
+    def _repr_html_(self) -> str:
+        from ..report.notebook import html_of  # display hook: see DEVELOPERS.md
+        return html_of(self)
+
 
 def experiment_order(circuits: Mapping[str, Circuit], rounds: int) -> list[tuple[str, int]]:
     """(circuit, times run) in experiment order for the circuits present."""

@@ -40,6 +40,13 @@ class Placement:
     def as_dict(self, patch: Patch) -> dict[str, int]:
         return dict(zip(patch.qubits, self.physical, strict=False))
 
+    def __repr__(self) -> str:
+        return f"Placement{tuple(self.physical)!r}"
+
+    def _repr_html_(self) -> str:
+        from ..report.notebook import html_of  # display hook: see DEVELOPERS.md
+        return html_of(self)
+
 
 def placement_grid(placements: Sequence[Placement], num_qubits: int) -> np.ndarray:
     """Placements as an int array of shape (placements, patch qubits), for vectorised scoring."""

@@ -67,6 +67,14 @@ class FindResult:
     snapshots: SnapshotRanking | None = None
     sdk: SdkComparison | None = None
 
+    def __repr__(self) -> str:
+        by = self.logical.figure if self.logical is not None else self.vetting.ranking.figure
+        return f"FindResult({self.vetting!r}, ranked by {by})"
+
+    def _repr_html_(self) -> str:
+        from ..report.notebook import html_of  # display hook: see DEVELOPERS.md
+        return html_of(self)
+
 
 def run_find(snapshots: Sequence[Device], patch: Patch, *, limit: int | None = 100_000,
              budget_s: float | None = 60.0, constraints: Constraints | None = None,

@@ -77,6 +77,17 @@ class Vetting:
         """True when every stage finished: the verdicts are answers, not budget cut-offs."""
         return self.search.complete and not self.inconclusive
 
+    def __repr__(self) -> str:
+        verdict = "every circuit swap-free" if self.all_swap_free else \
+            f"needs routing: {', '.join(self.excluded) or 'no placement'}"
+        done = "" if self.complete else ", INCOMPLETE"
+        return (f"Vetting({self.patch.name} on {self.device.name}: "
+                f"{len(self.ranking.placements)} placement(s), {verdict}{done})")
+
+    def _repr_html_(self) -> str:
+        from ..report.notebook import html_of  # display hook: see DEVELOPERS.md
+        return html_of(self)
+
 
 def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
               budget_s: float | None = 60.0,

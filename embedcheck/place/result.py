@@ -49,3 +49,14 @@ class SearchResult:
     @property
     def complete(self) -> bool:
         return self.stop_reason is StopReason.COMPLETE
+
+    def __repr__(self) -> str:
+        return (f"SearchResult({len(self.placements)} placement(s) of "
+                f"{', '.join(self.circuits)}; {self.stop_reason.value}; "
+                f"{self.elapsed_s:.2f} s)")
+
+    def _repr_html_(self) -> str:
+        from ..report.notebook import html_of  # display hook: see DEVELOPERS.md
+        return html_of(self)
+
+

@@ -33,11 +33,17 @@ def _figure(device: Device):
     # with the matching canvas by itself).
     from matplotlib.figure import Figure
 
+    class Picture(Figure):
+        """A Figure that shows itself in a notebook (as PNG) without pyplot."""
+
+        def _repr_png_(self) -> bytes:
+            return picture_bytes(self, "png")
+
     xs = [xy[0] for xy in device.positions.values()] or [0]
     ys = [xy[1] for xy in device.positions.values()] or [0]
     width = max(5.0, min(24.0, (max(xs) - min(xs) + 2) * 0.6))
     height = max(3.5, min(24.0, (max(ys) - min(ys) + 2) * 0.6 + 1.0))
-    fig = Figure(figsize=(width, height), dpi=100)
+    fig = Picture(figsize=(width, height), dpi=100)
     ax = fig.subplots()
     ax.set_aspect("equal")
     ax.invert_yaxis()                       # row 0 at the top, as the qubits are numbered

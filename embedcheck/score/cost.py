@@ -85,6 +85,14 @@ class Ranking:
     def success(self) -> np.ndarray:
         return np.exp(self.log_success)
 
+    def __repr__(self) -> str:
+        best = f", best {float(self.success[0]):.4g}" if len(self.placements) else ""
+        return f"Ranking({self.figure}: {len(self.placements)} placement(s){best})"
+
+    def _repr_html_(self) -> str:
+        from ..report.notebook import html_of  # display hook: see DEVELOPERS.md
+        return html_of(self)
+
 
 def experiment_counts(patch: Patch) -> tuple[dict[tuple[int, int], int], np.ndarray,
                                              np.ndarray, np.ndarray]:
