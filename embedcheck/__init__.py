@@ -53,6 +53,7 @@ if TYPE_CHECKING:
     from .report.data import check_dict, find_dict
     from .report.notebook import PlacementView, view
     from .report.picture import draw_placement, draw_score_map
+    from .score.calibrated import noisy, noisy_tasks
     from .score.cost import (
         CAUTION,
         Ranking,
@@ -112,6 +113,7 @@ _WHERE = {
     "check_dict": ("report.data", None), "find_dict": ("report.data", None),
     "draw_placement": ("report.picture", None), "draw_score_map": ("report.picture", None),
     "view": ("report.notebook", None), "PlacementView": ("report.notebook", None),
+    "noisy": ("score.calibrated", None), "noisy_tasks": ("score.calibrated", None),
     "CAUTION": ("score.cost", None), "Ranking": ("score.cost", None),
     "Sensitivity": ("score.cost", None), "SnapshotRanking": ("score.cost", None),
     "rank_across_snapshots": ("score.cost", None), "rank_placements": ("score.cost", None),
@@ -137,7 +139,8 @@ __all__ = [
     "cross_check", "device_from_target", "device_target", "draw_placement", "draw_score_map",
     "fault_distance", "fault_distance_at_most", "find_dict", "find_placements", "heavy_hex",
     "heavy_hex_qubit_count", "hexagonal", "initial_layout", "line", "load_device", "load_patch",
-    "load_project", "load_snapshots", "near_misses", "noisy_circuit", "off_coupler_counts",
+    "load_project", "load_snapshots", "near_misses", "noisy", "noisy_circuit", "noisy_tasks",
+    "off_coupler_counts",
     "patch_from_family", "patch_from_qiskit", "patch_from_stim", "placed_qasm3",
     "project_preparation", "qiskit_layout", "rank_across_snapshots", "rank_by_logical",
     "rank_placements", "repair_preparation", "repaired_patch", "ring", "run_find", "run_project",
