@@ -7,7 +7,6 @@ and the texts of the files we generate (a family's chip file, a repaired patch f
 from __future__ import annotations
 
 import os
-import tempfile
 from collections.abc import Iterable
 from pathlib import Path
 from typing import Any
@@ -30,23 +29,12 @@ def write_atomic(path: str | Path, text: str) -> None:
 
 
 def write_atomic_bytes(path: str | Path, data: bytes) -> None:
-    """Write `data` to `path` through a temporary file in the same folder and a rename."""
-    path = Path(path)
-    folder = path.parent if str(path.parent) else Path(".")
-    if not folder.is_dir():
-        raise InputError(f"folder '{folder}' does not exist", file=str(path))
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", dir=folder)
-    try:
-        with os.fdopen(fd, "wb") as out:
-            out.write(data)
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)          # mkstemp makes 0600; files are the user's
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
+    """Write `data` to `path` through a temporary file in the same folder and a rename
+    (`files.Outputs`: never over a file this run read, never half-written)."""
+    from .files import Outputs
+    outputs = Outputs()
+    outputs.claim(path, option="output")
+    outputs.commit({path: data})
 
 
 def family_chip_yaml(kind: str, name: str, **size: int) -> str:
