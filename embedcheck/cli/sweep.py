@@ -147,14 +147,4 @@ def _progress_bar():
 
 def _check_database(database: str, outputs) -> None:
     """The results file must not be an input, and if it exists it must be an SQLite file."""
-    from pathlib import Path
-
-    from ..errors import InputError
-    path = Path(database)
-    outputs.vet(path, option="database")        # not an input, its folder writable
-    if path.exists():
-        with open(path, "rb") as handle:
-            head = handle.read(16)
-        if head and head != b"SQLite format 3\0":
-            raise InputError("is not an SQLite results database; will not write to it",
-                             file=database)
+    outputs.vet_database(database, option="database")

@@ -156,6 +156,19 @@ class Outputs:
         _probe(folder, file, option)
         return target
 
+    def vet_database(self, path: str | Path, *, option: str) -> Path:
+        """`vet` for an SQLite file updated in place (sweep results, forecast samples): it
+        must not be an input, its folder must be writable, and a file already there must
+        be an SQLite database (anything else is refused, never written over)."""
+        target = self.vet(path, option=option)
+        if target.exists():
+            with open(target, "rb") as handle:
+                head = handle.read(16)
+            if head and head != b"SQLite format 3\0":
+                raise InputError(f"{option}: is not an SQLite database; will not write to it",
+                                 file=str(path))
+        return target
+
     def claimed(self) -> list[Path]:
         """The claimed paths, in claim order."""
         return [t for t, _, _ in self._claims.values()]

@@ -12,8 +12,9 @@ calibration as numpy arrays) are computed once, on first use (`functools.cached_
 """
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from functools import cached_property
 from types import MappingProxyType
 from typing import TYPE_CHECKING, Any
@@ -28,7 +29,7 @@ if TYPE_CHECKING:
     import rustworkx as rx
 
 __all__ = ["CalibrationArrays", "CouplerCalibration", "Device", "Pair", "QubitCalibration",
-           "pair"]
+           "pair", "scaled_device"]
 
 _DENSE_LIMIT = 4096      # qubits up to which coupler look-ups use a dense table
 
@@ -295,3 +296,50 @@ class Device:
         return html_of(self)
 
 
+# The largest value each figure can take when scaled up: a flip probability 1/2, and the
+# average gate error of the completely depolarizing channel, (d - 1) / d for d = 2, 4
+# (Nielsen, Phys. Lett. A 303, 249 (2002)).
+_ERROR_CEILING = {"readout_error": 0.5, "reset_error": 0.5, "single_qubit_error": 0.5,
+                  "two_qubit_error": 0.75}
+
+
+def scaled_device(device: Device, factor: float) -> Device:
+    """The chip with every error figure times `factor` and T1, T2 divided by it.
+
+    One knob for "a better or worse calibration of the same chip" (`factor` 1 is the chip
+    itself): two-qubit, single-qubit, readout and reset errors are multiplied (each capped
+    at the largest value it can take), coherence times divided, so the idle error of a
+    wait of length t (1 - exp(-t/T), Ghosh, Fowler & Geller, Phys. Rev. A 86, 062318
+    (2012)) scales by the same factor to first order. Durations, couplers, dead parts and
+    the rest stay as they are. The forecast draws its logical-versus-physical curves
+    with it.
+
+    >>> from embedcheck.model.lattices import line
+    >>> chip = Device.from_lattice(line(2), name="pair",
+    ...     coupler_calibration={(0, 1): CouplerCalibration(0.01, 300.0)},
+    ...     qubit_calibration={0: QubitCalibration(readout_error=0.02, t1_us=100.0)})
+    >>> half = scaled_device(chip, 0.5)
+    >>> half.coupler_calibration[(0, 1)], half.qubit_calibration[0].t1_us
+    (CouplerCalibration(two_qubit_error=0.005, duration_ns=300.0), 200.0)
+    """
+    if isinstance(factor, bool) or not isinstance(factor, (int, float)) \
+            or not math.isfinite(factor) or factor <= 0:
+        raise InputError(f"a calibration scale must be a positive number, not {factor!r}",
+                         key="scale")
+    if factor == 1:
+        return device
+
+    def error(name: str, value: float | None) -> float | None:
+        return None if value is None else min(value * factor, _ERROR_CEILING[name])
+
+    def coherence(value: float | None) -> float | None:
+        return None if value is None else value / factor
+
+    qubits = {q: replace(c, readout_error=error("readout_error", c.readout_error),
+                         single_qubit_error=error("single_qubit_error", c.single_qubit_error),
+                         reset_error=error("reset_error", c.reset_error),
+                         t1_us=coherence(c.t1_us), t2_us=coherence(c.t2_us))
+              for q, c in device.qubit_calibration.items()}
+    couplers = {c: replace(cal, two_qubit_error=error("two_qubit_error", cal.two_qubit_error))
+                for c, cal in device.coupler_calibration.items()}
+    return replace(device, qubit_calibration=qubits, coupler_calibration=couplers)

@@ -22,6 +22,7 @@ flipping the observable with probability p_round: common practice).
 """
 from __future__ import annotations
 
+import functools
 import math
 import sqlite3
 from dataclasses import dataclass, field
@@ -69,20 +70,22 @@ def per_round(per_shot: float, rounds: int) -> float:
 
 
 def sample_decoded(circuit, *, shots: int, max_errors: int | None = None,
-                   seed: int | None = None, dem=None) -> DecodedStats:
+                   seed: int | None = None, dem=None, matching=None) -> DecodedStats:
     """Sample and decode `circuit` until `shots` or `max_errors` (see the module docstring).
 
     `dem`: the circuit's detector error model with `decompose_errors=True`, when the caller
-    already has it. Raises `ValueError` when stim cannot make the model graph-like.
+    already has it; `matching`: the `pymatching.Matching` built from it (the model is then
+    not needed). Raises `ValueError` when stim cannot make the model graph-like.
     """
     import time
 
     import numpy as np
     import pymatching
     started = time.perf_counter()
-    if dem is None:
-        dem = circuit.detector_error_model(decompose_errors=True)
-    matching = pymatching.Matching.from_detector_error_model(dem)
+    if matching is None:
+        if dem is None:
+            dem = circuit.detector_error_model(decompose_errors=True)
+        matching = pymatching.Matching.from_detector_error_model(dem)
     sampler = circuit.compile_detector_sampler(seed=seed)
     done = errors = 0
     batch = 256
@@ -133,9 +136,23 @@ class SampleStore:
 
 
 def sample_chunk(job: dict) -> DecodedStats:
-    """One chunk of one point (runs on a worker): sample `shots` of the stim circuit text."""
+    """One chunk of one point (runs on a worker): sample `shots` of the stim circuit text.
+
+    The circuit and its matching graph are kept per worker process for the last few
+    circuits seen (`_decoder`), so the many chunks of one point build them once.
+    """
+    circuit, matching = _decoder(job["circuit"])
+    return sample_decoded(circuit, shots=job["shots"], seed=job["seed"], matching=matching)
+
+
+@functools.lru_cache(maxsize=8)
+def _decoder(text: str):
+    """The stim circuit of `text` and pymatching's decoder for it (cached per process)."""
+    import pymatching
     import stim
-    return sample_decoded(stim.Circuit(job["circuit"]), shots=job["shots"], seed=job["seed"])
+    circuit = stim.Circuit(text)
+    dem = circuit.detector_error_model(decompose_errors=True)
+    return circuit, pymatching.Matching.from_detector_error_model(dem)
 
 
 def chunk_seed(key: str, chunk: int, seed: int) -> int:
