@@ -32,7 +32,7 @@ if TYPE_CHECKING:
     from .model.codes import FAMILIES as CODE_FAMILIES
     from .model.constraints import Constraints
     from .model.constraints import build as build_constraints
-    from .model.device import CouplerCalibration, Device, QubitCalibration
+    from .model.device import CouplerCalibration, Device, QubitCalibration, scaled_device
     from .model.lattices import (
         Lattice,
         heavy_hex,
@@ -46,11 +46,13 @@ if TYPE_CHECKING:
     from .model.placement import Placement, off_coupler_counts
     from .pipeline.checks import CheckResult, PairResult, RuleOutcome, run_project
     from .pipeline.find import FindResult, LogicalNote, run_find
+    from .pipeline.forecast import Forecast, run_forecast
     from .pipeline.vet import CircuitFit, Vetting, vet_patch
     from .place.near_misses import NearMiss, near_misses
     from .place.search import SearchResult, StopReason, find_placements
     from .repair import Repair, project_preparation, repair_preparation, repaired_patch
     from .report.data import check_dict, find_dict
+    from .report.forecast import draw_forecast, forecast_dict
     from .report.notebook import PlacementView, view
     from .report.picture import draw_placement, draw_score_map
     from .score.calibrated import noisy, noisy_tasks
@@ -91,7 +93,7 @@ _WHERE = {
     "Constraints": ("model.constraints", None),
     "build_constraints": ("model.constraints", "build"),
     "CouplerCalibration": ("model.device", None), "Device": ("model.device", None),
-    "QubitCalibration": ("model.device", None),
+    "QubitCalibration": ("model.device", None), "scaled_device": ("model.device", None),
     "Lattice": ("model.lattices", None), "heavy_hex": ("model.lattices", None),
     "heavy_hex_qubit_count": ("model.lattices", None), "hexagonal": ("model.lattices", None),
     "line": ("model.lattices", None), "ring": ("model.lattices", None),
@@ -103,6 +105,7 @@ _WHERE = {
     "RuleOutcome": ("pipeline.checks", None), "run_project": ("pipeline.checks", None),
     "FindResult": ("pipeline.find", None), "LogicalNote": ("pipeline.find", None),
     "run_find": ("pipeline.find", None),
+    "Forecast": ("pipeline.forecast", None), "run_forecast": ("pipeline.forecast", None),
     "CircuitFit": ("pipeline.vet", None), "Vetting": ("pipeline.vet", None),
     "vet_patch": ("pipeline.vet", None),
     "NearMiss": ("place.near_misses", None), "near_misses": ("place.near_misses", None),
@@ -111,6 +114,7 @@ _WHERE = {
     "Repair": ("repair", None), "project_preparation": ("repair", None),
     "repair_preparation": ("repair", None), "repaired_patch": ("repair", None),
     "check_dict": ("report.data", None), "find_dict": ("report.data", None),
+    "draw_forecast": ("report.forecast", None), "forecast_dict": ("report.forecast", None),
     "draw_placement": ("report.picture", None), "draw_score_map": ("report.picture", None),
     "view": ("report.notebook", None), "PlacementView": ("report.notebook", None),
     "noisy": ("score.calibrated", None), "noisy_tasks": ("score.calibrated", None),
@@ -130,21 +134,21 @@ _WHERE = {
 __all__ = [
     "__version__", "AuditReport", "CAUTION", "CODE_FAMILIES", "CheckResult", "Circuit",
     "CircuitAudit", "CircuitFit", "Constraints", "CouplerCalibration", "Detector",
-    "DetectorProblem", "Device", "FindResult", "InputError", "InternalError", "Lattice",
-    "LogicalNote", "LogicalRanking", "MonteCarlo", "NearMiss", "OffCouplerGate", "Operation",
-    "PairResult", "Patch", "Placement", "PlacementView", "Project", "QubitCalibration",
-    "Ranking", "Repair",
-    "RuleOutcome", "Schedule", "SearchResult", "Sensitivity", "SnapshotRanking", "StopReason",
-    "Vetting", "audit_placement", "build_constraints", "check_detectors", "check_dict",
-    "cross_check", "device_from_target", "device_target", "draw_placement", "draw_score_map",
-    "fault_distance", "fault_distance_at_most", "find_dict", "find_placements", "heavy_hex",
+    "__version__", "DetectorProblem", "Device", "FindResult", "Forecast", "InputError",
+    "InternalError", "Lattice", "LogicalNote", "LogicalRanking", "MonteCarlo", "NearMiss",
+    "OffCouplerGate", "Operation", "PairResult", "Patch", "Placement", "PlacementView", "Project",
+    "QubitCalibration", "Ranking", "Repair", "RuleOutcome", "Schedule", "SearchResult",
+    "Sensitivity", "SnapshotRanking", "StopReason", "Vetting", "audit_placement",
+    "build_constraints", "check_detectors", "check_dict", "cross_check", "device_from_target",
+    "device_target", "draw_forecast", "draw_placement", "draw_score_map", "fault_distance",
+    "fault_distance_at_most", "find_dict", "find_placements", "forecast_dict", "heavy_hex",
     "heavy_hex_qubit_count", "hexagonal", "initial_layout", "line", "load_device", "load_patch",
     "load_project", "load_snapshots", "near_misses", "noisy", "noisy_circuit", "noisy_tasks",
-    "off_coupler_counts",
-    "patch_from_family", "patch_from_qiskit", "patch_from_stim", "placed_qasm3",
-    "project_preparation", "qiskit_layout", "rank_across_snapshots", "rank_by_logical",
-    "rank_placements", "repair_preparation", "repaired_patch", "ring", "run_find", "run_project",
-    "schedule_circuit", "sensitivity", "square_grid", "stim_experiment", "vet_patch", "view",
+    "off_coupler_counts", "patch_from_family", "patch_from_qiskit", "patch_from_stim",
+    "placed_qasm3", "project_preparation", "qiskit_layout", "rank_across_snapshots",
+    "rank_by_logical", "rank_placements", "repair_preparation", "repaired_patch", "ring",
+    "run_find", "run_forecast", "run_project", "scaled_device", "schedule_circuit", "sensitivity",
+    "square_grid", "stim_experiment", "vet_patch", "view",
 ]
 
 

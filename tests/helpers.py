@@ -46,3 +46,27 @@ def random_calibration(device, seed):
             t1_us=rng.uniform(60, 200), t2_us=rng.uniform(40, 120),
             single_qubit_duration_ns=36.0, measurement_duration_ns=900.0)
             for q in device.qubits})
+
+
+def uniform_chip(lattice, p, *, idle, tau_ns=100.0, name="uniform"):
+    """An invented chip on `lattice` whose every stim noise channel has probability `p`.
+
+    Two-qubit error 4p/5 (DEPOLARIZE2(p)), single-qubit error 2p/3 (DEPOLARIZE1(p)),
+    readout and reset flips p (the conversions of `score.noise`, Nielsen 2002). Every
+    duration is `tau_ns`. With `idle`, T1 = T2 = -tau / ln(1 - 4p/3), so that a wait of
+    one duration is the idle channel px = py = pz = p/3, i.e. DEPOLARIZE1(p) (Ghosh,
+    Fowler & Geller 2012): a standard circuit-noise model in which every step a qubit
+    waits costs p, as in Fowler, Mariantoni, Martinis & Cleland, Phys. Rev. A 86, 032324
+    (2012). Without `idle`, waiting is free (no T1, T2), as in stim's generated circuits
+    with no data depolarization.
+    """
+    import math
+    t_us = -tau_ns / math.log(1 - 4 * p / 3) / 1000 if idle else None
+    from embedcheck import Device
+    return Device.from_lattice(
+        lattice, name=name,
+        coupler_calibration={c: CouplerCalibration(4 * p / 5, tau_ns) for c in lattice.couplers},
+        qubit_calibration={q: QubitCalibration(
+            readout_error=p, single_qubit_error=2 * p / 3, reset_error=p, t1_us=t_us,
+            t2_us=t_us, single_qubit_duration_ns=tau_ns, measurement_duration_ns=tau_ns)
+            for q in lattice.qubits})

@@ -19,12 +19,12 @@ import sys
 
 from ..errors import InputError, InternalError
 from ..version import __version__
-from . import audit, check, code, draw, find, generate, repair, show, sweep, validate
+from . import audit, check, code, draw, find, forecast, generate, repair, show, sweep, validate
 from .options import Parser
 
 __all__ = ["COMMANDS", "build_parser", "main"]
 
-COMMANDS = (find, draw, audit, validate, check, repair, code, show, generate, sweep)
+COMMANDS = (find, draw, audit, validate, check, repair, code, show, generate, sweep, forecast)
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -45,7 +45,7 @@ def main(argv: list[str] | None = None) -> int:
         args = build_parser().parse_args(argv)
         if not getattr(args, "command", None):
             raise InputError("give a command: find, audit, check, repair, draw, code, validate, "
-                             "show, generate or sweep (see 'embedcheck --help')")
+                             "show, generate, sweep or forecast (see 'embedcheck --help')")
         code: int = args.run(args)
         return code
     except InputError as err:
