@@ -112,10 +112,18 @@ class SampleStore:
 
     def __init__(self, path: str) -> None:
         self.path = path
-        self.db = sqlite3.connect(path, isolation_level=None)
-        self.db.execute("CREATE TABLE IF NOT EXISTS chunks (key TEXT NOT NULL, chunk INTEGER "
-                        "NOT NULL, shots INTEGER NOT NULL, errors INTEGER NOT NULL, seconds "
-                        "REAL NOT NULL, PRIMARY KEY (key, chunk))")
+        self._db: sqlite3.Connection | None = None
+
+    @property
+    def db(self) -> sqlite3.Connection:
+        """The connection, opened on first use: a run that fails on bad input before it
+        samples leaves no file behind."""
+        if self._db is None:
+            self._db = sqlite3.connect(self.path, isolation_level=None)
+            self._db.execute("CREATE TABLE IF NOT EXISTS chunks (key TEXT NOT NULL, chunk "
+                             "INTEGER NOT NULL, shots INTEGER NOT NULL, errors INTEGER NOT "
+                             "NULL, seconds REAL NOT NULL, PRIMARY KEY (key, chunk))")
+        return self._db
 
     def add(self, key: str, chunk: int, stats: DecodedStats) -> None:
         self.db.execute("INSERT OR REPLACE INTO chunks VALUES (?, ?, ?, ?, ?)",
@@ -132,7 +140,9 @@ class SampleStore:
         return DecodedStats(shots=int(shots), errors=int(errors), seconds=float(seconds))
 
     def close(self) -> None:
-        self.db.close()
+        if self._db is not None:
+            self._db.close()
+            self._db = None
 
 
 def sample_chunk(job: dict) -> DecodedStats:
