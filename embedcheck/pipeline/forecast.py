@@ -27,12 +27,10 @@ chip's calibration:
    units of today's calibration (s = 1), also given as a two-qubit error (s times the
    median two-qubit error of the chip's live couplers).
 
-Sampling is split into chunks, each a task on an `engine` executor (serial, local
-processes or Dask). Chunk k of a point has min(chunk_shots, first_chunk * 2^k) shots and
-its own fixed seed (`chunk_seed`), and each point runs its chunks one after another until
-it has `shots` shots or `max_errors` logical errors, so the counts do not depend on the
-executor. Every finished chunk is stored at once in a `SampleStore` (SQLite) keyed by
-the exact noisy circuit text and the seed: an interrupted run resumes where it stopped
+Sampling goes through `score.sampling.sample_in_chunks`: chunks with fixed seeds, each a
+task on an `engine` executor (serial, local processes or Dask), each stored in a
+`SampleStore` (SQLite) as it finishes, keyed by the exact noisy circuit text and the seed.
+So the counts do not depend on the executor, an interrupted run resumes where it stopped
 without losing a finished chunk, and a rerun with more shots only adds. `budget_s` stops
 sending new chunks after that many seconds; points then carry what they have and the
 forecast says it is incomplete. These are model estimates from the calibration supplied,
@@ -55,12 +53,11 @@ from __future__ import annotations
 
 import math
 import statistics
-import time
 from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass
 from typing import Union
 
-from ..engine import Done, Executor, SerialExecutor, Task
+from ..engine import Executor, SerialExecutor
 from ..errors import InputError, InternalError
 from ..io.patchfile import patch_from_family
 from ..model.codes import FAMILIES
@@ -69,7 +66,7 @@ from ..model.patch import Patch
 from ..model.placement import Placement
 from ..score.logical import wilson
 from ..score.noise import noisy_circuit
-from ..score.sampling import SampleStore, chunk_seed, circuit_key, per_round, sample_chunk
+from ..score.sampling import SampleStore, circuit_key, per_round, sample_in_chunks
 from .vet import vet_patch
 
 __all__ = ["DEFAULT_RANKING", "DEFAULT_SCALES", "FORECAST_FAMILIES", "RANKINGS", "Crossing",
@@ -282,9 +279,11 @@ def run_forecast(device: Device, family: str, *, distances: Sequence[int] | None
                 key = circuit_key(text, seed)
                 texts[key] = text
                 planned.append((search, which, scale, key))
-    sampled = _sample(texts, shots=shots, max_errors=max_errors, chunk_shots=chunk_shots,
-                      first_chunk=first_chunk, budget_s=budget_s, executor=executor,
-                      store=store, seed=seed, progress=progress)
+    sampled = sample_in_chunks(
+        texts, shots=shots, max_errors=max_errors, chunk_shots=chunk_shots,
+        first_chunk=first_chunk, budget_s=budget_s, executor=executor, store=store, seed=seed,
+        progress=None if progress is None else lambda done, total: progress("sample", done,
+                                                                           total))
     points = []
     for search, which, scale, key in planned:
         total = store.total(key)
@@ -302,7 +301,7 @@ def run_forecast(device: Device, family: str, *, distances: Sequence[int] | None
         points=tuple(points), suppression=_suppression(points, kept, scale_list),
         crossings=_crossings(points, kept, scale_list, median_error),
         median_two_qubit_error=median_error, shots=shots, max_errors=max_errors, seed=seed,
-        reused_shots=sampled.reused, new_shots=sampled.new,
+        reused_shots=sampled.reused_shots, new_shots=sampled.new_shots,
         stopped_by_budget=sampled.stopped_by_budget)
 
 
@@ -386,61 +385,6 @@ def _search(device, family, distances, max_distance, rounds, basis, ranker, limi
     if progress is not None:
         progress("search", len(todo), len(todo))
     return tuple(out)
-
-
-@dataclass(frozen=True, kw_only=True)
-class _Sampled:
-    reused: int
-    new: int
-    stopped_by_budget: bool
-
-
-def _sample(texts: dict[str, str], *, shots, max_errors, chunk_shots, first_chunk, budget_s,
-            executor: Executor, store: SampleStore, seed, progress) -> _Sampled:
-    """Sample every circuit in chunks until its shots or errors (see the module docstring)."""
-    deadline = None if budget_s is None else time.monotonic() + budget_s
-    totals = {key: store.total(key) for key in texts}
-    reused = sum(t.shots for t in totals.values())
-    chunks = {key: len(store.chunks(key)) for key in texts}
-    state = {"new": 0, "late": False}
-
-    def done(key: str) -> bool:
-        t = totals[key]
-        return t.shots >= shots or t.errors >= max_errors
-
-    def planned() -> int:
-        return sum(totals[k].shots if done(k) else shots for k in texts)
-
-    def next_task(key: str) -> list[Task]:
-        if done(key):
-            return []
-        if deadline is not None and time.monotonic() > deadline:
-            state["late"] = True
-            return []
-        index = chunks[key]
-        n = min(chunk_shots, first_chunk * 2 ** min(index, 40), shots - totals[key].shots)
-        job = {"circuit": texts[key], "shots": n, "seed": chunk_seed(key, index, seed)}
-        return [Task(key=f"{key}:{index}", function=sample_chunk, argument=job)]
-
-    def follow(finished: Done) -> list[Task]:
-        key, index = finished.key.split(":")
-        if finished.error:
-            raise InternalError(f"sampling a forecast point failed: {finished.error} (finished "
-                                "chunks are stored; rerun to resume)")
-        store.add(key, int(index), finished.value)
-        totals[key] = totals[key] + finished.value
-        chunks[key] = int(index) + 1
-        state["new"] += finished.value.shots
-        if progress is not None:
-            progress("sample", sum(t.shots for t in totals.values()), planned())
-        return next_task(key)
-
-    first = [task for key in texts for task in next_task(key)]
-    if progress is not None:
-        progress("sample", sum(t.shots for t in totals.values()), planned())
-    for _ in executor.results(first, follow=follow):
-        pass
-    return _Sampled(reused=reused, new=state["new"], stopped_by_budget=bool(state["late"]))
 
 
 def _best(points: Sequence[ForecastPoint], distance: int,

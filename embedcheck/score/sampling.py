@@ -29,8 +29,9 @@ from dataclasses import dataclass, field
 
 from .logical import wilson
 
-__all__ = ["DecodedStats", "SampleStore", "per_round", "sample_adaptively", "sample_chunk",
-           "sample_decoded", "wilson"]
+__all__ = ["ChunkedRun", "DecodedStats", "SampleStore", "chunk_seed", "circuit_key",
+           "per_round", "sample_adaptively", "sample_chunk", "sample_decoded",
+           "sample_in_chunks", "wilson"]
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -235,3 +236,86 @@ def sample_adaptively(circuits, *, max_shots: int, first_shots: int | None = Non
         open_ = [n for n in sorted(texts) if totals[n].shots < max_shots
                  and (n == leader or totals[n].interval()[0] <= top)]
     return {name: store.total(keys[name]) for name in texts}
+
+
+@dataclass(frozen=True, kw_only=True)
+class ChunkedRun:
+    """What one call of `sample_in_chunks` did (the counts themselves are in the store)."""
+
+    reused_shots: int            # found stored when the call started (resume)
+    new_shots: int               # sampled by this call
+    stopped_by_budget: bool
+
+
+def sample_in_chunks(circuits, *, shots: int, max_errors: int, store: SampleStore,
+                     executor=None, chunk_shots: int = 10_000, first_chunk: int = 1_000,
+                     budget_s: float | None = None, seed: int = 1,
+                     progress=None) -> ChunkedRun:
+    """Sample every circuit until it has `shots` shots or `max_errors` logical errors.
+
+    `circuits`: store key -> stim circuit text (keys from `circuit_key(text, seed)`).
+    Chunk k of a circuit has min(chunk_shots, first_chunk * 2^k) shots (the first ones
+    small, so a circuit far above threshold stops at `max_errors` early) and the fixed
+    seed `chunk_seed(key, k, seed)`; a circuit's chunks run one after another, different
+    circuits side by side on the `executor`, so the counts do not depend on the executor.
+    Each finished chunk is stored at once: an interrupted call loses no finished chunk,
+    and the next call goes on from the chunks stored. `budget_s` stops sending new chunks
+    after that many seconds. `progress(shots, shots planned)` is called after each stored
+    chunk (and once at the start); an exception it raises stops the call.
+
+    >>> import stim
+    >>> text = str(stim.Circuit.generated("repetition_code:memory", distance=3, rounds=2,
+    ...                                   after_clifford_depolarization=0.05))
+    >>> store = SampleStore(":memory:")
+    >>> run = sample_in_chunks({circuit_key(text, 1): text}, shots=2500, max_errors=10**6,
+    ...                        store=store, first_chunk=1000)
+    >>> run.new_shots, store.chunks(circuit_key(text, 1))
+    (2500, [0, 1])
+    """
+    import time
+
+    from ..engine import SerialExecutor, Task
+    executor = executor or SerialExecutor()
+    deadline = None if budget_s is None else time.monotonic() + budget_s
+    totals = {key: store.total(key) for key in circuits}
+    reused = sum(t.shots for t in totals.values())
+    taken = {key: len(store.chunks(key)) for key in circuits}
+    state = {"new": 0, "late": False}
+
+    def done(key: str) -> bool:
+        return totals[key].shots >= shots or totals[key].errors >= max_errors
+
+    def report() -> None:
+        if progress is not None:
+            progress(sum(t.shots for t in totals.values()),
+                     sum(totals[k].shots if done(k) else shots for k in circuits))
+
+    def next_task(key: str) -> list:
+        if done(key):
+            return []
+        if deadline is not None and time.monotonic() > deadline:
+            state["late"] = True
+            return []
+        index = taken[key]
+        n = min(chunk_shots, first_chunk * 2 ** min(index, 40), shots - totals[key].shots)
+        job = {"circuit": circuits[key], "shots": n, "seed": chunk_seed(key, index, seed)}
+        return [Task(key=f"{key}:{index}", function=sample_chunk, argument=job)]
+
+    def follow(finished) -> list:
+        key, index = finished.key.split(":")
+        if finished.error:
+            raise RuntimeError(f"sampling failed: {finished.error} (finished chunks are "
+                               "stored; rerun to resume)")
+        store.add(key, int(index), finished.value)
+        totals[key] = totals[key] + finished.value
+        taken[key] = int(index) + 1
+        state["new"] += finished.value.shots
+        report()
+        return next_task(key)
+
+    first = [task for key in circuits for task in next_task(key)]
+    report()
+    for _ in executor.results(first, follow=follow):
+        pass
+    return ChunkedRun(reused_shots=reused, new_shots=int(state["new"]),
+                      stopped_by_budget=bool(state["late"]))
