@@ -436,7 +436,7 @@ def _crossings(points, distances, scales, median_error) -> tuple[Crossing, ...]:
                 t = f0 / (f0 - f1)
                 scale = math.exp(math.log(s0) + t * (math.log(s1) - math.log(s0)))
                 between, resolved = (s0, s1), apart0 and apart1
-                note = (f"distance {big} wins below scale {scale:.3g}"
+                note = (f"distance {big} wins below it"
                         + ("" if resolved else " (not resolved by the shots taken: the "
                            "intervals overlap at a bracketing scale)"))
                 break

@@ -160,7 +160,9 @@ def render_forecast_text(payload: Json) -> str:
             if c["scale"] is not None:
                 where = f"at scale {c['scale']:.3g}" + (
                     f" (median two-qubit error {c['two_qubit_error']:.2%})"
-                    if c["two_qubit_error"] is not None else "") + ": "
+                    if c["two_qubit_error"] is not None else "") + (
+                    f", between the sampled scales {c['between'][0]:g} and "
+                    f"{c['between'][1]:g}: ")
             lines.append(f"  crossing {c['smaller']}/{c['larger']}: {where}{c['note']}")
     if not sampling["complete"]:
         why = ("the time budget stopped the sampling" if sampling["stopped_by_budget"]
@@ -180,7 +182,7 @@ def draw_forecast(payload: Json):
     (best placement; bands: 95% intervals; the median placement hollow at today's
     calibration; zero-error points as upper bounds). Returns a `Figure`."""
     from matplotlib.figure import Figure
-    from matplotlib.ticker import ScalarFormatter
+    from matplotlib.ticker import NullFormatter
     fig = Figure(figsize=(7.0, 4.8), dpi=100, layout="constrained")
     ax = fig.add_subplot()
     distances = [s["distance"] for s in payload["distances"] if s["skipped"] is None]
@@ -215,18 +217,23 @@ def draw_forecast(payload: Json):
         ax.axvline(1.0, color="0.4", linestyle=":", linewidth=1)
         ax.annotate("today", (1.0, 1.0), xycoords=("data", "axes fraction"),
                     xytext=(3, -12), textcoords="offset points", fontsize=8, color="0.3")
-        for c in payload["crossings"]:
-            if c["scale"] is not None:
-                ax.axvline(c["scale"], color="0.6", linestyle="--", linewidth=0.8)
-                ax.annotate(f"{c['smaller']}/{c['larger']}", (c["scale"], 0.0),
-                            xycoords=("data", "axes fraction"), xytext=(3, 4),
-                            textcoords="offset points", fontsize=7, color="0.35")
+        found = [c for c in payload["crossings"] if c["scale"] is not None]
+        for k, c in enumerate(found):
+            ax.axvline(c["scale"], color="0.6", linestyle="--", linewidth=0.8)
+            ax.annotate(f"{c['smaller']}/{c['larger']}", (c["scale"], 0.0),
+                        xycoords=("data", "axes fraction"), xytext=(3, 4 + 10 * k),
+                        textcoords="offset points", fontsize=7, color="0.35")
+        scales = payload["scales"]
+        ax.set_xticks(scales, [f"{s:g}" for s in scales], fontsize=7)
+        ax.xaxis.set_minor_formatter(NullFormatter())
         median_error = payload["chip"]["median_two_qubit_error"]
         if median_error:
             top = ax.secondary_xaxis("top", functions=(lambda s: s * median_error * 100,
                                                        lambda e: e / (median_error * 100)))
-            top.set_xlabel("median two-qubit error (%)", fontsize=8)
-            top.xaxis.set_major_formatter(ScalarFormatter())
+            top.set_xlabel("median two-qubit error (%) at each scale", fontsize=8)
+            top.set_xticks([s * median_error * 100 for s in scales],
+                           [f"{s * median_error * 100:.2g}" for s in scales], fontsize=7)
+            top.xaxis.set_minor_formatter(NullFormatter())
         if bounded:
             ax.plot([], [], linestyle="none", marker="v", color="0.5",
                     label="no error seen: upper bound")
