@@ -134,9 +134,9 @@ _WHERE = {
 __all__ = [
     "__version__", "AuditReport", "CAUTION", "CODE_FAMILIES", "CheckResult", "Circuit",
     "CircuitAudit", "CircuitFit", "Constraints", "CouplerCalibration", "Detector",
-    "__version__", "DetectorProblem", "Device", "FindResult", "Forecast", "InputError",
-    "InternalError", "Lattice", "LogicalNote", "LogicalRanking", "MonteCarlo", "NearMiss",
-    "OffCouplerGate", "Operation", "PairResult", "Patch", "Placement", "PlacementView", "Project",
+    "DetectorProblem", "Device", "FindResult", "Forecast", "InputError", "InternalError",
+    "Lattice", "LogicalNote", "LogicalRanking", "MonteCarlo", "NearMiss", "OffCouplerGate",
+    "Operation", "PairResult", "Patch", "Placement", "PlacementView", "Project",
     "QubitCalibration", "Ranking", "Repair", "RuleOutcome", "Schedule", "SearchResult",
     "Sensitivity", "SnapshotRanking", "StopReason", "Vetting", "audit_placement",
     "build_constraints", "check_detectors", "check_dict", "cross_check", "device_from_target",
