@@ -96,11 +96,8 @@ def _html(result: Any, payload: dict[str, Any]) -> str:
 
 
 def _read_baseline(path: str) -> dict[str, Any]:
-    from ..io.files import read_input
-    try:
-        data = json.loads(read_input(path, what="baseline report"))
-    except json.JSONDecodeError as exc:
-        raise InputError(f"baseline is not JSON: {exc.msg}", file=path, line=exc.lineno) from None
+    from ..io.files import read_json
+    data = read_json(path, what="baseline report")
     if not isinstance(data, dict) or data.get("command") != "check":
         raise InputError("baseline is not an embedcheck check report (--format json or the "
                          "project's json report)", file=path)

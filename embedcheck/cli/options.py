@@ -28,7 +28,7 @@ if TYPE_CHECKING:
     from ..model.placement import Placement
 
 __all__ = ["Parser", "add_common", "add_constraint_options", "add_html_option",
-           "add_search_options", "emit",
+           "add_search_options", "bounded_int", "emit",
            "finite", "floats", "int_list", "kind_of", "pair_list", "parse_placement",
            "picture_bytes_for", "positive_float", "positive_int", "progress_printer",
            "request_constraints", "require_html_path", "require_picture_path", "top_count"]
@@ -152,6 +152,20 @@ def positive_int(text: str) -> int:
     if value < 1:
         raise argparse.ArgumentTypeError(f"'{text}' must be at least 1")
     return value
+
+
+def bounded_int(limit: int) -> Callable[[str], int]:
+    """An argparse type: a whole number from 1 to `limit` (sizes that would run for hours).
+
+    >>> bounded_int(101)("7")
+    7
+    """
+    def parse(text: str) -> int:
+        value = positive_int(text)
+        if value > limit:
+            raise argparse.ArgumentTypeError(f"{value} is above the limit of {limit}")
+        return value
+    return parse
 
 
 def top_count(text: str) -> int | None:
