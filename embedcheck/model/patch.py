@@ -230,7 +230,9 @@ def infer_roles(circuits: Mapping[str, Circuit], rounds: int = 1) -> dict[str, s
     """Roles from what the circuits do to each qubit (used when a patch gives none).
 
     A qubit that is measured and then acted on again later in the experiment (reset,
-    reused, or measured in a round that repeats) is a measured helper, and so is one
+    reused in a two-qubit gate, or measured in a round that repeats; single-qubit gates
+    after a measurement, such as the `h; s` that undo a Y-basis readout, do not count)
+    is a measured helper, and so is one
     measured inside the check round (data are read out at the end, not in the round;
     common practice) unless the round measures every qubit it touches; the rest are
     data. A helper that shares gates with data and with other helpers is a `flag`;
@@ -256,8 +258,8 @@ def infer_roles(circuits: Mapping[str, Circuit], rounds: int = 1) -> dict[str, s
         for q in op.qubits:
             if q not in order:
                 order.append(q)
-            if q in measured:
-                helper.add(q)
+            if q in measured and op.kind != "1q":    # single-qubit gates after a readout
+                helper.add(q)                         # (undoing a basis change) are no reuse
         if op.kind == "measure":
             measured.add(op.qubits[0])
     if "round" in circuits:                  # one round, ancillas measured only at its end
