@@ -135,7 +135,7 @@ def _graph(doc: Document):
             raise doc.error(("family", extra), f"family '{fam['kind']}' takes "
                             f"{' and '.join(params)}, not '{extra}'")
         size = {p: fam[p] for p in params}
-        check_count(family_qubits(fam["kind"], **size), max_qubits(), what=f"qubits of the "
+        check_count(family_qubits(fam["kind"], **size), max_qubits(), what=f"qubits in a "
                     f"{fam['kind']} family of this size", setting="EMBEDCHECK_MAX_QUBITS",
                     file=doc.file, line=doc.line(("family",)), key="family")
         try:
@@ -269,7 +269,7 @@ def _check_timestamp(doc, path, stamp):
     try:
         _parse_time(stamp)
     except ValueError:
-        raise doc.error(path, f"timestamp '{stamp}' does not parse: use ISO 8601, "
+        raise doc.error(path, "the timestamp does not parse: use ISO 8601, "
                               "e.g. 2026-11-30T06:00:00Z") from None
 
 

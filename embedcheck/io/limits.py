@@ -79,7 +79,7 @@ def check_count(count: int, limit: int, *, what: str, setting: str | None = None
     if count <= limit:
         return
     how = f" (set {setting} to raise it)" if setting else ""
-    raise InputError(f"{detail}{what}: {count:,}, above the limit of {limit:,}{how}",
+    raise InputError(f"{detail}{count:,} {what}, above the limit of {limit:,}{how}",
                      file=file, line=line, key=key)
 
 

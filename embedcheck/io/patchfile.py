@@ -196,6 +196,10 @@ def _with_roles(name, circuits, *, rounds, roles=None, role_registers=None, sour
         else:
             roles = infer_roles(circuits, rounds)
         roles = {q: roles[q] for q in sorted(roles, key=natural_sort_key)}
+    if not roles and (doc is not None or source is not None):
+        where = dict(file=doc.file, line=doc.line(("circuits",))) if doc is not None \
+            else dict(file=source)
+        raise InputError("no circuit of the patch acts on a qubit: nothing to place", **where)
     circuits = {n: _trim_barriers(c, roles) for n, c in circuits.items()}
     _check_size(roles, circuits, rounds, source, doc)
     return Patch(name=name, qubits=tuple(roles), roles=roles, circuits=circuits, rounds=rounds,

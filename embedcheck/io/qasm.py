@@ -486,6 +486,10 @@ def _parser_message(exc):
     seen = set()
     while exc is not None and id(exc) not in seen:
         seen.add(id(exc))
+        if isinstance(exc, RecursionError):
+            return None, "an expression nested too deeply to read"
+        if isinstance(exc, ValueError) and "digits" in str(exc):
+            return None, "a number with too many digits"
         m = re.search(r"L(\d+):C(\d+): (.*)", str(exc))
         if m:
             if "token recognition error" in m.group(3):
@@ -595,6 +599,7 @@ def _statements(text: str, file: str | None, first_line: int):
     are moved to where the run starts in the text.
     """
     clean = _COMMENT.sub(_blank, text)
+    # Counted before anything is parsed, so that a huge file is refused at once.
     check_count(clean.count(";"), max_operations(), what="statements",
                 setting="EMBEDCHECK_MAX_OPERATIONS", file=file, line=first_line)
     reserved = _reserved()

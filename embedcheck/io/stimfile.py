@@ -146,7 +146,7 @@ def _lines(text: str, file):
 def _check_repeat(count: int, body: int, file, line) -> None:
     """A REPEAT block is run `count` times: its unrolled size is bounded before it is run."""
     check_count(count * max(body, 1), max_experiment_operations(),
-                what="instructions after unrolling REPEAT", setting="EMBEDCHECK_MAX_OPERATIONS",
+                what="instructions once unrolled", setting="EMBEDCHECK_MAX_OPERATIONS",
                 file=file, line=line, detail=f"REPEAT {count:,}: ")
 
 
@@ -188,6 +188,9 @@ class _Walker:
                         setting="EMBEDCHECK_MAX_OPERATIONS", file=self.file, line=line)
         if name in ("DETECTOR", "OBSERVABLE_INCLUDE"):
             for t in targets:
+                if not t.is_measurement_record_target or t.value >= 0:
+                    raise InputError(f"stim: {name} takes measurement records rec[-k] with "
+                                     "k >= 1", file=self.file, line=line)
                 if self.measured + t.value < 0:
                     raise InputError(f"stim: {name} looks back to rec[{t.value}] but only "
                                      f"{self.measured} measurement(s) came before it",

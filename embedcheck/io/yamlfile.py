@@ -24,7 +24,7 @@ from .files import read_input
 from .limits import MAX_ALIAS_VALUES, MAX_YAML_DEPTH
 from .schemacheck import compile_schema
 
-__all__ = ["Document", "key_name", "parse_yaml", "read_yaml", "schema"]
+__all__ = ["Document", "file_kind", "key_name", "parse_yaml", "read_yaml", "schema"]
 
 KeyPath = tuple  # of str keys and int list indices
 
@@ -71,6 +71,28 @@ def read_yaml(path: str | Path, schema_name: str) -> Document:
     return parse_yaml(text, file, schema_name)
 
 
+def file_kind(path: str | Path) -> str:
+    """'chip', 'patch' or 'project', from a YAML file's version key.
+
+    A file without one is refused with the reason a loader would give (it is empty, not
+    YAML, nested too deep, not a mapping), or else for its missing version key.
+    """
+    file = str(path)
+    text = read_input(path)
+    m = _VERSION_KEY.search(text)
+    if m:
+        return m.group(1)
+    data, _ = _build(text, file)
+    if not isinstance(data, dict):
+        raise InputError("a chip or patch file must be a mapping of keys, found "
+                         f"{type(data).__name__}", file=file, line=1)
+    raise InputError("not a chip or patch file: it needs a version key 'embedcheck_chip: 1' "
+                     "or 'embedcheck_patch: 1'", file=file, line=1)
+
+
+_VERSION_KEY = re.compile(r"^embedcheck_(chip|patch|project)\s*:", re.M)
+
+
 def parse_yaml(text: str, file: str, schema_name: str) -> Document:
     """Parse YAML text (named `file` in messages) and validate it against a schema."""
     data, lines = _build(text, file)
@@ -89,9 +111,12 @@ def _check_kind(doc: Document, schema_name: str) -> None:
     if key in doc.data:
         if doc.data[key] != 1 or isinstance(doc.data[key], bool):
             got = doc.data[key]
-            hint = " (write the number 1, not a string)" if got == "1" else \
-                " (this embedcheck reads version 1)"
-            raise doc.error((key,), f"format version {shown(got)} is not supported{hint}")
+            if isinstance(got, (int, float)) and not isinstance(got, bool):
+                raise doc.error((key,), f"format version {got} is not supported (this "
+                                        "embedcheck reads version 1)")
+            hint = " (write the number 1, without quotes)" if got == "1" else ""
+            raise doc.error((key,), f"the format version must be the number 1, not "
+                                    f"{shown(got)}{hint}")
         return
     other = [k for k in doc.data if k.startswith("embedcheck_")]
     if other:
