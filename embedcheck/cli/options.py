@@ -28,10 +28,10 @@ if TYPE_CHECKING:
     from ..model.placement import Placement
 
 __all__ = ["Parser", "add_common", "add_constraint_options", "add_html_option",
-           "add_search_options", "bounded_int", "emit",
-           "finite", "floats", "int_list", "kind_of", "pair_list", "parse_placement",
-           "picture_bytes_for", "positive_float", "positive_int", "progress_printer",
-           "request_constraints", "require_html_path", "require_picture_path", "top_count"]
+           "add_search_options", "bounded_int", "emit", "finite", "floats", "int_list",
+           "kind_of", "pair_list", "parse_placement", "picture_bytes_for", "positive_float",
+           "positive_int", "progress_printer", "request_constraints", "require_html_path",
+           "require_picture_path", "top_count"]
 
 
 class Parser(argparse.ArgumentParser):
@@ -224,18 +224,20 @@ class _Progress:
 
 
 def kind_of(path: str) -> str:
-    """'chip' or 'patch', from the file's top-level version key (or a circuit file's suffix)."""
-    import re
-
-    from ..io.files import read_input
+    """'chip' or 'patch', from the file's top-level version key (or a circuit file's suffix;
+    a folder is a folder of chip snapshots). A file without a version key is refused for
+    the reason a loader would give (empty, not YAML, nested too deep)."""
+    from ..io.yamlfile import file_kind
+    if Path(path).is_dir():
+        return "chip"
     if Path(path).suffix.lower() in (".stim", ".qasm", ".qasm2", ".qasm3"):
         return "patch"
-    text = read_input(path)
-    m = re.search(r"^embedcheck_(chip|patch)\s*:", text, re.M)
-    if not m:
-        raise InputError("not a chip or patch file: it needs a version key "
-                         "'embedcheck_chip: 1' or 'embedcheck_patch: 1'", file=path)
-    return m.group(1)
+    kind = file_kind(path)
+    if kind in ("project", "sweep"):
+        command = "check" if kind == "project" else "sweep"
+        raise InputError(f"this is a {kind} file, not a chip or patch file (run "
+                         f"'embedcheck {command}' on it)", file=path)
+    return kind
 
 
 def add_html_option(p: argparse.ArgumentParser) -> None:

@@ -72,7 +72,7 @@ def read_yaml(path: str | Path, schema_name: str) -> Document:
 
 
 def file_kind(path: str | Path) -> str:
-    """'chip', 'patch' or 'project', from a YAML file's version key.
+    """'chip', 'patch', 'project' or 'sweep', from a YAML file's version key.
 
     A file without one is refused with the reason a loader would give (it is empty, not
     YAML, nested too deep, not a mapping), or else for its missing version key.
@@ -90,7 +90,7 @@ def file_kind(path: str | Path) -> str:
                      "or 'embedcheck_patch: 1'", file=file, line=1)
 
 
-_VERSION_KEY = re.compile(r"^embedcheck_(chip|patch|project)\s*:", re.M)
+_VERSION_KEY = re.compile(r"^embedcheck_(chip|patch|project|sweep)\s*:", re.M)
 
 
 def parse_yaml(text: str, file: str, schema_name: str) -> Document:
