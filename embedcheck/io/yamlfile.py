@@ -3,7 +3,12 @@
 `read_yaml(path, schema_name)` returns a `Document`: the plain data plus the line of
 every key path, so the loaders can point at the offending line even for checks the
 schema cannot express (a coupler naming a missing qubit, say). Schemas live in
-`embedcheck/schemas/*.schema.json` (JSON Schema draft 2020-12).
+`embedcheck/schemas/*.schema.json` (JSON Schema draft 2020-12). `plain_yaml` is the
+reader underneath: plain values only, nesting and alias expansion bounded.
+
+    >>> data, lines = plain_yaml("a: [1, 2]\\nb: x\\n", "t.yaml")
+    >>> data, lines[("b",)]
+    ({'a': [1, 2], 'b': 'x'}, 2)
 """
 from __future__ import annotations
 
@@ -24,7 +29,8 @@ from .files import read_input
 from .limits import MAX_ALIAS_VALUES, MAX_YAML_DEPTH
 from .schemacheck import compile_schema
 
-__all__ = ["Document", "file_kind", "key_name", "parse_yaml", "read_yaml", "schema"]
+__all__ = ["Document", "file_kind", "key_name", "parse_yaml", "plain_yaml", "read_yaml",
+           "schema"]
 
 KeyPath = tuple  # of str keys and int list indices
 
@@ -82,7 +88,7 @@ def file_kind(path: str | Path) -> str:
     m = _VERSION_KEY.search(text)
     if m:
         return m.group(1)
-    data, _ = _build(text, file)
+    data, _ = plain_yaml(text, file)
     if not isinstance(data, dict):
         raise InputError("a chip or patch file must be a mapping of keys, found "
                          f"{type(data).__name__}", file=file, line=1)
@@ -95,7 +101,7 @@ _VERSION_KEY = re.compile(r"^embedcheck_(chip|patch|project|sweep)\s*:", re.M)
 
 def parse_yaml(text: str, file: str, schema_name: str) -> Document:
     """Parse YAML text (named `file` in messages) and validate it against a schema."""
-    data, lines = _build(text, file)
+    data, lines = plain_yaml(text, file)
     doc = Document(file, data, lines)
     _check_kind(doc, schema_name)
     _validate(doc, schema(schema_name))
@@ -150,7 +156,7 @@ class _Open:
 _NOT_A_KEY = "a key must be a plain value (a word or a number), not a list, a mapping or an alias"
 
 
-def _build(text: str, file: str):
+def plain_yaml(text: str, file: str) -> tuple[Any, dict]:
     """Plain data and the line of every key path, from YAML text, without recursion.
 
     The parser's events are assembled on an explicit stack, so that nesting is refused
