@@ -292,10 +292,20 @@ def natural_sort_key(name: str) -> list[Any]:
     return [int(t) if t.isdigit() else t for t in re.split(r"(\d+)", name)]
 
 
+_MAX_SPAN_CELLS = 100_000_000      # detectors x measurements of the dense GF(2) matrix
+
+
 def observable_is_detector_parity(patch: Patch) -> bool:
     """True when the observable is a parity of detectors: no fault flips it unseen, so
-    every logical figure is 0 (GF(2) rank of the detectors with and without it)."""
+    every logical figure is 0 (GF(2) rank of the detectors with and without it).
+
+    The test is a dense GF(2) rank over detectors x measurements; above
+    `_MAX_SPAN_CELLS` (a repetition code of distance 101 over 1000 rounds needs 10^10)
+    it answers False, "not known to be a parity", which only costs the shortcut.
+    """
     size = len(patch.measurement_record())
+    if size * len(patch.detectors) > _MAX_SPAN_CELLS:
+        return False
     rows = []
     for det in patch.detectors:
         row = np.zeros(size, dtype=np.uint8)
