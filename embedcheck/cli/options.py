@@ -14,12 +14,14 @@ from __future__ import annotations
 import argparse
 import json
 import math
+import os
 import sys
 from collections.abc import Callable
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, NoReturn
 
 from ..errors import InputError
+from ..io.limits import MAX_QUBIT_NUMBER
 
 if TYPE_CHECKING:
     from ..model.constraints import Constraints
@@ -29,9 +31,10 @@ if TYPE_CHECKING:
 
 __all__ = ["Parser", "add_common", "add_constraint_options", "add_html_option",
            "add_search_options", "bounded_int", "emit", "finite", "floats", "int_list",
-           "kind_of", "pair_list", "parse_placement", "picture_bytes_for", "positive_float",
-           "positive_int", "progress_printer", "request_constraints", "require_html_path",
-           "require_picture_path", "top_count"]
+           "kind_of", "max_processes", "non_negative_int", "pair_list", "parse_placement",
+           "picture_bytes_for", "positive_float", "positive_int", "progress_printer",
+           "request_constraints", "require_html_path", "require_picture_path", "seed_value",
+           "top_count"]
 
 
 class Parser(argparse.ArgumentParser):
@@ -86,7 +89,9 @@ def request_constraints(args: argparse.Namespace, patch: Patch,
 
 
 def int_list(text: str | None, option: str) -> list[int]:
-    out: list[int] = []
+    """Qubit numbers from '3,17,40-52' (ranges merged first, so no list is longer than the
+    qubit numbers that exist: 0 to MAX_QUBIT_NUMBER)."""
+    spans = []
     for part in filter(None, (t.strip() for t in (text or "").split(","))):
         lo, sep, hi = part.partition("-")
         try:
@@ -95,7 +100,15 @@ def int_list(text: str | None, option: str) -> list[int]:
             raise InputError(f"{option}: '{part}' is not a qubit number or range") from None
         if last < first:
             raise InputError(f"{option}: range '{part}' runs backwards; write {last}-{first}")
-        out += list(range(first, last + 1))
+        if first < 0 or last > MAX_QUBIT_NUMBER:
+            raise InputError(f"{option}: '{part}': qubit numbers run from 0 to "
+                             f"{MAX_QUBIT_NUMBER}")
+        spans.append((first, last))
+    out: list[int] = []
+    covered = -1
+    for first, last in sorted(spans):
+        out += range(max(first, covered + 1), last + 1)
+        covered = max(covered, last)
     return out
 
 
@@ -166,6 +179,33 @@ def bounded_int(limit: int) -> Callable[[str], int]:
             raise argparse.ArgumentTypeError(f"{value} is above the limit of {limit}")
         return value
     return parse
+
+
+def non_negative_int(text: str) -> int:
+    """An argparse type: a whole number, 0 or more (a count where 0 turns something off)."""
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"'{text}' is not a whole number") from None
+    if value < 0:
+        raise argparse.ArgumentTypeError(f"'{text}' must be 0 or more")
+    return value
+
+
+def max_processes() -> int:
+    """Worker processes one command may start: four per CPU (at least 4)."""
+    return max(4, 4 * (os.cpu_count() or 1))
+
+
+def seed_value(text: str) -> int:
+    """An argparse type: a seed for qiskit's transpiler, a whole number from 0 to 2^63 - 1."""
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"'{text}' is not a whole number") from None
+    if not 0 <= value < 2 ** 63:
+        raise argparse.ArgumentTypeError(f"'{text}' must be a whole number from 0 to 2^63 - 1")
+    return value
 
 
 def top_count(text: str) -> int | None:

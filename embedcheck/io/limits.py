@@ -20,7 +20,9 @@ through environment variables; the others are fixed.
 | chip qubit numbers | 0 .. 999,999 | fixed (the JSON Schema) |
 | YAML nesting depth | 64 | fixed |
 | YAML values added by aliases | 1,000,000 | fixed |
-| `code --distance` / `--rounds` | 101 / 1,000 | fixed |
+| `code --distance` / `--rounds` | 101 / 1,000 (and the patch file within the file size) | fixed |
+| `find --monte-carlo` shots | 10,000,000 | fixed |
+| `find --processes` | 4 per CPU | fixed |
 
     >>> max_qubits()
     100000
@@ -36,7 +38,7 @@ import os
 from ..errors import InputError
 
 __all__ = ["EXPERIMENT_FACTOR", "MAX_ALIAS_VALUES", "MAX_CODE_DISTANCE", "MAX_CODE_ROUNDS",
-           "MAX_FILE_MB", "MAX_OPERATIONS", "MAX_QUBITS", "MAX_QUBIT_NUMBER",
+           "MAX_FILE_MB", "MAX_OPERATIONS", "MAX_QUBITS", "MAX_QUBIT_NUMBER", "MAX_SHOTS",
            "MAX_YAML_DEPTH", "SNAPSHOT_FACTOR", "check_count", "family_qubits",
            "max_experiment_operations", "max_file_bytes", "max_operations", "max_qubits"]
 
@@ -50,6 +52,7 @@ MAX_YAML_DEPTH = 64
 MAX_ALIAS_VALUES = 1_000_000
 MAX_CODE_DISTANCE = 101
 MAX_CODE_ROUNDS = 1_000
+MAX_SHOTS = 10_000_000
 
 
 def max_file_bytes() -> int:
