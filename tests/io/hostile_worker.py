@@ -14,6 +14,14 @@ import os
 import sys
 
 
+def worker_env() -> dict:
+    """The environment for a worker under an address-space limit: one thread for the
+    numerical libraries and two malloc arenas, so that the virtual memory they reserve up
+    front (which grows with the number of CPUs) stays far below the limit."""
+    return {**os.environ, "OPENBLAS_NUM_THREADS": "1", "OMP_NUM_THREADS": "1",
+            "MKL_NUM_THREADS": "1", "MALLOC_ARENA_MAX": "2"}
+
+
 def main(jobs_path: str, results_path: str) -> None:
     from embedcheck.cli import main as embedcheck_main
 

@@ -18,6 +18,7 @@ import sys
 import tempfile
 from pathlib import Path
 
+from hostile_worker import worker_env
 from malformed import mutants
 
 HERE = Path(__file__).resolve().parent
@@ -106,7 +107,7 @@ def fuzz(count: int, seed: int, commands=COMMANDS, folder: str | None = None) ->
     (work / "jobs.json").write_text(json.dumps(jobs))
     subprocess.run([sys.executable, str(WORKER), str(work / "jobs.json"),
                     str(work / "results.jsonl")], capture_output=True, text=True,
-                   preexec_fn=_limits, cwd=work)
+                   preexec_fn=_limits, env=worker_env(), cwd=work)
     done = {}
     if (work / "results.jsonl").exists():
         for line in (work / "results.jsonl").read_text().splitlines():

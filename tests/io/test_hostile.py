@@ -23,6 +23,8 @@ from pathlib import Path
 
 import pytest
 
+from hostile_worker import worker_env
+
 CORPUS = Path(__file__).resolve().parent / "hostile"
 WORKER = Path(__file__).resolve().parent / "hostile_worker.py"
 CANARY = "hunter2-CANARY-7f3a"
@@ -160,7 +162,7 @@ def runs(tmp_path_factory):
     jobs_file, results_file = root.parent / "jobs.json", root.parent / "results.jsonl"
     jobs_file.write_text(json.dumps(jobs))
     worker = subprocess.run([sys.executable, str(WORKER), str(jobs_file), str(results_file)],
-                            capture_output=True, text=True, preexec_fn=_limits, cwd=root.parent)
+                            capture_output=True, text=True, preexec_fn=_limits, env=worker_env(), cwd=root.parent)
     results = {}
     if results_file.exists():
         for line in results_file.read_text().splitlines():
