@@ -10,19 +10,16 @@ The limits lie far above real use: chips of tens of thousands of qubits, codes u
 distance about 51 with as many rounds. The three a user might meet are configurable
 through environment variables; the others are fixed.
 
-| limit | default | raise it with |
-| --- | --- | --- |
-| input file size | 10 MB | `EMBEDCHECK_MAX_FILE_MB` |
-| qubits of a chip, of a patch, declared in one OpenQASM program | 100,000 | `EMBEDCHECK_MAX_QUBITS` |
-| operations of one circuit after unrolling (gate definitions, broadcasts, multi-qubit gates) | 1,000,000 | `EMBEDCHECK_MAX_OPERATIONS` |
-| operations of the whole experiment (prep, rounds x round, readout) | 10 x the above | `EMBEDCHECK_MAX_OPERATIONS` |
-| calibration snapshots x chip qubits (a chip file, or a folder of them) | 10 x the qubit limit | `EMBEDCHECK_MAX_QUBITS` |
-| chip qubit numbers | 0 .. 999,999 | fixed (the JSON Schema) |
-| YAML nesting depth | 64 | fixed |
-| YAML values added by aliases | 1,000,000 | fixed |
-| `code --distance` / `--rounds` | 101 / 1,000 (and the patch file within the file size) | fixed |
-| `find --monte-carlo` shots | 10,000,000 | fixed |
-| `find --processes` | 4 per CPU | fixed |
+- input file size: 10 MB (`EMBEDCHECK_MAX_FILE_MB`);
+- qubits of a chip, of a patch, declared in one OpenQASM program: 100,000
+  (`EMBEDCHECK_MAX_QUBITS`); calibration snapshots x chip qubits: 10 times that;
+- operations of one circuit after unrolling (gate definitions, broadcasts, multi-qubit
+  gates), statements of an OpenQASM text: 1,000,000 (`EMBEDCHECK_MAX_OPERATIONS`); the
+  whole experiment (prep, rounds x round, readout): 10 times that;
+- fixed: chip qubit numbers 0 to 999,999 (the JSON Schema), YAML nesting 64 levels, values
+  added by YAML aliases 1,000,000, `code --distance` 101 and `--rounds` 1,000 (and the patch
+  file within the file size), `find --monte-carlo` 10,000,000 shots, `find --processes` 4
+  per CPU.
 
     >>> max_qubits()
     100000

@@ -27,7 +27,8 @@ WORKER = HERE / "hostile_worker.py"
 ALLOWED = {"validate": {0, 2}, "find": {0, 2}, "check": {0, 1, 2}, "show": {0, 2},
            "audit": {0, 2}, "draw": {0, 2}, "repair": {0, 2}}
 COMMANDS = tuple(ALLOWED)
-PROJECT = ("embedcheck_project: 1\nname: fuzz\nchips: [good_chip.yaml]\npatches: [good_patch.yaml]\n"
+PROJECT = ("embedcheck_project: 1\nname: fuzz\nchips: [good_chip.yaml]\n"
+           "patches: [good_patch.yaml]\n"
            "rules: {max_off_coupler_gates: 0, min_placements: 1}\ncross_check: {top: 0}\n"
            "search: {limit: 100, budget_s: 10}\n")
 
@@ -123,7 +124,8 @@ def fuzz(count: int, seed: int, commands=COMMANDS, folder: str | None = None) ->
         err = result["err"]
         if result["code"] not in ALLOWED[command]:
             record["problem"] = f"exit {result['code']}"
-        elif result["code"] == 2 and (err.count("\n") != 1 or not err.startswith("embedcheck: error: ")):
+        elif result["code"] == 2 and (err.count("\n") != 1
+                                      or not err.startswith("embedcheck: error: ")):
             record["problem"] = "not one line"
         elif "Traceback" in err or "internal error" in err:
             record["problem"] = "traceback"

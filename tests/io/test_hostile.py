@@ -22,7 +22,6 @@ import sys
 from pathlib import Path
 
 import pytest
-
 from hostile_worker import worker_env
 
 CORPUS = Path(__file__).resolve().parent / "hostile"
@@ -114,7 +113,8 @@ COMMANDS = ("validate", "find", "check")
 
 
 def _jobs(root: Path) -> list[dict]:
-    good_chip, good_patch = root / "_support" / "good_chip.yaml", root / "_support" / "good_patch.yaml"
+    good_chip = root / "_support" / "good_chip.yaml"
+    good_patch = root / "_support" / "good_patch.yaml"
     jobs = []
     projects = root / "_projects"
     projects.mkdir()
@@ -162,7 +162,8 @@ def runs(tmp_path_factory):
     jobs_file, results_file = root.parent / "jobs.json", root.parent / "results.jsonl"
     jobs_file.write_text(json.dumps(jobs))
     worker = subprocess.run([sys.executable, str(WORKER), str(jobs_file), str(results_file)],
-                            capture_output=True, text=True, preexec_fn=_limits, env=worker_env(), cwd=root.parent)
+                            capture_output=True, text=True, preexec_fn=_limits,
+                            env=worker_env(), cwd=root.parent)
     results = {}
     if results_file.exists():
         for line in results_file.read_text().splitlines():

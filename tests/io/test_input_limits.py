@@ -17,18 +17,17 @@ import jsonschema
 import pytest
 import stim
 import yaml
+from malformed import mutate_data
 
 from embedcheck.cli import main
-from embedcheck.io import qasm as qasm_module
 from embedcheck.errors import InputError
+from embedcheck.io import qasm as qasm_module
 from embedcheck.io.patchfile import load_patch
 from embedcheck.io.qasm import read_qasm
 from embedcheck.io.schemacheck import compile_schema
 from embedcheck.io.stimfile import read_stim
 from embedcheck.io.yamlfile import schema
 from helpers import DEMO_CHIP, DEMO_PATCH, FIXED_PATCH, ROOT
-from malformed import mutate_data
-
 
 # ---------------------------------------------------------------- fast schema check vs jsonschema
 
@@ -45,7 +44,8 @@ def test_fast_schema_check_agrees_with_jsonschema_on_mutated_documents():
     rng = random.Random(7)
     compared = invalid = 0
     for name, text in _documents():
-        check, reference = compile_schema(schema(name)), jsonschema.Draft202012Validator(schema(name))
+        check = compile_schema(schema(name))
+        reference = jsonschema.Draft202012Validator(schema(name))
         original = yaml.safe_load(text)
         for trial in range(300 if name != "chip" else 60):
             data = copy.deepcopy(original)
@@ -100,7 +100,7 @@ def _programs():
     gates = ["h", "x", "s", "sdg", "cx", "cz", "swap", "rz(0.5)", "u3(pi/2, -pi, 1e-3)", "ccx",
              "U(0,0,0)", "rx(2*pi/3)", "mine"]
     width = {"cx": 2, "cz": 2, "swap": 2, "ccx": 3, "mine": 2}
-    for t in range(40):
+    for _ in range(40):
         lines = ["OPENQASM 2.0;", 'include "qelib1.inc";', "qreg q[5];", "creg c[5];",
                  "// a comment; with ; semicolons", "gate mine a, b { cx a, b; h a; }"]
         for _ in range(30):
@@ -181,7 +181,8 @@ def test_qubit_limit_for_registers_chips_and_patches(monkeypatch, tmp_path, caps
     assert main(["validate", str(chip)]) == 2
     assert "qubits: 6 qubits, above the limit of 5 (set EMBEDCHECK_MAX_QUBITS" in \
         capsys.readouterr().err
-    chip.write_text("embedcheck_chip: 1\nname: c\nfamily: {kind: square-grid, rows: 2, columns: 3}\n")
+    chip.write_text("embedcheck_chip: 1\nname: c\n"
+                    "family: {kind: square-grid, rows: 2, columns: 3}\n")
     assert main(["validate", str(chip)]) == 2
     assert "6 qubits in a square-grid family of this size" in capsys.readouterr().err
     monkeypatch.setenv("EMBEDCHECK_MAX_QUBITS", "6")
@@ -315,8 +316,10 @@ def test_integral_floats_where_integers_are_asked_become_ints(tmp_path):
 
 
 @pytest.mark.parametrize("argv,message", [
-    (["--region", "5-99999999999"], "--region: '5-99999999999': qubit numbers run from 0 to 999999"),
-    (["--exclude-qubits", "0-999999,0-999999,3-8"], "--exclude-qubits: chip 'line5' has no qubit 5"),
+    (["--region", "5-99999999999"],
+     "--region: '5-99999999999': qubit numbers run from 0 to 999999"),
+    (["--exclude-qubits", "0-999999,0-999999,3-8"],
+     "--exclude-qubits: chip 'line5' has no qubit 5"),
     (["--monte-carlo", "99999999999999"], "argument --monte-carlo: 99999999999999 is above the "
                                           "limit of 10000000"),
     (["--processes", "1000000"], "argument --processes: 1000000 is above the limit of"),
@@ -324,7 +327,8 @@ def test_integral_floats_where_integers_are_asked_become_ints(tmp_path):
 def test_find_options_that_would_allocate_without_end(capsys, argv, message):
     # Issue 16's hunt over options: --region 5-99999999999 raised MemoryError (exit 3),
     # --exclude-qubits 1-1000000000 was killed for memory, --monte-carlo 10^14 crashed stim.
-    chip, patch = ROOT / "tests/data/line5_zero_errors.yaml", ROOT / "tests/data/rep2_one_round.yaml"
+    chip = ROOT / "tests/data/line5_zero_errors.yaml"
+    patch = ROOT / "tests/data/rep2_one_round.yaml"
     assert main(["find", str(chip), str(patch), *argv]) == 2
     err = capsys.readouterr().err
     assert message in err and err.count("\n") == 1
@@ -339,7 +343,8 @@ def test_code_refuses_a_patch_file_past_the_file_limit_before_writing_it(capsys,
 
 
 def test_transpiler_seeds_are_non_negative(capsys, tmp_path):
-    chip, patch = ROOT / "tests/data/line5_zero_errors.yaml", ROOT / "tests/data/rep2_one_round.yaml"
+    chip = ROOT / "tests/data/line5_zero_errors.yaml"
+    patch = ROOT / "tests/data/rep2_one_round.yaml"
     assert main(["audit", str(chip), str(patch), "--pick", "1", "--seed", "-5"]) == 2
     assert "argument --seed: '-5' must be a whole number from 0" in capsys.readouterr().err
     (tmp_path / "chip.yaml").write_text(chip.read_text())
