@@ -152,7 +152,12 @@ def _graph(doc: Document):
         qubits = list(range(qubits)) if isinstance(qubits, int) else qubits
         if len(set(qubits)) != len(qubits):
             seen_q: set = set()
-            dup = next(q for q in qubits if q in seen_q or seen_q.add(q))
+            dup = None
+            for q in qubits:
+                if q in seen_q:
+                    dup = q
+                    break
+                seen_q.add(q)
             raise doc.error(("qubits",), f"qubit {dup} is listed twice")
         couplers, positions = [tuple(c) for c in data.get("couplers", [])], {}
     else:

@@ -170,9 +170,10 @@ class _Walker:
                 raise self.fail(stmt, f"register '{name}' is declared twice")
             self.check_register_name(stmt, name)
             size = getattr(getattr(stmt, "type", None), "size", None)
-            self.classical[name] = _integer(size) if size is not None else None
-            if self.classical[name] is not None and self.classical[name] > self.max_ops:
-                check_count(self.classical[name], self.max_ops, what="bits",
+            width = _integer(size) if size is not None else None
+            self.classical[name] = width
+            if width is not None and width > self.max_ops:
+                check_count(width, self.max_ops, what="bits",
                             setting="EMBEDCHECK_MAX_OPERATIONS", file=self.file,
                             line=self.line_of(stmt), detail=f"register '{name}': ")
         elif isinstance(stmt, ast.SubroutineDefinition):
@@ -389,8 +390,10 @@ class _Walker:
         end = stmt.span.end_line if stmt.span else start
         text = self.texts.get((start, end))
         if text is None:
-            text = " ".join(self.lines[i - 1].strip() for i in range(start, (end or start) + 1)
-                            if 0 < i <= len(self.lines)) if start else ""
+            text = ""
+            if start is not None and end is not None:
+                text = " ".join(self.lines[i - 1].strip() for i in range(start, end + 1)
+                                if 0 < i <= len(self.lines))
             self.texts[(start, end)] = text
         self.ops.append(Operation(name, qubits, kind, line=start + self.offset if start else None,
                                   text=text, file=self.file, written=written,
@@ -605,7 +608,8 @@ def _statements(text: str, file: str | None, first_line: int):
     reserved = _reserved()
     names: dict[str, ast.Identifier] = {}
     line, counted = 1, 0                    # line number at character `counted`
-    run_start, run_line = None, None        # a run of statements for the parser
+    run_start: int | None = None            # a run of statements for the parser
+    run_line = 1
     first = True
     for start, end in _split(clean):
         body = clean[start:end]
@@ -690,9 +694,10 @@ def _plain(body, lines, names, reserved, first, file, first_line):
     return None
 
 
-_BY_WORD = {"OPENQASM": ("version",), "include": ("include",), "qreg": ("qreg",),
-            "qubit": ("qubit",), "creg": ("creg",), "bit": ("bit",), "measure": ("measure",),
-            "reset": ("reset",), "barrier": ("barrier",)}
+_BY_WORD: dict[str, tuple[str, ...]] = {
+    "OPENQASM": ("version",), "include": ("include",), "qreg": ("qreg",), "qubit": ("qubit",),
+    "creg": ("creg",), "bit": ("bit",), "measure": ("measure",), "reset": ("reset",),
+    "barrier": ("barrier",)}
 _IDENTIFIER = re.compile(_ID)
 
 

@@ -57,7 +57,7 @@ def compile_schema(schema: dict, root: dict | None = None) -> Check:
     return _compile(schema, root, cache)
 
 
-def _compile(schema: dict, root: dict, cache: dict) -> Check:
+def _compile(schema: dict | bool, root: dict, cache: dict) -> Check:
     if schema is True or schema == {}:
         return lambda value: None
     if schema is False:

@@ -402,8 +402,8 @@ def _explain(doc: Document, path: KeyPath, err: jsonschema.ValidationError) -> I
                                f"{err.validator_value}{hint}")
     if err.validator == "type":
         want = err.validator_value
-        want = " or ".join(_TYPE_NAMES.get(w, w) for w in (want if isinstance(want, list)
-                                                          else [want]))
+        want = " or ".join(_TYPE_NAMES.get(str(w), str(w))
+                           for w in (want if isinstance(want, list) else [want]))
         return doc.error(path, f"should be {want}, not {shown(err.instance)}")
     if err.validator == "const":
         return doc.error(path, f"must be {err.validator_value!r}, not {shown(err.instance)}")
