@@ -9,10 +9,16 @@ Findings are neither: a command that answered returns its answer (exit 0, or 1 w
 was asked to be strict or a CI rule fails). Any other exception reaching the command
 line is a bug of ours too (exit 3).
 
+An `InputError` is always one printable line (line breaks and control characters in a
+file name are escaped), and names the file, line and key, never text found in the file:
+`without_quotes` leaves the quoted input out of a third-party parser's message.
+
     >>> str(InputError("lost coupler", file="chip.yaml", line=7, key="couplers[3]"))
     'chip.yaml:7: couplers[3]: lost coupler'
     >>> did_you_mean("prepp", ["prep", "round"])
     " (did you mean 'prep'?)"
+    >>> str(InputError("bad name", file="a\\nb.yaml"))
+    'a\\\\nb.yaml: bad name'
 """
 from __future__ import annotations
 

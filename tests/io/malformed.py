@@ -12,9 +12,9 @@ stim (REPEAT counts, probabilities, targets). Every mutant is deterministic in `
 
 Run on its own, it fuzzes the command line at scale and prints what it saw:
 
-    python tests/malformed.py --count 2000 --seed 1
+    python tests/io/malformed.py --count 2000 --seed 1
 
-(`tests/test_fuzz_inputs.py` runs a smaller, fixed sample in the suite.) Not a test
+(`tests/io/test_fuzz_inputs.py` runs a smaller, fixed sample in the suite.) Not a test
 module itself.
 """
 from __future__ import annotations
@@ -258,7 +258,8 @@ if __name__ == "__main__":
     import sys
     from pathlib import Path
 
-    sys.path.insert(0, str(Path(__file__).resolve().parent))
+    here = Path(__file__).resolve().parent
+    sys.path[:0] = [str(here), str(here.parent)]          # tests/io and tests (helpers)
     from test_fuzz_inputs import fuzz, summary
 
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
