@@ -18,8 +18,8 @@ through environment variables; the others are fixed.
   whole experiment (prep, rounds x round, readout): 10 times that;
 - fixed: chip qubit numbers 0 to 999,999 (the JSON Schema), YAML nesting 64 levels, values
   added by YAML aliases 1,000,000, `code --distance` 101 and `--rounds` 1,000 (and the patch
-  file within the file size), `find --monte-carlo` 10,000,000 shots, `find --processes` 4
-  per CPU.
+  file within the file size), `find --monte-carlo` 10,000,000 shots, `find --processes`
+  and `sweep --workers` 4 per CPU.
 
     >>> max_qubits()
     100000
@@ -86,7 +86,7 @@ def check_count(count: int, limit: int, *, what: str, setting: str | None = None
 def family_qubits(kind: str, **size) -> int:
     """Qubits of a lattice family of the given size, computed without building it.
 
-    Formulas as in `embedcheck.lattices` (heavy-hex: (m+1)(4n+3) + m(n+1) - 4; the
+    Formulas as in `embedcheck.model.lattices` (heavy-hex: (m+1)(4n+3) + m(n+1) - 4; the
     honeycomb "brick wall": (m+1)(2n+2) - 2 vertices; the square grid: rows x columns).
     """
     if kind in ("line", "ring"):
