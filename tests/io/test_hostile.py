@@ -1,8 +1,8 @@
-"""The hostile-input corpus (tests/hostile/): every file is refused the same clean way.
+"""The hostile-input corpus (tests/io/hostile/): every file is refused the same clean way.
 
 Each case (a file, or a folder of chip snapshots) is run through `validate`, `find` and
 `check` (a small project file pointing at it, with report paths): exit 2, exactly one
-line on stderr naming what is wrong (the fragment in tests/hostile/EXPECTED), no
+line on stderr naming what is wrong (the fragment in tests/io/hostile/EXPECTED), no
 traceback, nothing on stdout, nothing written (no report, no picture, no temporary
 file), every input byte-identical afterwards, and the secret-looking word planted in
 some files never echoed. The big cases are written at test time.
