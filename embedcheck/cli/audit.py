@@ -15,6 +15,7 @@ from .options import (
     parse_placement,
     positive_int,
     require_html_path,
+    seed_value,
 )
 
 if TYPE_CHECKING:
@@ -37,7 +38,7 @@ def add_parser(sub: Any) -> None:
                        help="also ask qiskit's router how many gates it would add (an estimate)")
     audit.add_argument("--cross-check", action="store_true",
                        help="re-check the audit with qiskit's transpiler (exit 3 if they disagree)")
-    audit.add_argument("--seed", type=int, default=11, help="router seed (default 11)")
+    audit.add_argument("--seed", type=seed_value, default=11, help="router seed (default 11)")
     audit.add_argument("--strict", action="store_true",
                        help="exit 1 when any circuit needs routing")
     audit.add_argument("--write-qasm", metavar="FOLDER",

@@ -7,7 +7,7 @@ import sys
 from typing import Any
 
 from ..errors import InputError, InternalError
-from .options import emit, finite
+from .options import emit, finite, non_negative_int
 
 __all__ = ["add_parser", "run"]
 
@@ -26,7 +26,7 @@ def add_parser(sub: Any) -> None:
                        help="a previous JSON report: say what got worse and what got better")
     check.add_argument("--fail-on-worse", action="store_true",
                        help="exit 1 when anything got worse against the baseline")
-    check.add_argument("--cross-check-top", type=int, metavar="N",
+    check.add_argument("--cross-check-top", type=non_negative_int, metavar="N",
                        help="placements per pair to re-check with qiskit's transpiler "
                             "(default: the project's, else 3; 0 turns it off)")
     check.set_defaults(run=run)
@@ -96,11 +96,8 @@ def _html(result: Any, payload: dict[str, Any]) -> str:
 
 
 def _read_baseline(path: str) -> dict[str, Any]:
-    from ..io.files import read_input
-    try:
-        data = json.loads(read_input(path, what="baseline report"))
-    except json.JSONDecodeError as exc:
-        raise InputError(f"baseline is not JSON: {exc.msg}", file=path, line=exc.lineno) from None
+    from ..io.files import read_json
+    data = read_json(path, what="baseline report")
     if not isinstance(data, dict) or data.get("command") != "check":
         raise InputError("baseline is not an embedcheck check report (--format json or the "
                          "project's json report)", file=path)

@@ -5,8 +5,9 @@ import argparse
 import sys
 from typing import Any
 
-from ..errors import InternalError
-from .options import emit, positive_int
+from ..errors import InputError, InternalError
+from ..io.limits import MAX_CODE_DISTANCE, MAX_CODE_ROUNDS
+from .options import bounded_int, emit
 
 __all__ = ["add_parser", "run"]
 
@@ -14,9 +15,14 @@ __all__ = ["add_parser", "run"]
 def add_parser(sub: Any) -> None:
     code = sub.add_parser("code", help="write a patch file for a built-in code family")
     code.add_argument("family", choices=("repetition", "flagged", "surface", "heavy-hex",
-                                         "heavy-hex-chipfit"))
-    code.add_argument("--distance", type=positive_int, default=3)
-    code.add_argument("--rounds", type=positive_int, default=2)
+                                         "heavy-hex-chipfit"),
+                      help="the code family (see the README: 'embedcheck code')")
+    code.add_argument("--distance", type=bounded_int(MAX_CODE_DISTANCE), default=3,
+                      help="code distance (default 3; odd for surface and heavy-hex, at least 2 "
+                           f"for repetition; at most {MAX_CODE_DISTANCE}; ignored by flagged)")
+    code.add_argument("--rounds", type=bounded_int(MAX_CODE_ROUNDS), default=2,
+                      help="check rounds the experiment runs between prep and readout "
+                           f"(default 2, at most {MAX_CODE_ROUNDS})")
     code.add_argument("--basis", choices=("z", "x"), default="z",
                       help="repetition code: z (bit-flip) or x (phase-flip)")
     code.add_argument("--prep", choices=("unitary", "naive", "product"),
@@ -36,8 +42,12 @@ def run(args: argparse.Namespace) -> int:
     outputs = Outputs()
     if args.output:
         outputs.claim(args.output, option="--output", overwrite=False)
-    code = build_code(args.family, distance=args.distance, rounds=args.rounds,
-                      basis=args.basis, prep=args.prep)
+    try:
+        code = build_code(args.family, distance=args.distance, rounds=args.rounds,
+                          basis=args.basis, prep=args.prep)
+    except InputError as err:      # a limit of the loader: name the options, not a temp file
+        raise InputError(f"code {args.family} --distance {args.distance} --rounds "
+                         f"{args.rounds}: {err.message}") from None
     if code.problems:                # our own family failing is a bug, never a user error
         raise InternalError(code.problems[0].message)
     patch, text = code.patch, code.text

@@ -7,14 +7,16 @@ from pathlib import Path
 from typing import Any
 
 from ..errors import InputError
+from ..io.limits import MAX_SHOTS
 from .options import (
     add_common,
     add_constraint_options,
     add_html_option,
     add_search_options,
+    bounded_int,
     emit,
+    max_processes,
     picture_bytes_for,
-    positive_int,
     progress_printer,
     request_constraints,
     require_html_path,
@@ -50,11 +52,11 @@ def add_parser(sub: Any) -> None:
                            "'fidelity_product'; 'auto' (default) takes 'undetected' when the "
                            "patch declares detectors and an observable and every circuit is "
                            "swap-free, else 'fidelity_product'")
-    find.add_argument("--monte-carlo", type=positive_int, metavar="SHOTS",
+    find.add_argument("--monte-carlo", type=bounded_int(MAX_SHOTS), metavar="SHOTS",
                       help="also sample SHOTS noisy shots of each listed placement with stim")
     find.add_argument("--decode", action="store_true",
                       help="with --monte-carlo, also decode by matching (pymatching)")
-    find.add_argument("--processes", type=positive_int, default=1,
+    find.add_argument("--processes", type=bounded_int(max_processes()), default=1,
                       help="worker processes for the placement search and the logical "
                            "scores (default 1)")
     find.add_argument("--compare-sdk", action="store_true",

@@ -35,6 +35,7 @@ def add_parser(sub: Any) -> None:
 
 def run(args: argparse.Namespace) -> int:
     from ..io.files import Outputs
+    from ..io.limits import check_count, family_qubits, max_qubits
     from ..io.writers import family_chip_yaml
     from ..model.lattices import build_family
     from ..version import __version__
@@ -49,6 +50,9 @@ def run(args: argparse.Namespace) -> int:
     if extra:
         raise InputError(f"family '{args.family}' does not take {', '.join(extra)}")
     name = args.name or f"{args.family}-" + "x".join(str(v) for v in size.values())
+    check_count(family_qubits(args.family, **size), max_qubits(), what="qubits",
+                setting="EMBEDCHECK_MAX_QUBITS",
+                detail=" ".join(f"--{p} {v}" for p, v in size.items()) + ": ")
     build_family(args.family, **size)            # refuses sizes the family cannot take
     text = family_chip_yaml(args.family, name, **size)
     if args.output:

@@ -14,12 +14,14 @@ from __future__ import annotations
 import argparse
 import json
 import math
+import os
 import sys
 from collections.abc import Callable
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, NoReturn
 
 from ..errors import InputError
+from ..io.limits import MAX_QUBIT_NUMBER
 
 if TYPE_CHECKING:
     from ..model.constraints import Constraints
@@ -28,10 +30,11 @@ if TYPE_CHECKING:
     from ..model.placement import Placement
 
 __all__ = ["Parser", "add_common", "add_constraint_options", "add_html_option",
-           "add_search_options", "emit",
-           "finite", "floats", "int_list", "kind_of", "pair_list", "parse_placement",
+           "add_search_options", "bounded_int", "emit", "finite", "floats", "int_list",
+           "kind_of", "max_processes", "non_negative_int", "pair_list", "parse_placement",
            "picture_bytes_for", "positive_float", "positive_int", "progress_printer",
-           "request_constraints", "require_html_path", "require_picture_path", "top_count"]
+           "request_constraints", "require_html_path", "require_picture_path", "seed_value",
+           "top_count"]
 
 
 class Parser(argparse.ArgumentParser):
@@ -86,7 +89,9 @@ def request_constraints(args: argparse.Namespace, patch: Patch,
 
 
 def int_list(text: str | None, option: str) -> list[int]:
-    out: list[int] = []
+    """Qubit numbers from '3,17,40-52' (ranges merged first, so no list is longer than the
+    qubit numbers that exist: 0 to MAX_QUBIT_NUMBER)."""
+    spans = []
     for part in filter(None, (t.strip() for t in (text or "").split(","))):
         lo, sep, hi = part.partition("-")
         try:
@@ -95,7 +100,15 @@ def int_list(text: str | None, option: str) -> list[int]:
             raise InputError(f"{option}: '{part}' is not a qubit number or range") from None
         if last < first:
             raise InputError(f"{option}: range '{part}' runs backwards; write {last}-{first}")
-        out += list(range(first, last + 1))
+        if first < 0 or last > MAX_QUBIT_NUMBER:
+            raise InputError(f"{option}: '{part}': qubit numbers run from 0 to "
+                             f"{MAX_QUBIT_NUMBER}")
+        spans.append((first, last))
+    out: list[int] = []
+    covered = -1
+    for first, last in sorted(spans):
+        out += range(max(first, covered + 1), last + 1)
+        covered = max(covered, last)
     return out
 
 
@@ -151,6 +164,47 @@ def positive_int(text: str) -> int:
         raise argparse.ArgumentTypeError(f"'{text}' is not a whole number") from None
     if value < 1:
         raise argparse.ArgumentTypeError(f"'{text}' must be at least 1")
+    return value
+
+
+def bounded_int(limit: int) -> Callable[[str], int]:
+    """An argparse type: a whole number from 1 to `limit` (sizes that would run for hours).
+
+    >>> bounded_int(101)("7")
+    7
+    """
+    def parse(text: str) -> int:
+        value = positive_int(text)
+        if value > limit:
+            raise argparse.ArgumentTypeError(f"{value} is above the limit of {limit}")
+        return value
+    return parse
+
+
+def non_negative_int(text: str) -> int:
+    """An argparse type: a whole number, 0 or more (a count where 0 turns something off)."""
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"'{text}' is not a whole number") from None
+    if value < 0:
+        raise argparse.ArgumentTypeError(f"'{text}' must be 0 or more")
+    return value
+
+
+def max_processes() -> int:
+    """Worker processes one command may start: four per CPU (at least 4)."""
+    return max(4, 4 * (os.cpu_count() or 1))
+
+
+def seed_value(text: str) -> int:
+    """An argparse type: a seed for qiskit's transpiler, a whole number from 0 to 2^63 - 1."""
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"'{text}' is not a whole number") from None
+    if not 0 <= value < 2 ** 63:
+        raise argparse.ArgumentTypeError(f"'{text}' must be a whole number from 0 to 2^63 - 1")
     return value
 
 
@@ -210,18 +264,20 @@ class _Progress:
 
 
 def kind_of(path: str) -> str:
-    """'chip' or 'patch', from the file's top-level version key (or a circuit file's suffix)."""
-    import re
-
-    from ..io.files import read_input
+    """'chip' or 'patch', from the file's top-level version key (or a circuit file's suffix;
+    a folder is a folder of chip snapshots). A file without a version key is refused for
+    the reason a loader would give (empty, not YAML, nested too deep)."""
+    from ..io.yamlfile import file_kind
+    if Path(path).is_dir():
+        return "chip"
     if Path(path).suffix.lower() in (".stim", ".qasm", ".qasm2", ".qasm3"):
         return "patch"
-    text = read_input(path)
-    m = re.search(r"^embedcheck_(chip|patch)\s*:", text, re.M)
-    if not m:
-        raise InputError("not a chip or patch file: it needs a version key "
-                         "'embedcheck_chip: 1' or 'embedcheck_patch: 1'", file=path)
-    return m.group(1)
+    kind = file_kind(path)
+    if kind in ("project", "sweep"):
+        command = "check" if kind == "project" else "sweep"
+        raise InputError(f"this is a {kind} file, not a chip or patch file (run "
+                         f"'embedcheck {command}' on it)", file=path)
+    return kind
 
 
 def add_html_option(p: argparse.ArgumentParser) -> None:

@@ -11,7 +11,7 @@ import json
 import sys
 from typing import Any
 
-from .options import positive_int
+from .options import bounded_int, max_processes
 
 __all__ = ["add_parser", "run"]
 
@@ -27,8 +27,9 @@ def add_parser(sub: Any) -> None:
                             "local cluster of worker processes started here)")
     where.add_argument("--serial", action="store_true",
                        help="run every task in this process (no Dask; for debugging)")
-    sweep.add_argument("--workers", type=positive_int, metavar="N",
-                       help="worker processes of the local cluster (default: the cores)")
+    sweep.add_argument("--workers", type=bounded_int(max_processes()), metavar="N",
+                       help="worker processes of the local cluster (default: the cores; at "
+                            "most 4 per CPU)")
     sweep.add_argument("--database", metavar="FILE",
                        help="SQLite results file (default: the sweep file's 'database', else "
                             "<sweep>.sqlite beside it)")

@@ -19,6 +19,7 @@ from ..errors import InputError
 from ..model.device import CouplerCalibration, Device, QubitCalibration, pair
 from ..model.lattices import FAMILIES, Lattice, build_family, cut
 from .files import note_input
+from .limits import SNAPSHOT_FACTOR, check_count, family_qubits, max_qubits
 from .yamlfile import Document, read_yaml
 
 __all__ = ["device_from_document", "devices_from_document", "load_device", "load_snapshots"]
@@ -41,7 +42,12 @@ def load_snapshots(path: str | Path) -> tuple[Device, ...]:
         files = sorted(p for p in path.iterdir() if p.suffix in (".yaml", ".yml"))
         if not files:
             raise InputError("the folder holds no .yaml chip files", file=str(path))
-        devices = [d for f in files for d in devices_from_document(read_yaml(f, "chip"))]
+        devices = []
+        for f in files:
+            devices += devices_from_document(read_yaml(f, "chip"))
+            check_count(sum(d.num_qubits for d in devices), SNAPSHOT_FACTOR * max_qubits(),
+                        what="qubit calibrations (snapshots x qubits) in the folder",
+                        setting="EMBEDCHECK_MAX_QUBITS", file=str(f))
         _same_graph(devices)
         for d in devices:
             if len(devices) > 1 and d.calibration_timestamp is None:
@@ -73,6 +79,10 @@ def devices_from_document(doc: Document) -> list[Device]:
     paths: list[tuple[str | int, ...]]
     if "snapshots" in data:
         paths = [("snapshots", i) for i in range(len(data["snapshots"]))]
+        check_count(len(paths) * len(qubits), SNAPSHOT_FACTOR * max_qubits(),
+                    what="qubit calibrations (snapshots x qubits)",
+                    setting="EMBEDCHECK_MAX_QUBITS", file=doc.file,
+                    line=doc.line(("snapshots",)), key="snapshots")
     else:
         paths = [("calibration",)]
     devices = []
@@ -124,17 +134,30 @@ def _graph(doc: Document):
         for extra in set(fam) - set(params) - {"kind"}:
             raise doc.error(("family", extra), f"family '{fam['kind']}' takes "
                             f"{' and '.join(params)}, not '{extra}'")
+        size = {p: fam[p] for p in params}
+        check_count(family_qubits(fam["kind"], **size), max_qubits(), what=f"qubits in a "
+                    f"{fam['kind']} family of this size", setting="EMBEDCHECK_MAX_QUBITS",
+                    file=doc.file, line=doc.line(("family",)), key="family")
         try:
-            lattice = build_family(fam["kind"], **{p: fam[p] for p in params})
+            lattice = build_family(fam["kind"], **size)
         except InputError as exc:
             raise doc.error(("family",), exc.message) from None
         qubits, couplers, positions = list(lattice.qubits), list(lattice.couplers), \
             dict(lattice.positions)
     elif "qubits" in data:
         qubits = data["qubits"]
+        check_count(qubits if isinstance(qubits, int) else len(qubits), max_qubits(),
+                    what="qubits", setting="EMBEDCHECK_MAX_QUBITS", file=doc.file,
+                    line=doc.line(("qubits",)), key="qubits")
         qubits = list(range(qubits)) if isinstance(qubits, int) else qubits
         if len(set(qubits)) != len(qubits):
-            dup = next(q for q in qubits if qubits.count(q) > 1)
+            seen_q: set = set()
+            dup = None
+            for q in qubits:
+                if q in seen_q:
+                    dup = q
+                    break
+                seen_q.add(q)
             raise doc.error(("qubits",), f"qubit {dup} is listed twice")
         couplers, positions = [tuple(c) for c in data.get("couplers", [])], {}
     else:
@@ -251,7 +274,7 @@ def _check_timestamp(doc, path, stamp):
     try:
         _parse_time(stamp)
     except ValueError:
-        raise doc.error(path, f"timestamp '{stamp}' does not parse: use ISO 8601, "
+        raise doc.error(path, "the timestamp does not parse: use ISO 8601, "
                               "e.g. 2026-11-30T06:00:00Z") from None
 
 

@@ -24,6 +24,7 @@ leaves nothing behind.
 """
 from __future__ import annotations
 
+import json
 import os
 import stat
 import tempfile
@@ -31,26 +32,13 @@ from pathlib import Path
 from typing import Iterable, Mapping
 
 from ..errors import InputError
+from .limits import MAX_FILE_MB, max_file_bytes
 
 __all__ = ["MAX_FILE_BYTES", "Outputs", "forget_inputs", "inputs_read", "max_file_bytes",
-           "read_input"]
+           "read_input", "read_json"]
 
-MAX_FILE_BYTES = 10 * 1024 * 1024        # default; EMBEDCHECK_MAX_FILE_MB overrides
+MAX_FILE_BYTES = MAX_FILE_MB * 1024 * 1024    # default; EMBEDCHECK_MAX_FILE_MB overrides
 _READ: dict[str, tuple[int, int, bool] | None] = {}   # resolved path -> (device, inode, folder?)
-
-
-def max_file_bytes() -> int:
-    """The largest input file accepted, in bytes (EMBEDCHECK_MAX_FILE_MB, default 10)."""
-    text = os.environ.get("EMBEDCHECK_MAX_FILE_MB")
-    if not text:
-        return MAX_FILE_BYTES
-    try:
-        value = float(text)
-    except ValueError:
-        raise InputError(f"EMBEDCHECK_MAX_FILE_MB: '{text}' is not a number") from None
-    if not value > 0 or value != value or value == float("inf"):
-        raise InputError(f"EMBEDCHECK_MAX_FILE_MB: '{text}' must be a positive number")
-    return int(value * 1024 * 1024)
 
 
 def read_input(path: str | Path, *, what: str = "file") -> str:
@@ -91,8 +79,24 @@ def read_input(path: str | Path, *, what: str = "file") -> str:
         text = data.decode("utf-8")
     except UnicodeDecodeError as exc:
         raise InputError(f"not UTF-8 text (byte {exc.start})", file=file) from None
+    if text.startswith("\ufeff"):             # a byte-order mark some editors write
+        text = text[1:]
     _READ[_resolved(path)] = (info.st_dev, info.st_ino, False)
     return text
+
+
+def read_json(path: str | Path, *, what: str = "file"):
+    """The JSON value of a small text file (see `read_input`), or a one-line `InputError`
+    naming the line (never the text: a parser message quotes none)."""
+    text = read_input(path, what=what)
+    try:
+        return json.loads(text)
+    except json.JSONDecodeError as exc:
+        raise InputError(f"{what} is not JSON: {exc.msg}", file=str(path),
+                         line=exc.lineno) from None
+    except (ValueError, RecursionError):      # a 5000-digit number, lists 10^5 deep
+        raise InputError(f"{what} is not JSON we can read: a number too long or lists "
+                         "nested too deeply", file=str(path)) from None
 
 
 def note_input(path: str | Path) -> None:

@@ -32,9 +32,10 @@ from ..model.patch import (
     natural_sort_key,
 )
 from .files import read_input
+from .limits import check_count, max_experiment_operations, max_operations, max_qubits
 from .qasm import read_qasm
 from .stimfile import load_stim, read_stim
-from .yamlfile import Document, parse_yaml, read_yaml
+from .yamlfile import Document, key_name, parse_yaml, read_yaml
 
 __all__ = ["input_root", "load_patch", "patch_from_document", "patch_from_family",
            "patch_from_qiskit", "patch_from_stim", "patch_from_stim_experiment"]
@@ -139,12 +140,14 @@ def patch_from_document(doc: Document) -> Patch:
     patch = _with_roles(data["name"], circuits, rounds=data.get("rounds", 1), roles=explicit,
                         role_registers=registers, source=doc.file,
                         description=data.get("description", ""), doc=doc)
+    record = _Record(patch)
     detectors = tuple(Detector(d.get("name", f"D{i}"),
-                               tuple(_resolve(doc, patch, ("detectors", i, "measurements", k), ref)
+                               tuple(_resolve(doc, patch, ("detectors", i, "measurements", k), ref,
+                                              record)
                                      for k, ref in enumerate(d["measurements"])),
                                doc.line(("detectors", i)))
                       for i, d in enumerate(data.get("detectors", [])))
-    observable = tuple(_resolve(doc, patch, ("observable", k), ref)
+    observable = tuple(_resolve(doc, patch, ("observable", k), ref, record)
                        for k, ref in enumerate(data.get("observable", [])))
     return _replace(patch, detectors=detectors, observable=observable,
                     constraints=_constraints(doc) if "constraints" in data else None)
@@ -193,9 +196,28 @@ def _with_roles(name, circuits, *, rounds, roles=None, role_registers=None, sour
         else:
             roles = infer_roles(circuits, rounds)
         roles = {q: roles[q] for q in sorted(roles, key=natural_sort_key)}
+    if not roles and (doc is not None or source is not None):
+        where = dict(file=doc.file, line=doc.line(("circuits",))) if doc is not None \
+            else dict(file=source)
+        raise InputError("no circuit of the patch acts on a qubit: nothing to place", **where)
     circuits = {n: _trim_barriers(c, roles) for n, c in circuits.items()}
+    _check_size(roles, circuits, rounds, source, doc)
     return Patch(name=name, qubits=tuple(roles), roles=roles, circuits=circuits, rounds=rounds,
                  description=description, source=source, roles_inferred=inferred)
+
+
+def _check_size(roles, circuits, rounds, source, doc) -> None:
+    """A patch's qubits, and the operations of its whole experiment (every run of the
+    round), stay within the limits (`embedcheck.io.limits`)."""
+    where = dict(file=doc.file, line=doc.line(("rounds",)), key="rounds") if doc is not None \
+        else dict(file=source)
+    check_count(len(roles), max_qubits(), what="patch qubits", setting="EMBEDCHECK_MAX_QUBITS",
+                **where)
+    total = sum(len(circuits[name].operations) * times
+                for name, times in experiment_order(circuits, rounds))
+    check_count(total, max_experiment_operations(), what="operations in the experiment "
+                f"(prep, {rounds:,} x round, readout)", setting="EMBEDCHECK_MAX_OPERATIONS",
+                **where)
 
 
 def _trim_barriers(circuit: Circuit, qubits) -> Circuit:
@@ -262,8 +284,13 @@ def _circuit(doc: Document, name: str, spec: dict) -> Circuit:
         raise doc.error(path + (key,), f"circuit file '{spec[key]}': {err.message}") from None
     if key == "stim":
         exp = read_stim(text, file=str(target))
+        order = experiment_order(exp.circuits, exp.rounds)
+        check_count(sum(len(exp.circuits[part]) * times for part, times in order),
+                    max_operations(), what="operations once its REPEAT block is unrolled",
+                    setting="EMBEDCHECK_MAX_OPERATIONS", file=doc.file,
+                    line=doc.line(path + (key,)), key=key_name(path + (key,)))
         ops: list[Operation] = []
-        for part, times in experiment_order(exp.circuits, exp.rounds):
+        for part, times in order:
             ops += list(exp.circuits[part]) * times
         return Circuit(name, tuple(ops), None, str(target))
     return Circuit(name, tuple(read_qasm(text, file=str(target))), text, str(target))
@@ -294,12 +321,36 @@ _REF = re.compile(r"^(?P<circuit>[A-Za-z_][A-Za-z0-9_-]*)(\[(?P<rep>[0-9]+)\])?"
                   r"(:(?P<bit>.+)|#(?P<k>[0-9]+))$")
 
 
-def _resolve(doc: Document, patch: Patch, path, ref: str) -> int:
+class _Record:
+    """Where each circuit's measurements sit in the experiment's record, computed once per
+    patch (the record itself has rounds x measurements entries, too many to search for
+    every reference of a big code)."""
+
+    def __init__(self, patch: Patch):
+        self.times = dict(patch.experiment())
+        self.start: dict[str, int] = {}          # first index of the circuit's first run
+        self.count: dict[str, int] = {}          # measurements in one run
+        self.bits: dict[str, dict] = {}          # circuit -> classical bit -> positions in a run
+        at = 0
+        for name, times in patch.experiment():
+            measures = patch.circuits[name].measurements
+            self.start[name], self.count[name] = at, len(measures)
+            bits: dict = {}
+            for k, op in enumerate(measures):
+                if op.clbit:
+                    bits.setdefault(op.clbit, []).append(k)
+            self.bits[name] = bits
+            at += len(measures) * times
+
+
+def _resolve(doc: Document, patch: Patch, path, ref: str, record: _Record) -> int:
     """A measurement reference -> its index in the experiment's measurement record."""
     m = _REF.match(ref)
-    assert m is not None                  # the schema's pattern already matched it
+    if m is None:
+        raise doc.error(path, "not a measurement reference: write circuit[repetition]:bit or "
+                              "circuit[repetition]#k")
     circuit, rep = m.group("circuit"), int(m.group("rep") or 0)
-    times = dict(patch.experiment())
+    times = record.times
     if circuit not in patch.circuits:
         raise doc.error(path, f"'{ref}': the patch has no circuit '{circuit}'"
                               f"{did_you_mean(circuit, patch.circuits)}")
@@ -308,21 +359,19 @@ def _resolve(doc: Document, patch: Patch, path, ref: str) -> int:
     if rep >= times[circuit]:
         raise doc.error(path, f"'{ref}': circuit '{circuit}' runs {times[circuit]} time(s); "
                               f"repetitions count from 0")
-    record = patch.measurement_record()
-    mine = [i for i, (c, r, _) in enumerate(record) if c == circuit and r == rep]
+    first = record.start[circuit] + rep * record.count[circuit]
     if m.group("k") is not None:
         k = int(m.group("k"))
-        if k >= len(mine):
-            raise doc.error(path, f"'{ref}': circuit '{circuit}' has only {len(mine)} "
-                            "measurement(s)")
-        return mine[k]
+        if k >= record.count[circuit]:
+            raise doc.error(path, f"'{ref}': circuit '{circuit}' has only "
+                                  f"{record.count[circuit]} measurement(s)")
+        return first + k
     bit = m.group("bit")
-    hits = [i for i in mine if record[i][2].clbit == bit]
+    hits = record.bits[circuit].get(bit, [])
     if not hits:
-        bits = [record[i][2].clbit for i in mine if record[i][2].clbit]
         raise doc.error(path, f"'{ref}': no measurement of circuit '{circuit}' writes bit '{bit}'"
-                              f"{did_you_mean(bit, bits)}")
+                              f"{did_you_mean(bit, list(record.bits[circuit]))}")
     if len(hits) > 1:
         raise doc.error(path, f"'{ref}': {len(hits)} measurements write bit '{bit}'; refer to one "
                               f"as '{circuit}[{rep}]#k'")
-    return hits[0]
+    return first + hits[0]

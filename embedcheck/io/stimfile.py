@@ -25,9 +25,10 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from ..errors import InputError
+from ..errors import InputError, without_quotes
 from ..model.patch import Operation
 from .files import read_input
+from .limits import check_count, max_experiment_operations, max_operations
 
 __all__ = ["StimExperiment", "load_stim", "read_stim"]
 
@@ -88,6 +89,7 @@ def _items(circuit):
     for inst in circuit:
         if isinstance(inst, stim.CircuitRepeatBlock):
             body = []
+            _check_repeat(inst.repeat_count, len(inst.body_copy()), None, None)
             for inner in inst.body_copy():
                 if isinstance(inner, stim.CircuitRepeatBlock):
                     raise InputError("nested REPEAT blocks are not supported")
@@ -108,16 +110,19 @@ def _lines(text: str, file):
         try:
             return list(stim.Circuit(line_text))
         except ValueError as exc:
-            raise InputError(f"stim: {str(exc).strip().splitlines()[0]}", file=file,
+            message = (str(exc).strip().splitlines() or ["cannot parse"])[0]
+            raise InputError(f"stim: {without_quotes(message)}", file=file,
                              line=number) from None
 
+    check_count(text.count("\n") + 1, max_operations(), what="lines",
+                setting="EMBEDCHECK_MAX_OPERATIONS", file=file)
     out: list[Any] = []
     block: tuple[int, int, list[Any]] | None = None
-    for number, raw in enumerate(text.splitlines(), 1):
+    for number, raw in enumerate(text.split("\n"), 1):
         line = raw.split("#", 1)[0].strip()
         if not line:
             continue
-        head = re.fullmatch(r"REPEAT\s+(\d+)\s*\{", line)
+        head = re.fullmatch(r"REPEAT\s+(\d{1,18})\s*\{", line)
         if head:
             if block is not None:
                 raise InputError("nested REPEAT blocks are not supported", file=file, line=number)
@@ -127,6 +132,7 @@ def _lines(text: str, file):
             if block is None:
                 raise InputError("stim: '}' without an open REPEAT block", file=file, line=number)
             start, count, body = block
+            _check_repeat(count, len(body), file, start)
             out.append((start, _Repeat(count, body)))
             block = None
             continue
@@ -137,9 +143,17 @@ def _lines(text: str, file):
     return out
 
 
+def _check_repeat(count: int, body: int, file, line) -> None:
+    """A REPEAT block is run `count` times: its unrolled size is bounded before it is run."""
+    check_count(count * max(body, 1), max_experiment_operations(),
+                what="instructions once unrolled", setting="EMBEDCHECK_MAX_OPERATIONS",
+                file=file, line=line, detail=f"REPEAT {count:,}: ")
+
+
 class _Walker:
     def __init__(self, file):
         self.file = file
+        self.max_ops = max_operations()
         self.measured = 0
         self.detectors: list[tuple[int, ...]] = []
         self.detector_lines: list[int | None] = []
@@ -147,11 +161,21 @@ class _Walker:
 
     def repeat(self, block: _Repeat, out):
         """The body's operations once into `out`; detectors and measurements for every pass."""
+        first_measure, first_detector = self.measured, len(self.detectors)
+        observable = set(self.observable)
         for line, inst in block.body:
             self.instruction(inst, out, line)
-        for _ in range(block.count - 1):
-            for line, inst in block.body:
-                self.instruction(inst, [], line, record_ops=False)
+        # Every later pass repeats the first one, shifted by the measurements it makes.
+        step = self.measured - first_measure
+        detectors = self.detectors[first_detector:]
+        lines = self.detector_lines[first_detector:]
+        toggled = self.observable ^ observable
+        for k in range(1, block.count):
+            shift = k * step
+            self.detectors += [tuple(i + shift for i in det) for det in detectors]
+            self.detector_lines += lines
+            self.observable ^= {i + shift for i in toggled}
+        self.measured += step * (block.count - 1)
 
     def instruction(self, inst, out, line, record_ops=True):
         import stim
@@ -159,8 +183,14 @@ class _Walker:
         name = inst.name
         data = stim.gate_data(name)
         targets = inst.targets_copy()
+        if record_ops and len(out) + len(targets) > self.max_ops:
+            check_count(len(out) + len(targets), self.max_ops, what="operations",
+                        setting="EMBEDCHECK_MAX_OPERATIONS", file=self.file, line=line)
         if name in ("DETECTOR", "OBSERVABLE_INCLUDE"):
             for t in targets:
+                if not t.is_measurement_record_target or t.value >= 0:
+                    raise InputError(f"stim: {name} takes measurement records rec[-k] with "
+                                     "k >= 1", file=self.file, line=line)
                 if self.measured + t.value < 0:
                     raise InputError(f"stim: {name} looks back to rec[{t.value}] but only "
                                      f"{self.measured} measurement(s) came before it",

@@ -3,12 +3,18 @@
 `read_yaml(path, schema_name)` returns a `Document`: the plain data plus the line of
 every key path, so the loaders can point at the offending line even for checks the
 schema cannot express (a coupler naming a missing qubit, say). Schemas live in
-`embedcheck/schemas/*.schema.json` (JSON Schema draft 2020-12).
+`embedcheck/schemas/*.schema.json` (JSON Schema draft 2020-12). `plain_yaml` is the
+reader underneath: plain values only, nesting and alias expansion bounded.
+
+    >>> data, lines = plain_yaml("a: [1, 2]\\nb: x\\n", "t.yaml")
+    >>> data, lines[("b",)]
+    ({'a': [1, 2], 'b': 'x'}, 2)
 """
 from __future__ import annotations
 
 import json
 import math
+import re
 from dataclasses import dataclass
 from functools import lru_cache
 from importlib import resources
@@ -18,10 +24,13 @@ from typing import Any
 import jsonschema
 import yaml
 
-from ..errors import InputError, did_you_mean
+from ..errors import InputError, did_you_mean, without_quotes
 from .files import read_input
+from .limits import MAX_ALIAS_VALUES, MAX_YAML_DEPTH
+from .schemacheck import compile_schema
 
-__all__ = ["Document", "key_name", "parse_yaml", "read_yaml", "schema"]
+__all__ = ["Document", "file_kind", "key_name", "parse_yaml", "plain_yaml", "read_yaml",
+           "schema"]
 
 KeyPath = tuple  # of str keys and int list indices
 
@@ -68,21 +77,31 @@ def read_yaml(path: str | Path, schema_name: str) -> Document:
     return parse_yaml(text, file, schema_name)
 
 
+def file_kind(path: str | Path) -> str:
+    """'chip', 'patch', 'project' or 'sweep', from a YAML file's version key.
+
+    A file without one is refused with the reason a loader would give (it is empty, not
+    YAML, nested too deep, not a mapping), or else for its missing version key.
+    """
+    file = str(path)
+    text = read_input(path)
+    m = _VERSION_KEY.search(text)
+    if m:
+        return m.group(1)
+    data, _ = plain_yaml(text, file)
+    if not isinstance(data, dict):
+        raise InputError("a chip or patch file must be a mapping of keys, found "
+                         f"{type(data).__name__}", file=file, line=1)
+    raise InputError("not a chip or patch file: it needs a version key 'embedcheck_chip: 1' "
+                     "or 'embedcheck_patch: 1'", file=file, line=1)
+
+
+_VERSION_KEY = re.compile(r"^embedcheck_(chip|patch|project|sweep)\s*:", re.M)
+
+
 def parse_yaml(text: str, file: str, schema_name: str) -> Document:
     """Parse YAML text (named `file` in messages) and validate it against a schema."""
-    try:
-        node = yaml.compose(text, Loader=yaml.SafeLoader)
-    except yaml.YAMLError as exc:
-        mark = getattr(exc, "problem_mark", None)
-        problem = getattr(exc, "problem", None) or str(exc).splitlines()[0]
-        raise InputError(f"YAML syntax error: {problem}", file=file,
-                         line=mark.line + 1 if mark else None) from None
-    if node is None:
-        raise InputError("file is empty", file=file)
-    _refuse_alias_bombs(node, file)
-    lines: dict = {}
-    budget = [_MAX_NODES]
-    data = _to_python(node, (), lines, file, budget)
+    data, lines = plain_yaml(text, file)
     doc = Document(file, data, lines)
     _check_kind(doc, schema_name)
     _validate(doc, schema(schema_name))
@@ -98,9 +117,12 @@ def _check_kind(doc: Document, schema_name: str) -> None:
     if key in doc.data:
         if doc.data[key] != 1 or isinstance(doc.data[key], bool):
             got = doc.data[key]
-            hint = " (write the number 1, not a string)" if got == "1" else \
-                " (this embedcheck reads version 1)"
-            raise doc.error((key,), f"format version {got!r} is not supported{hint}")
+            if isinstance(got, (int, float)) and not isinstance(got, bool):
+                raise doc.error((key,), f"format version {got} is not supported (this "
+                                        "embedcheck reads version 1)")
+            hint = " (write the number 1, without quotes)" if got == "1" else ""
+            raise doc.error((key,), f"the format version must be the number 1, not "
+                                    f"{shown(got)}{hint}")
         return
     other = [k for k in doc.data if k.startswith("embedcheck_")]
     if other:
@@ -110,115 +132,253 @@ def _check_kind(doc: Document, schema_name: str) -> None:
                      file=doc.file, line=1)
 
 
-_MAX_NODES = 1_000_000      # values after expanding aliases; refuses "billion laughs" files
 _PLAIN_TAGS = {f"tag:yaml.org,2002:{t}" for t in
                ("map", "seq", "str", "int", "float", "bool", "null", "timestamp")}
+_LOADER = getattr(yaml, "CSafeLoader", yaml.SafeLoader)      # libyaml when installed
+_RESOLVER = yaml.resolver.Resolver()
+_CONSTRUCTOR = yaml.constructor.SafeConstructor()
+_DECIMAL = re.compile(r"[-+]?(?:0|[1-9][0-9]{0,17})")        # YAML 1.1 reads these as int()
+_DOTTED = re.compile(r"[-+]?[0-9]{1,30}\.[0-9]{0,30}")       # ... and these as float()
 
 
-def _children(node: Any) -> list[Any]:
-    """The value nodes `_to_python` visits below `node` (mapping values, sequence items)."""
-    if isinstance(node, yaml.MappingNode):
-        return [value for _, value in node.value]
-    if isinstance(node, yaml.SequenceNode):
-        return list(node.value)
-    return []
+class _Open:
+    """A mapping or list being filled while the events stream by."""
+
+    __slots__ = ("value", "path", "key", "anchor", "size", "line", "is_list")
+
+    def __init__(self, value, path, anchor, line):
+        self.value, self.path, self.anchor, self.line = value, path, anchor, line
+        self.is_list = isinstance(value, list)
+        self.key = None                 # a mapping's key waiting for its value
+        self.size = 1                   # values in it, itself included
 
 
-def _refuse_alias_bombs(root: Any, file: str) -> None:
-    """Refuse, before building anything, a file that expands past `_MAX_NODES` values.
+_NOT_A_KEY = "a key must be a plain value (a word or a number), not a list, a mapping or an alias"
 
-    An alias repeats a node, so the expanded size is counted once per distinct node
-    (memoised); the error names the line of the value at which the count passes the
-    limit, in the order `_to_python` visits values. Time: one pass over the distinct
-    nodes, however many values the aliases would make.
+
+def plain_yaml(text: str, file: str) -> tuple[Any, dict]:
+    """Plain data and the line of every key path, from YAML text, without recursion.
+
+    The parser's events are assembled on an explicit stack, so that nesting is refused
+    at `MAX_YAML_DEPTH` before anything deep is built (a recursive composer overflows
+    the stack on a 20000-deep list). Only plain YAML types are built: a tag such as
+    `!!python/object` is an error (never constructed). An alias shares the value of
+    its anchor; the values aliases add are counted as they appear, and past
+    `MAX_ALIAS_VALUES` the file is refused at once ("billion laughs"), before any
+    expansion. Duplicate keys, merge keys (`<<`) and non-scalar keys are errors.
+    Timestamps stay the strings they were written as. A list item on the line where
+    its list starts gets no line of its own (`Document.line` falls back to the list's):
+    that keeps the table small for the couplers of a big chip.
     """
-    sizes: dict[int, int] = {}
-    order: list[Any] = []                  # distinct nodes, parents before children
-    stack, seen = [root], set()
-    while stack:
-        node = stack.pop()
-        if id(node) in seen:
-            continue
-        seen.add(id(node))
-        order.append(node)
-        stack.extend(_children(node))
-    for node in reversed(order):           # children before parents (the graph is acyclic)
-        sizes[id(node)] = 1 + sum(sizes.get(id(c), 0) for c in _children(node))
-    if sizes[id(root)] <= _MAX_NODES:
-        return
-    node, left = root, _MAX_NODES
-    while True:                            # walk down to the value that passes the limit
-        left -= 1
-        if left < 0:
-            break
-        for child in _children(node):
-            if sizes[id(child)] <= left:
-                left -= sizes[id(child)]
-                continue
-            node = child
-            break
-    raise InputError(f"the file expands to more than {_MAX_NODES} values (through YAML "
-                     "aliases?); refusing to read it", file=file, line=node.start_mark.line + 1)
+    lines: dict = {}
+    anchors: dict = {}                  # name -> (value, size)
+    stack: list[_Open] = []
+    root: list = []
+    documents = 0
+    added = 0                           # values added through aliases
+    words: dict = {}                    # plain scalar text -> value, for repeated words
+    scalar_event, alias_event = yaml.ScalarEvent, yaml.AliasEvent
+    starts = (yaml.MappingStartEvent, yaml.SequenceStartEvent)
+    ends = (yaml.MappingEndEvent, yaml.SequenceEndEvent)
+
+    def fail(message, event, key=None):
+        return InputError(message, file=file, line=event.start_mark.line + 1, key=key)
+
+    def put(top, value, size, line, event, scalar):
+        """Add a finished value to the open container `top` (or make it the root)."""
+        if top is None:
+            root.append(value)
+            lines.setdefault((), line)
+            return
+        top.size += size
+        if top.is_list:
+            if line != top.line:
+                lines[top.path + (len(top.value),)] = line
+            top.value.append(value)
+        elif top.key is None:
+            if not scalar:
+                raise fail(_NOT_A_KEY, event)
+            key = str(value)
+            if key in top.value:
+                raise fail(f"duplicate key '{key}'", event, key_name(top.path + (key,)))
+            lines[top.path + (key,)] = line
+            top.key = key
+        else:
+            top.value[top.key] = value
+            top.key = None
+
+    loader = _LOADER(text)
+    try:
+        while True:
+            event = loader.get_event()
+            kind = type(event)
+            if kind is scalar_event:
+                top = stack[-1] if stack else None
+                text_ = event.value
+                if event.tag is None and event.implicit[0] and not event.style \
+                        and event.anchor is None:
+                    value = words.get(text_, words)
+                    if value is words:
+                        value = _scalar(event, file, top)
+                        if isinstance(value, str) and len(text_) < 64:
+                            words[text_] = value
+                else:
+                    value = _scalar(event, file, top)
+                    if event.anchor is not None:
+                        anchors[event.anchor] = (value, 1)
+                line = event.start_mark.line + 1
+                if event.style in ("|", ">") and top is not None and \
+                        (top.is_list or top.key is not None):
+                    # Block scalars start on the line after their indicator; remember
+                    # that offset so inline OpenQASM can report lines of the YAML file.
+                    path = top.path + ((len(top.value),) if top.is_list else (top.key,))
+                    lines.setdefault(path, line)
+                    lines[path + ("<text>",)] = line + 1
+                put(top, value, 1, line, event, True)
+            elif kind in starts:
+                if event.tag not in (None, "!") and event.tag not in _PLAIN_TAGS:
+                    raise fail(f"YAML tag '{event.tag}' is not allowed: only plain values, "
+                               "lists and mappings", event)
+                if len(stack) >= MAX_YAML_DEPTH:
+                    raise fail(f"lists and mappings nested more than {MAX_YAML_DEPTH} deep; "
+                               "refusing to read further", event)
+                line = event.start_mark.line + 1
+                top = stack[-1] if stack else None
+                if top is None:
+                    path = ()
+                elif top.is_list:
+                    path = top.path + (len(top.value),)
+                elif top.key is None:
+                    raise fail(_NOT_A_KEY, event)
+                else:
+                    path = top.path + (top.key,)
+                lines.setdefault(path, line)
+                stack.append(_Open({} if kind is starts[0] else [], path, event.anchor, line))
+            elif kind in ends:
+                done = stack.pop()
+                if done.anchor is not None:
+                    anchors[done.anchor] = (done.value, done.size)
+                put(stack[-1] if stack else None, done.value, done.size, done.line, event,
+                    False)
+            elif kind is alias_event:
+                if event.anchor not in anchors:
+                    if any(o.anchor == event.anchor for o in stack):
+                        raise fail("an alias refers to a value that contains it", event)
+                    raise fail("an alias refers to an anchor that is not defined before it",
+                               event)
+                value, size = anchors[event.anchor]
+                added += size
+                if added > MAX_ALIAS_VALUES:
+                    raise fail(f"YAML aliases expand the file by more than {MAX_ALIAS_VALUES:,} "
+                               "values; refusing to read it", event)
+                put(stack[-1] if stack else None, value, size, event.start_mark.line + 1,
+                    event, False)
+            elif kind is yaml.DocumentStartEvent:
+                documents += 1
+                if documents > 1:
+                    raise fail("a second YAML document ('---'): give one document per file",
+                               event)
+            elif kind is yaml.StreamEndEvent or event is None:
+                break
+    except yaml.YAMLError as exc:
+        mark = getattr(exc, "problem_mark", None)
+        raise InputError(f"YAML syntax error: {_yaml_problem(exc)}", file=file,
+                         line=mark.line + 1 if mark else None) from None
+    finally:
+        loader.dispose()
+    if not root:
+        raise InputError("file is empty", file=file)
+    return root[0], lines
 
 
-def _to_python(node, path, lines, file, budget):
-    """Turn a composed YAML node into plain data, recording lines; reject duplicate keys.
-
-    Only plain YAML types are built: a tag such as `!!python/object` is an error (never
-    constructed), and a file that expands past `_MAX_NODES` values through aliases is
-    refused. Timestamps stay the strings they were written as.
-    """
-    budget[0] -= 1
-    if budget[0] < 0:
-        raise InputError(f"the file expands to more than {_MAX_NODES} values (through YAML "
-                         "aliases?); refusing to read it", file=file, line=node.start_mark.line + 1)
-    if node.tag not in _PLAIN_TAGS:
-        raise InputError(f"YAML tag '{node.tag}' is not allowed: only plain values, lists and "
-                         "mappings", file=file, line=node.start_mark.line + 1)
-    lines.setdefault(path, node.start_mark.line + 1)
-    if isinstance(node, yaml.MappingNode):
-        out = {}
-        for key_node, value_node in node.value:
-            if not isinstance(key_node, yaml.ScalarNode) or key_node.tag not in _PLAIN_TAGS:
-                raise InputError("a key must be a plain value", file=file,
-                                 line=key_node.start_mark.line + 1)
-            key = str(_scalar(key_node))
-            if key in out:
-                raise InputError(f"duplicate key '{key}'", file=file,
-                                 line=key_node.start_mark.line + 1, key=key_name(path + (key,)))
-            lines[path + (key,)] = key_node.start_mark.line + 1
-            out[key] = _to_python(value_node, path + (key,), lines, file, budget)
-        return out
-    if isinstance(node, yaml.SequenceNode):
-        return [_to_python(item, path + (i,), lines, file, budget)
-                for i, item in enumerate(node.value)]
-    value = node.value if node.tag.endswith(":timestamp") else _scalar(node)
+def _scalar(event, file, top):
+    """The plain value of a scalar event, as PyYAML's safe loader builds it."""
+    value = event.value
+    tag = event.tag
+    if tag in (None, "!"):
+        if event.implicit[0] and not event.style:
+            if _DECIMAL.fullmatch(value):
+                return int(value)
+            if _DOTTED.fullmatch(value):
+                return float(value)
+        tag = _RESOLVER.resolve(yaml.ScalarNode, value, event.implicit)
+    line = event.start_mark.line + 1
+    if tag == "tag:yaml.org,2002:merge":
+        raise InputError("YAML merge keys ('<<') are not supported: write the keys out",
+                         file=file, line=line)
+    if tag not in _PLAIN_TAGS:
+        raise InputError(f"YAML tag '{tag}' is not allowed: only plain values, lists and "
+                         "mappings", file=file, line=line)
+    if tag.endswith((":str", ":timestamp")):
+        return value
+    key = None
+    if top is not None and (top.is_list or top.key is not None):
+        key = key_name(top.path + ((len(top.value),) if top.is_list else (top.key,)))
+    if tag.endswith(":int") and len(value) > 40:
+        raise InputError(f"a number of {len(value)} digits is too large", file=file,
+                         line=line, key=key)
+    node = yaml.ScalarNode(tag, value, event.start_mark, event.end_mark, event.style)
+    value = _CONSTRUCTOR.yaml_constructors[tag](_CONSTRUCTOR, node)
     if isinstance(value, float) and not math.isfinite(value):
-        raise InputError(f"{node.value} is not a finite number", file=file,
-                         line=node.start_mark.line + 1, key=key_name(path))
-    if isinstance(value, str) and node.style in ("|", ">"):
-        # Block scalars start on the line after their indicator; remember that offset
-        # so OpenQASM written inline can report lines of the YAML file.
-        lines[path + ("<text>",)] = node.start_mark.line + 2
+        raise InputError(f"{event.value} is not a finite number", file=file, line=line, key=key)
     return value
 
 
-def _scalar(node):
-    return yaml.SafeLoader.construct_object(yaml.SafeLoader(""), node)
+def _yaml_problem(exc) -> str:
+    """The parser's description of a syntax error, without any text of the file.
+
+    PyYAML and libyaml quote the offending characters in some messages ("found
+    character '%' that cannot start any token"); CI logs are public, so quoted text is
+    left out: the line number says where to look.
+    """
+    problem = getattr(exc, "problem", None) or str(exc).splitlines()[0]
+    return without_quotes(problem)
+
+
+_FULL_EXPLAIN_VALUES = 50_000    # below this many values, jsonschema explains the whole file
+
+
+@lru_cache(maxsize=None)
+def _fast_check(name: str):
+    return compile_schema(schema(name))
 
 
 def _validate(doc: Document, the_schema: dict) -> None:
-    validator = jsonschema.Draft202012Validator(the_schema)
-    errors = list(validator.iter_errors(doc.data))
+    """Raise the InputError of the first schema error in the file, if any.
+
+    The fast check decides; jsonschema writes the message. On a big file it is asked
+    only about the part that failed (with the sub-schema that failed there), because
+    it is too slow for a million values.
+    """
+    name = the_schema.get("$id", "").split("/")[-1].split(".")[0]
+    failure = _fast_check(name)(doc.data) if name and schema(name) is the_schema else ((), None)
+    if failure is None:
+        return
+    path, sub = failure
+    if sub is None or len(doc.lines) < _FULL_EXPLAIN_VALUES:
+        path, sub = (), the_schema
+    part = {**sub, "$defs": the_schema.get("$defs", {})}
+    errors = list(jsonschema.Draft202012Validator(part).iter_errors(_at(doc.data, path)))
+    if not errors and path:
+        path = ()
+        errors = list(jsonschema.Draft202012Validator(the_schema).iter_errors(doc.data))
     if not errors:
         return
     # Report the error that comes first in the file, deepest first at equal lines.
-    errors.sort(key=lambda e: (doc.line(tuple(e.absolute_path)) or 0, -len(e.absolute_path)))
-    raise _explain(doc, errors[0])
+    found = [(path + tuple(e.absolute_path), e) for e in errors]
+    found.sort(key=lambda pe: (doc.line(pe[0]) or 0, -len(pe[0])))
+    raise _explain(doc, *found[0])
 
 
-def _explain(doc: Document, err: jsonschema.ValidationError) -> InputError:
-    path = tuple(err.absolute_path)
+def _at(data, path):
+    for part in path:
+        data = data[part]
+    return data
+
+
+def _explain(doc: Document, path: KeyPath, err: jsonschema.ValidationError) -> InputError:
+    """One line for a schema error. Keys, numbers and the schema's own words are named;
+    strings from the file are not (see `shown`)."""
     if err.validator == "additionalProperties":
         known = list(err.schema.get("properties", {}))
         extra = sorted(set(err.instance) - set(known))
@@ -231,20 +391,68 @@ def _explain(doc: Document, err: jsonschema.ValidationError) -> InputError:
         return doc.error(path, f"missing required key '{missing}'")
     if err.validator == "enum":
         choices = ", ".join(repr(c) for c in err.validator_value)
-        return doc.error(path, f"{err.instance!r} is not one of {choices}"
+        got = "" if isinstance(err.instance, str) else f", not {shown(err.instance)}"
+        return doc.error(path, f"must be one of {choices}{got}"
                                f"{did_you_mean(err.instance, err.validator_value)}")
     if err.validator in ("minimum", "maximum", "exclusiveMinimum", "exclusiveMaximum"):
         bound = {"minimum": ">=", "maximum": "<=", "exclusiveMinimum": ">",
                  "exclusiveMaximum": "<"}[err.validator]
         hint = " (a probability must lie in [0, 1])" if path and "error" in str(path[-1]) else ""
-        return doc.error(path, f"{err.instance!r} must be {bound} {err.validator_value}{hint}")
+        return doc.error(path, f"{shown(err.instance)} must be {bound} "
+                               f"{err.validator_value}{hint}")
     if err.validator == "type":
         want = err.validator_value
-        want = " or ".join(want) if isinstance(want, list) else want
-        return doc.error(path, f"{err.instance!r} should be of type {want}")
+        want = " or ".join(_TYPE_NAMES.get(str(w), str(w))
+                           for w in (want if isinstance(want, list) else [want]))
+        return doc.error(path, f"should be {want}, not {shown(err.instance)}")
     if err.validator == "const":
-        return doc.error(path, f"must be {err.validator_value!r}, got {err.instance!r}")
+        return doc.error(path, f"must be {err.validator_value!r}, not {shown(err.instance)}")
     if err.validator == "oneOf" or err.validator == "anyOf":
-        return doc.error(path, f"{err.instance!r} is not valid here: expected "
+        deeper = [e for e in err.context if e.relative_path]
+        if deeper:          # the branch of the right shape failed inside: say where and why
+            inner = max(deeper, key=lambda e: len(e.relative_path))
+            return _explain(doc, path + tuple(inner.relative_path), inner)
+        return doc.error(path, f"{shown(err.instance)} is not valid here: expected "
                                + err.schema.get("description", "another form"))
-    return doc.error(path, err.message)
+    if err.validator == "pattern":
+        owner = _at(doc.data, path)
+        if isinstance(owner, dict) and err.instance in owner:        # a key (propertyNames)
+            return doc.error(path + (err.instance,), f"the name '{err.instance}' does not "
+                                                     f"match the pattern {err.validator_value}")
+        return doc.error(path, f"does not match the pattern {err.validator_value}")
+    if err.validator in ("minItems", "maxItems"):
+        word = "at least" if err.validator == "minItems" else "at most"
+        return doc.error(path, f"needs {word} {err.validator_value} item(s), has "
+                               f"{len(err.instance)}")
+    if err.validator == "minLength":
+        return doc.error(path, f"needs at least {err.validator_value} character(s)")
+    if err.validator == "minProperties":
+        return doc.error(path, f"needs at least {err.validator_value} key(s)")
+    return doc.error(path, without_quotes(err.message))
+
+
+_TYPE_NAMES = {"integer": "a whole number", "number": "a number", "string": "a string",
+               "array": "a list", "object": "a mapping", "boolean": "true or false",
+               "null": "empty"}
+
+
+def shown(value) -> str:
+    """How an error names a value from a file: numbers as they are, anything else by its
+    kind, so that no text of the file reaches a (possibly public) log.
+
+    >>> shown(0.5), shown(True), shown("hunter2"), shown([1, 2])
+    ('0.5', 'true', 'a string', 'a list of 2 item(s)')
+    """
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if value is None:
+        return "an empty value"
+    if isinstance(value, (int, float)):
+        return repr(value)
+    if isinstance(value, str):
+        return "a string"
+    if isinstance(value, list):
+        return f"a list of {len(value)} item(s)"
+    if isinstance(value, dict):
+        return "a mapping"
+    return type(value).__name__

@@ -45,12 +45,13 @@ SYMMETRIC_GATES = frozenset({"cz", "swap", "rzz", "rxx", "ryy", "cp", "cu1", "cp
                              "dcx"})
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, slots=True)
 class Operation:
     """One operation of a circuit on patch qubits.
 
     kind is '1q', '2q', 'measure', 'reset' or 'barrier'. `written` is the gate as
     the user wrote it (e.g. 'swap' for each of the three CNOTs it unrolls to).
+    Slots: a circuit of a million operations stays near 150 bytes per operation.
     """
 
     name: str
@@ -229,7 +230,9 @@ def infer_roles(circuits: Mapping[str, Circuit], rounds: int = 1) -> dict[str, s
     """Roles from what the circuits do to each qubit (used when a patch gives none).
 
     A qubit that is measured and then acted on again later in the experiment (reset,
-    reused, or measured in a round that repeats) is a measured helper, and so is one
+    reused in a two-qubit gate, or measured in a round that repeats; single-qubit gates
+    after a measurement, such as the `h; s` that undo a Y-basis readout, do not count)
+    is a measured helper, and so is one
     measured inside the check round (data are read out at the end, not in the round;
     common practice) unless the round measures every qubit it touches; the rest are
     data. A helper that shares gates with data and with other helpers is a `flag`;
@@ -255,8 +258,8 @@ def infer_roles(circuits: Mapping[str, Circuit], rounds: int = 1) -> dict[str, s
         for q in op.qubits:
             if q not in order:
                 order.append(q)
-            if q in measured:
-                helper.add(q)
+            if q in measured and op.kind != "1q":    # single-qubit gates after a readout
+                helper.add(q)                         # (undoing a basis change) are no reuse
         if op.kind == "measure":
             measured.add(op.qubits[0])
     if "round" in circuits:                  # one round, ancillas measured only at its end
@@ -289,10 +292,20 @@ def natural_sort_key(name: str) -> list[Any]:
     return [int(t) if t.isdigit() else t for t in re.split(r"(\d+)", name)]
 
 
+_MAX_SPAN_CELLS = 100_000_000      # detectors x measurements of the dense GF(2) matrix
+
+
 def observable_is_detector_parity(patch: Patch) -> bool:
     """True when the observable is a parity of detectors: no fault flips it unseen, so
-    every logical figure is 0 (GF(2) rank of the detectors with and without it)."""
+    every logical figure is 0 (GF(2) rank of the detectors with and without it).
+
+    The test is a dense GF(2) rank over detectors x measurements; above
+    `_MAX_SPAN_CELLS` (a repetition code of distance 101 over 1000 rounds needs 10^10)
+    it answers False, "not known to be a parity", which only costs the shortcut.
+    """
     size = len(patch.measurement_record())
+    if size * len(patch.detectors) > _MAX_SPAN_CELLS:
+        return False
     rows = []
     for det in patch.detectors:
         row = np.zeros(size, dtype=np.uint8)

@@ -10,6 +10,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+from ..errors import InputError
+from ..io.limits import max_file_bytes
 from ..io.patchfile import patch_from_family
 from ..model.codes import family_yaml
 from ..model.patch import Patch
@@ -37,6 +39,7 @@ class BuiltCode:
 def build_code(family: str, *, distance: int = 3, rounds: int = 2, basis: str = "z",
                prep: str | None = None) -> BuiltCode:
     """Write, load and check one instance of a built-in code family."""
+    _check_size(family, distance=distance, rounds=rounds, basis=basis, prep=prep)
     text = family_yaml(family, distance=distance, rounds=rounds, basis=basis, prep=prep)
     patch = patch_from_family(family, distance=distance, rounds=rounds, basis=basis, prep=prep)
     problems = tuple(check_detectors(patch))
@@ -49,3 +52,20 @@ def build_code(family: str, *, distance: int = 3, rounds: int = 2, basis: str = 
         bound = fault_distance_at_most(patch)
     return BuiltCode(text=text, patch=patch, problems=(), fault_distance=found,
                      fault_distance_at_most=bound)
+
+
+def _check_size(family: str, *, distance: int, rounds: int, basis: str,
+                prep: str | None) -> None:
+    """The patch file grows linearly with the rounds: from one and two rounds, project its
+    size and refuse before writing it when it would pass the input file limit (the file
+    must be readable as an input again)."""
+    if rounds <= 2:
+        return
+    one, two = (len(family_yaml(family, distance=distance, rounds=r, basis=basis,
+                                prep=prep).encode()) for r in (1, 2))
+    size = one + (rounds - 1) * (two - one)
+    limit = max_file_bytes()
+    if size > limit:
+        raise InputError(f"the patch file would be about {size / 1048576:.0f} MB, above the "
+                         f"input file limit of {limit / 1048576:g} MB (use fewer rounds, or set "
+                         "EMBEDCHECK_MAX_FILE_MB to raise the limit)")

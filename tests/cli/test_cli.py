@@ -172,7 +172,8 @@ def test_dead_qubit_placement_is_refused(tmp_path, capsys):
 @pytest.mark.parametrize("change,expected", [
     (("readout_error: 0.01,", "readout_error: .nan,"), ":6: calibration.defaults.readout_error: "
                                                        ".nan is not a finite number"),
-    (("embedcheck_chip: 1", "embedcheck_chip: '1'"), "(write the number 1, not a string)"),
+    (("embedcheck_chip: 1", "embedcheck_chip: '1'"),
+     "must be the number 1, not a string (write the number 1, without quotes)"),
     (("qubits: 3", "qubits: 100000000"), ":3: qubits: 100000000 is not valid here"),
 ])
 def test_more_bad_chip_values(tmp_path, capsys, change, expected):

@@ -221,3 +221,28 @@ def test_a_single_round_file_calls_its_measured_qubits_helpers(tmp_path):
     everything.write_text('OPENQASM 2.0;\ninclude "qelib1.inc";\nqreg q[2];\ncreg c[2];\n'
                           'cx q[0], q[1];\nmeasure q[0] -> c[0];\nmeasure q[1] -> c[1];\n')
     assert set(load_patch(everything).roles.values()) == {"data"}
+
+
+def test_data_read_out_in_the_y_basis_stay_data(tmp_path):
+    # Issue 16: a colour-code patch (7 data, 3 ancillas measuring the X checks, then Z
+    # checks through the same ancillas) whose readout measures every data qubit in the
+    # Y basis as qiskit writes it (sdg; h; measure; then h; s to undo the basis change).
+    # The single-qubit gates after the readout are not "acted on again": the data stay
+    # data, the three reused ancillas stay ancillas.
+    from embedcheck import load_patch
+    checks = [(0, 1, 2, 3), (1, 2, 4, 5), (2, 3, 5, 6)]      # the [[7,1,3]] code's faces
+    round_lines = ["reset a;", "h a;"]
+    round_lines += [f"cx a[{k}], d[{q}];" for k, face in enumerate(checks) for q in face]
+    round_lines += ["h a;", "measure a -> xs;", "reset a;"]
+    round_lines += [f"cx d[{q}], a[{k}];" for k, face in enumerate(checks) for q in face]
+    round_lines += ["measure a -> zs;"]
+    header = 'OPENQASM 2.0;\ninclude "qelib1.inc";\nqreg d[7];\nqreg a[3];\n'
+    readout = "creg m[7];\nsdg d;\nh d;\nmeasure d -> m;\nh d;\ns d;\n"
+    block = lambda text: "\n".join("      " + line for line in text.splitlines())   # noqa: E731
+    (tmp_path / "colour.yaml").write_text(
+        "embedcheck_patch: 1\nname: colour\nrounds: 2\ncircuits:\n  round:\n    qasm: |\n"
+        + block(header + "creg xs[3];\ncreg zs[3];\n" + "\n".join(round_lines)) + "\n"
+        + "  readout:\n    qasm: |\n" + block(header + readout) + "\n")
+    roles = load_patch(tmp_path / "colour.yaml").roles
+    assert [q for q, r in roles.items() if r == "data"] == [f"d{i}" for i in range(7)]
+    assert [q for q, r in roles.items() if r == "ancilla"] == ["a0", "a1", "a2"]

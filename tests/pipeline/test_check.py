@@ -202,8 +202,8 @@ def test_allowance_makes_it_pass_and_baseline_says_what_changed(project_dir, cap
                                                  "(did you mean 'min_placements'?)"),
     (("  - flagged_weight4.yaml\n", "  - nothere.yaml\n"), "patches[0]: patch file 'nothere.yaml' "
                                                           "not found"),
-    (("figure: fidelity_product", "figure: fidelity"), "rules.score_floor.figure: 'fidelity' is "
-                                                       "not one of"),
+    (("figure: fidelity_product", "figure: fidelity"), "rules.score_floor.figure: must be one of "
+                                                       "'fidelity_product' (did you mean"),
 ])
 def test_bad_project_files_exit_2_and_write_nothing(project_dir, capsys, change, expected):
     path = project_dir / "project.yaml"

@@ -1,0 +1,27 @@
+// INVENTED hostile input for embedcheck's tests: broadcasts over 100000-qubit registers, 1.1 million gates
+OPENQASM 2.0;
+include "qelib1.inc";
+qreg q[50000];
+qreg r[50000];
+cx q, r;
+cx q, r;
+cx q, r;
+cx q, r;
+cx q, r;
+cx q, r;
+cx q, r;
+cx q, r;
+cx q, r;
+cx q, r;
+cx q, r;
+cx q, r;
+cx q, r;
+cx q, r;
+cx q, r;
+cx q, r;
+cx q, r;
+cx q, r;
+cx q, r;
+cx q, r;
+cx q, r;
+cx q, r;

@@ -1,0 +1,2 @@
+API_KEY=hunter2-CANARY-7f3a
+OPENQASM 2.0;

@@ -1,0 +1,6 @@
+// INVENTED hostile input for embedcheck's tests: a closing brace with no block
+OPENQASM 2.0;
+include "qelib1.inc";
+qreg q[2];
+h q[0]; }
+cx q[0], q[1];
