@@ -88,7 +88,7 @@ def request_constraints(args: argparse.Namespace, patch: Patch,
     return merge_constraints(patch.constraints, given, device)
 
 
-def int_list(text: str | None, option: str) -> list[int]:
+def int_list(text: str | None, option: str, noun: str = "qubit number") -> list[int]:
     """Qubit numbers from '3,17,40-52' (ranges merged first, so no list is longer than the
     qubit numbers that exist: 0 to MAX_QUBIT_NUMBER)."""
     spans = []
@@ -97,7 +97,7 @@ def int_list(text: str | None, option: str) -> list[int]:
         try:
             first, last = (int(lo), int(hi)) if sep else (int(part), int(part))
         except ValueError:
-            raise InputError(f"{option}: '{part}' is not a qubit number or range") from None
+            raise InputError(f"{option}: '{part}' is not a {noun} or range") from None
         if last < first:
             raise InputError(f"{option}: range '{part}' runs backwards; write {last}-{first}")
         if first < 0 or last > MAX_QUBIT_NUMBER:
