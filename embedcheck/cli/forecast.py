@@ -13,7 +13,15 @@ from pathlib import Path
 from typing import Any
 
 from ..io.limits import MAX_CODE_DISTANCE, MAX_CODE_ROUNDS, MAX_SHOTS
-from .options import bounded_int, max_processes, positive_float, positive_int, seed_value
+from .options import (
+    add_executor_options,
+    bounded_int,
+    executor_from,
+    executor_label,
+    positive_float,
+    positive_int,
+    seed_value,
+)
 
 MAX_SCALES = 64          # scaled calibrations per forecast (each one samples every distance)
 
@@ -59,14 +67,7 @@ def add_parser(sub: Any) -> None:
                    help="placements the search keeps per distance (default 10000)")
     p.add_argument("--search-budget-s", type=positive_float, default=60.0, metavar="S",
                    help="seconds for each distance's search (default 60)")
-    where = p.add_mutually_exclusive_group()
-    where.add_argument("--scheduler", metavar="ADDRESS",
-                       help="an existing Dask scheduler, e.g. tcp://10.0.0.5:8786 (default: a "
-                            "local cluster of worker processes started here)")
-    where.add_argument("--serial", action="store_true",
-                       help="sample in this process (no Dask)")
-    p.add_argument("--workers", type=bounded_int(max_processes()), metavar="N",
-                   help="worker processes of the local cluster (default: the cores)")
+    add_executor_options(p, serial_help="sample in this process (no Dask)")
     p.add_argument("--json", metavar="FILE", help="also write the report as JSON here")
     p.add_argument("--picture", metavar="FILE",
                    help="draw logical error per round against the scale (.png or .svg)")
@@ -114,7 +115,7 @@ def run(args: argparse.Namespace) -> int:
     bar = _Bar() if sys.stderr.isatty() else None
     store = SampleStore(samples)
     try:
-        with _executor(args) as executor:
+        with executor_from(args) as executor:
             forecast = run_forecast(
                 device, args.family, distances=distances, max_distance=args.max_distance,
                 rounds=args.rounds, basis=args.basis, scales=scales, shots=args.shots,
@@ -131,10 +132,8 @@ def run(args: argparse.Namespace) -> int:
         store.close()
     if bar:
         bar.close()
-    where = "this process" if args.serial else (
-        f"Dask at {args.scheduler}" if args.scheduler else "a local Dask cluster")
     payload = forecast_dict(forecast, chip_file=args.chip, samples_file=samples,
-                            executor=where)
+                            executor=executor_label(args))
     files: dict[str | Path, str | bytes] = {}
     if args.json:
         files[args.json] = json.dumps(finite(payload), indent=2, allow_nan=False) + "\n"
@@ -177,16 +176,6 @@ def _scales(text: str) -> list[float]:
         raise InputError("--scales: give at least one scale, e.g. 0.5,1,2")
     return out
 
-
-def _executor(args: argparse.Namespace):
-    from ..engine import DaskExecutor, SerialExecutor
-    from ..errors import InputError
-    if args.serial:
-        return SerialExecutor()
-    try:
-        return DaskExecutor(scheduler=args.scheduler, workers=args.workers)
-    except ConnectionError as err:
-        raise InputError(f"--scheduler: {err}") from None
 
 
 class _Bar:

@@ -192,6 +192,36 @@ def non_negative_int(text: str) -> int:
     return value
 
 
+def add_executor_options(parser: Any, *, serial_help: str) -> None:
+    """--scheduler / --serial / --workers: where a command's tasks run (sweep, forecast)."""
+    where = parser.add_mutually_exclusive_group()
+    where.add_argument("--scheduler", metavar="ADDRESS",
+                       help="an existing Dask scheduler, e.g. tcp://10.0.0.5:8786 (default: a "
+                            "local cluster of worker processes started here)")
+    where.add_argument("--serial", action="store_true", help=serial_help)
+    parser.add_argument("--workers", type=bounded_int(max_processes()), metavar="N",
+                        help="worker processes of the local cluster (default: the cores; at "
+                             "most 4 per CPU)")
+
+
+def executor_from(args: argparse.Namespace) -> Any:
+    """The executor the options above ask for; an unreachable scheduler is bad input (2)."""
+    from ..engine import DaskExecutor, SerialExecutor
+    if args.serial:
+        return SerialExecutor()
+    try:
+        return DaskExecutor(scheduler=args.scheduler, workers=args.workers)
+    except ConnectionError as err:
+        raise InputError(f"--scheduler: {err}") from None
+
+
+def executor_label(args: argparse.Namespace) -> str:
+    """Where the tasks ran, for the report."""
+    if args.serial:
+        return "this process"
+    return f"Dask at {args.scheduler}" if args.scheduler else "a local Dask cluster"
+
+
 def max_processes() -> int:
     """Worker processes one command may start: four per CPU (at least 4)."""
     return max(4, 4 * (os.cpu_count() or 1))
