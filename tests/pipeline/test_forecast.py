@@ -282,3 +282,26 @@ def test_a_ranking_plugs_in_and_chooses_the_placements():
                            ranking=worst_first)
     assert flipped.ranking == "worst_first" and seen == [plain.searches[0].placements]
     assert flipped.searches[0].best != plain.searches[0].best
+
+
+def test_the_default_ranking_is_the_decoded_estimate():
+    # Distance 3: the best placement is the one of lowest decoded-logical estimate
+    # (score.estimate), which here is not the fidelity product's first, so a forecast that
+    # kept the search's order fails. A repetition code of distance 2 keeps that order.
+    import numpy as np
+
+    from embedcheck import Device, square_grid, vet_patch
+    from embedcheck.score.logical import estimate_scores
+    from helpers import lognormal_calibration
+    chip = lognormal_calibration(Device.from_lattice(square_grid(7, 7), name="grid"), seed=1)
+    out = run_forecast(chip, "surface", distances=[3], scales=[1.0], shots=200,
+                       executor=SerialExecutor())
+    assert out.ranking == "estimate"
+    (search,) = out.searches
+    found = vet_patch(chip, search.patch, limit=10_000).ranking.placements
+    values = [e.value for e in estimate_scores(chip, search.patch, found)]
+    assert search.best == found[int(np.argmin(values))] != found[0]
+    assert search.median == found[int(np.argsort(values, kind="stable")[len(found) // 2])]
+    two = run_forecast(chip, "repetition", distances=[2], scales=[1.0], shots=200,
+                       executor=SerialExecutor()).searches[0]
+    assert two.best == vet_patch(chip, two.patch, limit=10_000).ranking.placements[0]
