@@ -7,7 +7,7 @@ weight perfect matching (pymatching: Higgott & Gidney, "Sparse Blossom", Quantum
 ones. It stops at `shots` or once `max_errors` logical errors were seen (the usual stopping
 rule of a Monte Carlo of logical error: common practice). The same seed gives the same
 counts, so sweeps and projections are reproducible; sinter's samplers are not seeded,
-which is why this exists (bench/projection.py compares its throughput with sinter's).
+which is why this exists (bench/forecast.py compares its throughput with sinter's).
 
 Intervals are Wilson score intervals (`wilson`; Wilson, J. Am. Stat. Assoc. 22, 209
 (1927)); the
