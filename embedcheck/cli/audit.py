@@ -76,7 +76,8 @@ def run(args: argparse.Namespace) -> int:
         if not folder.is_dir():
             raise InputError(f"--write-qasm: folder '{args.write_qasm}' does not exist")
         for name in patch.circuits:
-            outputs.claim(folder / f"{name}.qasm", option="--write-qasm", overwrite=args.force)
+            outputs.claim(folder / f"{name}.qasm", option="--write-qasm", overwrite=args.force,
+                          force_option="--force")
     if args.html:
         require_html_path(args.html)
         outputs.claim(args.html, option="--html")

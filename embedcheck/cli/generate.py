@@ -57,7 +57,8 @@ def run(args: argparse.Namespace) -> int:
     text = family_chip_yaml(args.family, name, **size)
     if args.output:
         outputs = Outputs()
-        outputs.claim(args.output, option="--output", overwrite=args.force)
+        outputs.claim(args.output, option="--output", overwrite=args.force,
+                      force_option="--force")
         outputs.commit({args.output: text})
         print(f"wrote {args.output}: chip '{name}' with PLACEHOLDER calibration", file=sys.stderr)
     if args.format == "json":

@@ -208,6 +208,9 @@ def executor_from(args: argparse.Namespace) -> Any:
     """The executor the options above ask for; an unreachable scheduler is bad input (2)."""
     from ..engine import DaskExecutor, SerialExecutor
     if args.serial:
+        if args.workers:
+            raise InputError("--workers sizes the local Dask cluster; --serial runs no "
+                             "workers: give one of them")
         return SerialExecutor()
     try:
         return DaskExecutor(scheduler=args.scheduler, workers=args.workers)
@@ -245,7 +248,8 @@ def top_count(text: str) -> int | None:
     try:
         return positive_int(text)
     except argparse.ArgumentTypeError:
-        raise argparse.ArgumentTypeError(f"'{text}' is neither a whole number nor 'all'") from None
+        raise argparse.ArgumentTypeError(f"'{text}' must be a whole number from 1 up, or "
+                                         "'all'") from None
 
 
 def finite(obj: Any) -> Any:

@@ -118,6 +118,12 @@ def forget_inputs() -> None:
     _READ.clear()
 
 
+def _exists(option: str, force_option: str | None) -> str:
+    how = (f"add {force_option} to replace it" if force_option
+           else "give another path, or move the file away first")
+    return f"{option}: file exists; will not overwrite it ({how})"
+
+
 class Outputs:
     """The files one command writes: claimed up front, written all or nothing."""
 
@@ -125,15 +131,19 @@ class Outputs:
         for path in inputs:
             if path is not None:
                 note_input(path)
-        self._claims: dict[str, tuple[Path, str, bool]] = {}
+        self._claims: dict[str, tuple[Path, str, bool, str | None]] = {}
 
-    def claim(self, path: str | Path, *, option: str, overwrite: bool = True) -> Path:
-        """Reserve `path` for writing, or raise `InputError` naming the option and why."""
-        target = self.vet(path, option=option, overwrite=overwrite)
-        self._claims[_resolved(target)] = (target, option, overwrite)
+    def claim(self, path: str | Path, *, option: str, overwrite: bool = True,
+              force_option: str | None = None) -> Path:
+        """Reserve `path` for writing, or raise `InputError` naming the option and why.
+        `overwrite=False` keeps an existing file; `force_option` names the option that
+        would replace it (said in the message only when the command has one)."""
+        target = self.vet(path, option=option, overwrite=overwrite, force_option=force_option)
+        self._claims[_resolved(target)] = (target, option, overwrite, force_option)
         return target
 
-    def vet(self, path: str | Path, *, option: str, overwrite: bool = True) -> Path:
+    def vet(self, path: str | Path, *, option: str, overwrite: bool = True,
+            force_option: str | None = None) -> Path:
         """Check `path` as `claim` does, without reserving it (for a file another writer,
         such as SQLite, updates in place)."""
         target = Path(path)
@@ -155,8 +165,7 @@ class Outputs:
                 raise InputError(f"{option}: is not a regular file; will not write to it",
                                  file=file)
             if not overwrite:
-                raise InputError(f"{option}: file exists; will not overwrite it (add --force "
-                                 "to replace it)", file=file)
+                raise InputError(_exists(option, force_option), file=file)
         _probe(folder, file, option)
         return target
 
@@ -175,7 +184,7 @@ class Outputs:
 
     def claimed(self) -> list[Path]:
         """The claimed paths, in claim order."""
-        return [t for t, _, _ in self._claims.values()]
+        return [claim[0] for claim in self._claims.values()]
 
     def commit(self, contents: Mapping[str | Path, str | bytes]) -> None:
         """Write every claimed file given in `contents`, all or nothing.
@@ -190,11 +199,10 @@ class Outputs:
                 key = _resolved(Path(path))
                 if key not in self._claims:
                     raise RuntimeError(f"output '{path}' was not claimed before writing")
-                target, option, overwrite = self._claims[key]
+                target, option, overwrite, force_option = self._claims[key]
                 self._check_not_input(target, key, option)
                 if not overwrite and target.exists():
-                    raise InputError(f"{option}: file exists; will not overwrite it (add "
-                                     "--force to replace it)", file=str(target))
+                    raise InputError(_exists(option, force_option), file=str(target))
                 raw = data.encode("utf-8") if isinstance(data, str) else data
                 staged.append((_stage(target, raw, option), target))
         except BaseException:

@@ -185,10 +185,13 @@ _COLOURS = ("#0072B2", "#D55E00", "#009E73", "#CC79A7", "#E69F00", "#56B4E9", "#
 _MARKERS = ("o", "s", "D", "^", "v", "P", "X")
 
 
-def draw_forecast(payload: Json):
+def draw_forecast(payload: "Json | Forecast"):
     """Logical error per round against the calibration scale, one curve per distance
     (best placement; bands: 95% intervals; the median placement hollow at today's
-    calibration; zero-error points as upper bounds). Returns a `Figure`."""
+    calibration; zero-error points as upper bounds). Takes a `Forecast` or its
+    `forecast_dict` document (a saved JSON report read back). Returns a `Figure`."""
+    if not isinstance(payload, dict):
+        payload = forecast_dict(payload)
     from matplotlib.figure import Figure
     from matplotlib.ticker import NullFormatter
     fig = Figure(figsize=(7.0, 4.8), dpi=100, layout="constrained")

@@ -7,9 +7,10 @@ Results land in an SQLite database as each task finishes; a rerun resumes. `summ
 turns the database into the report: per patch, the best chip and region per snapshot and
 how often the winner changes.
 """
+from ..io.sweepfile import Sweep, load_sweep
 from .run import SweepOutcome, plan_units, run_sweep
 from .store import ResultRow, ResultStore, Unit
 from .summary import summarise
 
-__all__ = ["ResultRow", "ResultStore", "SweepOutcome", "Unit", "plan_units", "run_sweep",
-           "summarise"]
+__all__ = ["ResultRow", "ResultStore", "Sweep", "SweepOutcome", "Unit", "load_sweep",
+           "plan_units", "run_sweep", "summarise"]

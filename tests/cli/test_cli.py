@@ -279,7 +279,9 @@ def test_top_all_lists_every_placement(capsys):
     data = json.loads(capsys.readouterr().out)
     assert len(data["placements"]) == data["search"]["distinct_placements"] > 10
     assert main(["find", str(DEMO_CHIP), str(FIXED_PATCH), "--top", "al"]) == 2
-    assert "neither a whole number nor 'all'" in capsys.readouterr().err
+    assert "'al' must be a whole number from 1 up, or 'all'" in capsys.readouterr().err
+    assert main(["find", str(DEMO_CHIP), str(FIXED_PATCH), "--top", "0"]) == 2
+    assert "'0' must be a whole number from 1 up, or 'all'" in capsys.readouterr().err
 
 
 def test_find_gives_the_same_answer_every_run(tmp_path):

@@ -171,3 +171,17 @@ def test_repair_output_never_overwrites_the_patch(work, capsys):
 def test_fail_on_worse_without_baseline_is_a_usage_error(work, capsys):
     _refused(work, capsys, ["check", work / "project.yaml", "--fail-on-worse"],
              message="give --baseline")
+
+
+def test_an_existing_output_names_force_only_where_the_command_has_it(tmp_path, capsys):
+    # code -o said "add --force to replace it", and code has no --force (a new user's trial).
+    out = tmp_path / "s3.yaml"
+    out.write_text("keep me\n")
+    assert main(["code", "surface", "--distance", "3", "-o", str(out)]) == 2
+    err = capsys.readouterr().err
+    assert "file exists; will not overwrite it (give another path" in err and "--force" not in err
+    assert out.read_text() == "keep me\n"
+    chip = tmp_path / "chip.yaml"
+    chip.write_text("keep me too\n")
+    assert main(["generate", "line", "--size", "3", "-o", str(chip)]) == 2
+    assert "(add --force to replace it)" in capsys.readouterr().err

@@ -28,6 +28,8 @@ from embedcheck import (
     Device,
     InputError,
     QubitCalibration,
+    draw_forecast,
+    forecast_dict,
     heavy_hex,
     line,
     noisy_circuit,
@@ -198,6 +200,9 @@ def test_best_and_median_placements_and_the_spread():
     assert search.placements > 2 and search.best != search.median
     best, median = out.point(3, "best"), out.point(3, "median")
     assert best.key != median.key and best.shots == median.shots == 6_000
+    # The picture is drawn from the forecast itself or from its JSON document alike.
+    assert draw_forecast(out).axes[0].get_ylabel() == \
+        draw_forecast(forecast_dict(out)).axes[0].get_ylabel() != ""
 
 
 def test_a_distance_that_does_not_fit_is_skipped_with_the_reason():

@@ -112,6 +112,8 @@ def test_a_malformed_chip_fails_its_own_units_and_the_rest_complete(sweep_file, 
     bad.write_text("embedcheck_chip: 1\nname: broken\nqubits: [0, 1]\ncouplers: [[0, 7]]\n")
     sweep_file.write_text(sweep_file.read_text().replace(
         "chips: [fleet-hex-a, fleet-hex-b]", "chips: [fleet-hex-a, broken.yaml]"))
+    assert main(["sweep", str(sweep_file), "--serial", "--workers", "2"]) == 2
+    assert "--serial runs no workers" in capsys.readouterr().err
     code = main(["sweep", str(sweep_file), "--serial", "--format", "json"])
     assert code == 1
     database = tmp_path / "sweep.sqlite"
