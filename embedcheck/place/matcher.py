@@ -11,10 +11,27 @@ operations on an array of partial maps (rows) instead of a Python loop per map.
 Pruning, all necessary conditions of a monomorphism:
 - a pattern node of degree d needs a host node of degree >= d, whose neighbours' degrees
   dominate its own neighbours' degrees (both sorted, largest first);
-- a node `d` steps from the anchor in the pattern lands at most `d` steps from the
-  anchor on the host, so the host's ball of radius r around the anchor must hold at
-  least as many nodes as the pattern's (checked for r = 1..4);
+- a node `d` steps from the first node (the root) in the pattern lands at most `d` steps
+  from the anchor on the host: so the host's ball of radius r around the anchor must hold
+  at least as many nodes as the pattern's ball around the root, for every r, and every
+  candidate must lie in the ball its distance from the root allows;
 - per-node candidate masks from the caller (roles, constraints).
+
+The distances from an anchor are worked out when the search reaches that anchor (a
+breadth-first search in a batch of anchors, up to the root's eccentricity in the
+pattern), so the set-up is proportional to the part of the chip the search uses: a
+search stopped at its first placement looks at a few anchors only.
+
+Each partial map is a row. Where the ball of every anchor is small, a row holds only the
+images the coming steps still need (the frontier), a bitmap over the anchor's ball (which
+host nodes are used: injectivity is one bit test) and a pointer to the row it grew from;
+full maps are read back along the pointers. Otherwise (patterns in several parts, or
+balls too big for a bitmap) a row holds every image so far.
+
+Order of work (never starve): depth first over blocks of rows, and the blocks start
+small -- a block may grow to about a quarter of the work done so far -- so the first
+placement comes after a narrow probe down the search tree, while a long enumeration
+soon works in big numpy batches.
 
 Symmetry breaking (one map per orbit of the pattern's automorphism group G, which acts
 freely on injective maps): along the matching order take base points u1, u2, ... with
@@ -48,12 +65,17 @@ from typing import Iterator, Sequence
 
 import numpy as np
 
-BALL_RADII = 4
+FIRST_ANCHORS = 256         # anchors in the first batch; batches then grow fourfold
+PROBE_SAMPLE = 16           # anchors sampled to pick where the probe starts
+PROBE_ANCHORS = 4           # anchors the probe tries
 
 
 @dataclass(frozen=True)
 class Host:
-    """An undirected host graph in compressed sparse rows (node ids 0..n-1)."""
+    """An undirected host graph in compressed sparse rows (node ids 0..n-1).
+
+    Arc `i` (position `i` of `indices`) runs from the node whose row holds it to
+    `indices[i]`; `keys[i] = a * n + b` for that arc a -> b (sorted, both ways)."""
 
     n: int
     indptr: np.ndarray          # neighbours of v: indices[indptr[v]:indptr[v + 1]]
@@ -62,10 +84,15 @@ class Host:
 
     @classmethod
     def from_edges(cls, n: int, edges) -> "Host":
-        arr = np.array(list(edges), dtype=np.int64).reshape(-1, 2)
+        if not hasattr(edges, "__len__"):
+            edges = list(edges)
+        arr = np.asarray(edges, dtype=np.int64).reshape(-1, 2)
         arr = arr[arr[:, 0] != arr[:, 1]]
-        both = np.concatenate([arr, arr[:, ::-1]])
-        keys = np.unique(both[:, 0] * n + both[:, 1])
+        keys = np.sort(np.concatenate([arr[:, 0] * n + arr[:, 1], arr[:, 1] * n + arr[:, 0]]))
+        if len(keys):
+            keep = np.ones(len(keys), dtype=bool)
+            keep[1:] = keys[1:] != keys[:-1]
+            keys = keys[keep]
         src, dst = keys // n, keys % n
         indptr = np.zeros(n + 1, dtype=np.int64)
         np.add.at(indptr, src + 1, 1)
@@ -75,31 +102,22 @@ class Host:
     def degree(self) -> np.ndarray:
         return np.diff(self.indptr)
 
+    def arcs(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+        """Elementwise: the index of arc a -> b, or -1 where a and b are not adjacent."""
+        key = a.astype(np.int64) * self.n + b
+        if not len(self.keys):
+            return np.full(len(key), -1, dtype=np.int64)
+        at = np.minimum(np.searchsorted(self.keys, key), len(self.keys) - 1)
+        return np.where(self.keys[at] == key, at, -1)
+
     def adjacent(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
         """Elementwise: is there an edge a-b?"""
-        key = a.astype(np.int64) * self.n + b
-        at = np.searchsorted(self.keys, key)
-        at = np.minimum(at, len(self.keys) - 1)
-        return self.keys[at] == key if len(self.keys) else np.zeros(len(key), bool)
+        return self.arcs(a, b) >= 0
 
     def ball_sizes(self, nodes: np.ndarray, radius: int) -> np.ndarray:
         """Number of nodes within distance 1..radius of each of `nodes`, shape (len, radius)."""
-        out = np.zeros((len(nodes), radius), dtype=np.int64)
-        if not len(nodes):
-            return out
-        owner = np.arange(len(nodes))
-        seen = np.unique(owner * self.n + nodes)           # (owner, node) pairs reached
-        front_owner, front = owner, nodes
-        for r in range(radius):
-            cnt = self.degree[front]
-            rows = np.repeat(front_owner, cnt)
-            nxt = self.indices[_ragged(self.indptr[front], cnt)]
-            key = np.unique(rows * self.n + nxt)
-            key = key[~np.isin(key, seen, assume_unique=True)]
-            seen = np.union1d(seen, key)
-            front_owner, front = key // self.n, key % self.n
-            out[:, r] = np.bincount(seen // self.n, minlength=len(nodes))
-        return out
+        sizes = _layers(self, np.asarray(nodes, dtype=np.int64), radius, None)[2]
+        return sizes[:, 1:radius + 1]
 
 
 def _ragged(starts: np.ndarray, counts: np.ndarray) -> np.ndarray:
@@ -109,6 +127,69 @@ def _ragged(starts: np.ndarray, counts: np.ndarray) -> np.ndarray:
         return np.zeros(0, dtype=np.int64)
     ends = np.cumsum(counts)
     return np.arange(total) - np.repeat(ends - counts - starts, counts)
+
+
+def _contains(table: np.ndarray, values: np.ndarray) -> np.ndarray:
+    """Elementwise: is values[i] among table[i, :]? (numpy's any(axis=1) is slow on short
+    rows: narrow tables are compared column by column, wide ones through a padded boolean
+    buffer read as 64-bit words.)"""
+    count, width = table.shape
+    if width <= 8:
+        out = table[:, 0] == values if width else np.zeros(count, dtype=bool)
+        for j in range(1, width):
+            out |= table[:, j] == values
+        return out
+    hits = np.zeros((count, -(-width // 8) * 8), dtype=bool)
+    np.equal(table, values[:, None], out=hits[:, :width])
+    words = hits.view(np.uint64)
+    out = words[:, 0].copy()
+    for j in range(1, words.shape[1]):
+        out |= words[:, j]
+    return out != 0
+
+
+def _layers(host: Host, anchors: np.ndarray, radius: int, cap: int | None):
+    """Breadth-first search from each anchor at once, up to `radius` steps, stopping after
+    the first radius at which some anchor's ball holds more than `cap` nodes.
+
+    Returns (owner, node, sizes): the nodes reached, grouped by anchor (`owner`, the
+    anchor's position in `anchors`) in search order (the anchor, then the nodes at
+    distance 1, ...); `sizes[i, r]` how many nodes lie within distance r of anchor i,
+    for r = 0 .. `radius` (a ball that stopped growing keeps its size; columns past a
+    stop at `cap` are missing)."""
+    m, n = len(anchors), host.n
+    owner = np.arange(m, dtype=np.int64)
+    layers_owner, layers_node = [owner], [np.asarray(anchors, dtype=np.int64)]
+    before = np.zeros(0, dtype=np.int64)             # the layer before the last (keys)
+    last = owner * n + layers_node[0]                # the last layer (keys, sorted)
+    count = np.ones(m, dtype=np.int64)
+    sizes = [count]
+    front_owner, front = owner, layers_node[0]
+    deg = host.degree
+    for _ in range(radius):
+        if not len(front) or (cap is not None and count.max() > cap):
+            break
+        fan = deg[front]
+        key = np.sort(np.repeat(front_owner, fan) * n
+                      + host.indices[_ragged(host.indptr[front], fan)])
+        fresh = np.ones(len(key), dtype=bool)
+        fresh[1:] = key[1:] != key[:-1]
+        for old in (last, before):                   # a new node is in neither layer
+            if len(old):
+                at = np.minimum(np.searchsorted(old, key), len(old) - 1)
+                fresh &= old[at] != key
+        key = key[fresh]
+        before, last = last, key
+        front_owner, front = key // n, key % n
+        layers_owner.append(front_owner)
+        layers_node.append(front)
+        count = count + np.bincount(front_owner, minlength=m)
+        sizes.append(count)
+    if not len(front) and len(sizes) <= radius:     # every ball stopped growing
+        sizes += [count] * (radius + 1 - len(sizes))
+    owner, node = np.concatenate(layers_owner), np.concatenate(layers_node)
+    order = np.argsort(owner, kind="stable")
+    return owner[order], node[order], np.stack(sizes, axis=1)
 
 
 def _top_degrees(indptr, indices, degree, width) -> np.ndarray:
@@ -226,6 +307,10 @@ def plan(k: int, edges: Sequence[tuple[int, int]], counts: np.ndarray,
         if ear:
             for v in ear:
                 take(v)
+            for v in ear:          # pendant nodes hanging off the ear: their parent's
+                for w in sorted(nbrs[v]):   # free neighbours run out as the map grows
+                    if pos[w] < 0 and len(nbrs[w]) == 1:
+                        take(w)
             continue
         frontier = [v for v in range(k) if pos[v] < 0 and linked[v]]
         if frontier:
@@ -278,21 +363,25 @@ def monomorphisms(host: Host, k: int, edges: Sequence[tuple[int, int]], *,
 
 @dataclass(frozen=True)
 class Prepared:
-    """Everything a search needs, worked out once: the plan, each step's candidate mask
-    and the anchors that pass the pruning (picklable, for worker processes)."""
+    """Everything a search needs, worked out once: the plan, each step's candidate mask,
+    the anchors that pass the cheap masks, the pattern's distances from the root and the
+    look-ahead checks (picklable, for worker processes). Ball sizes around the anchors
+    are left to `grow`, which works them out for the anchors it reaches."""
 
     host: Host
     k: int
     plan: Plan
     masks: tuple[np.ndarray, ...]        # candidate mask of the node mapped at each step
     start: np.ndarray                    # host nodes the first node may map to
+    profile: np.ndarray                  # pattern nodes within distance r of the root
+    look: tuple[tuple[tuple[int, int], ...], ...]   # per step: (earlier step, distance)
 
 
 def prepare(host: Host, k: int, edges: Sequence[tuple[int, int]], *,
             candidates: Sequence[np.ndarray] | None = None,
             symmetries: Sequence[Sequence[int]] | None = None) -> Prepared:
     """Candidate masks (degree, neighbour degrees, caller's masks), the matching order
-    with its symmetry constraints, and the anchors whose balls are big enough."""
+    with its symmetry constraints and look-ahead checks, and the anchors."""
     edges = [(int(a), int(b)) for a, b in edges]
     pnbr: list[set[int]] = [set() for _ in range(k)]
     for a, b in set(tuple(sorted(e)) for e in edges if e[0] != e[1]):
@@ -305,100 +394,367 @@ def prepare(host: Host, k: int, edges: Sequence[tuple[int, int]], *,
     pindptr = np.concatenate([[0], np.cumsum(pdeg)])
     pind = np.array([w for v in range(k) for w in sorted(pnbr[v])], dtype=np.int64)
     ptop = _top_degrees(pindptr, pind, pdeg, width)
-    masks = []
+    masks, counts, known = [], [], {}        # nodes alike share one mask
     for j in range(k):
-        ok = (hdeg >= pdeg[j]) & np.all(htop[:, :pdeg[j]] >= ptop[j, :pdeg[j]], axis=1)
-        if candidates is not None:
-            ok &= candidates[j]
-        masks.append(ok)
-    counts = np.array([int(m.sum()) for m in masks])
+        sig = (tuple(ptop[j, :pdeg[j]].tolist()),
+               None if candidates is None else id(candidates[j]))
+        if sig not in known:
+            ok = hdeg >= pdeg[j]
+            for i, d in enumerate(sig[0]):
+                ok = ok & (htop[:, i] >= d)
+            if candidates is not None:
+                ok = ok & candidates[j]
+            known[sig] = (ok, int(ok.sum()))
+        masks.append(known[sig][0])
+        counts.append(known[sig][1])
+    counts = np.array(counts)
     p = plan(k, edges, counts, symmetries)
-    if k == 0 or (counts == 0).any():
-        return Prepared(host, k, p, tuple(masks[v] for v in p.order), np.zeros(0, np.int64))
-    pattern_host = Host(k, pindptr, pind, np.zeros(0, dtype=np.int64))
-    first = p.order[0]
-    start = np.flatnonzero(masks[first])
-    if len(p.anchors) == 1 and len(start):           # ball sizes around the anchor
-        radius = min(BALL_RADII, k - 1)
-        need = pattern_host.ball_sizes(np.array([first]), radius)[0]
-        keep = np.ones(len(start), bool)
-        for lo in range(0, len(start), 4096):
-            got = host.ball_sizes(start[lo:lo + 4096], radius)
-            keep[lo:lo + 4096] = np.all(got >= need, axis=1)
-        start = start[keep]
-    return Prepared(host, k, p, tuple(masks[v] for v in p.order), start)
+    profile = np.ones(1, dtype=np.int64)
+    if k:
+        dist = _distances(pnbr, p.order[0])
+        profile = np.cumsum(np.bincount(np.array(list(dist.values()))))
+    start = np.flatnonzero(masks[p.order[0]]) if k and not (counts == 0).any() else \
+        np.zeros(0, np.int64)
+    return Prepared(host, k, p, tuple(masks[v] for v in p.order), start, profile,
+                    _look_ahead(pnbr, p))
+
+
+def _look_ahead(pnbr, p: Plan, most: int = 1) -> tuple:
+    """Per step s, up to `most` earlier steps t whose image must lie within distance d
+    (2 or 3: the pattern distance) of step s's image, where that is not already implied
+    by the nodes mapped so far (the short pattern path runs through unmapped nodes: the
+    rest of an ear). A necessary condition of a monomorphism, checked before the
+    injectivity test, so that walks that can no longer close their cycle die young."""
+    pos = {v: s for s, v in enumerate(p.order)}
+    out = []
+    for s, v in enumerate(p.order):
+        linked = {p.order[t] for t in ((p.parent[s],) if p.parent[s] >= 0 else ())
+                  + p.extra[s]}
+        two = {x for w in linked for x in pnbr[w] if pos[x] < s}       # mapped paths
+        three = {y for x in two for y in pnbr[x] if pos[y] < s}
+        one_full = pnbr[v]
+        two_full = {x for w in one_full for x in pnbr[w]} - one_full - {v}
+        three_full = {y for x in two_full for y in pnbr[x]} - two_full - one_full - {v}
+        picks = sorted([(2, -pos[t]) for t in two_full if pos[t] < s and t not in two]
+                       + [(3, -pos[t]) for t in three_full
+                          if pos[t] < s and t not in two and t not in three])
+        out.append(tuple((-t, d) for d, t in picks[:most]))
+    return tuple(out)
 
 
 def node_dtype(n: int):
     """The smallest integer type that holds host node ids 0..n-1 (less memory traffic:
     every step copies each partial map)."""
-    return np.int16 if n <= np.iinfo(np.int16).max else np.int32
+    return np.int16 if n < np.iinfo(np.int16).max - 2 else np.int32
+
+
+SMALL_DEGREE = 8        # hosts up to this degree get padded neighbour tables
+
+
+class Engine:
+    """One search's moving parts, shared by the enumeration (`grow`) and the best-first
+    search (`best_first.py`). A block of partial maps is an array of rows, row r holding
+    the host images of the plan's first s nodes (step order)."""
+
+    def __init__(self, prep: Prepared):
+        self.prep = prep
+        host, k = prep.host, prep.k
+        n = host.n
+        self.dtype = node_dtype(n)
+        self.deg = host.degree
+        self.neighbours = host.indices.astype(self.dtype)
+        self.inverse = np.argsort(np.array(prep.plan.order, dtype=np.int64))
+        self.free = [np.flatnonzero(prep.masks[s]).astype(self.dtype)
+                     if prep.plan.parent[s] < 0 else None for s in range(k)]
+        self.radius = min(len(prep.profile) - 1, 4)
+        top = int(self.deg.max(initial=0))
+        self.padded = None
+        self._balls: dict[int, np.ndarray] = {}
+        if 0 < top <= SMALL_DEGREE:
+            slot = np.arange(len(host.indices)) - np.repeat(host.indptr[:-1], self.deg)
+            padded = np.full((n + 1, top), n, dtype=self.dtype)      # pad: n (row n too)
+            padded[np.repeat(np.arange(n), self.deg), slot] = host.indices
+            self.padded = padded
+
+    def ball(self, radius: int) -> np.ndarray:
+        """Per host node, the nodes within `radius` (2 or 3) of it, padded with n; built
+        once per search, for the look-ahead checks."""
+        if radius not in self._balls:
+            n = self.prep.host.n
+            inner = self.ball(radius - 1) if radius > 2 else \
+                np.concatenate([np.arange(n + 1, dtype=self.dtype)[:, None], self.padded], 1)
+            both = np.sort(np.concatenate([inner, self.padded[inner].reshape(n + 1, -1)],
+                                          axis=1), axis=1)
+            dup = np.zeros(both.shape, dtype=bool)
+            dup[:, 1:] = both[:, 1:] == both[:, :-1]
+            both = np.sort(np.where(dup, n, both), axis=1)
+            wide = int((both[:n] < n).sum(axis=1).max(initial=1))
+            self._balls[radius] = np.ascontiguousarray(both[:, :wide])
+        return self._balls[radius]
+
+    def anchors(self, anchors: np.ndarray) -> np.ndarray:
+        """The anchors whose balls (radius 1 .. 4) hold at least as many nodes as the
+        pattern's around its root (one breadth-first search for all of them)."""
+        if self.radius < 2 or not len(anchors):
+            return anchors
+        sizes = _layers(self.prep.host, anchors, self.radius, None)[2]
+        ok = np.all(sizes >= self.prep.profile[None, :self.radius + 1], axis=1)
+        return anchors[ok]
+
+    def root(self, anchors: np.ndarray) -> np.ndarray:
+        return np.asarray(anchors).astype(self.dtype).reshape(-1, 1)
+
+    def fan(self, rows: np.ndarray) -> np.ndarray:
+        """Candidates each row will try at its next step."""
+        s = rows.shape[1]
+        parent = self.prep.plan.parent[s]
+        if parent < 0:
+            return np.full(len(rows), len(self.free[s]), dtype=np.int64)
+        return self.deg[rows[:, parent]]
+
+    def candidates(self, rows: np.ndarray, arcs: bool = False):
+        """(which, cand, grown, arcs): the extensions of `rows` (step s = its width) by
+        one node that pass every check: `which` the row extended, `cand` the new image,
+        `grown` = rows[which]; with `arcs`, a list holding for each pattern edge the step
+        closes (parent edge first, then `extra` in plan order) the host arc it uses."""
+        prep = self.prep
+        p, host = prep.plan, prep.host
+        s = rows.shape[1]
+        parent = p.parent[s]
+        if parent >= 0:
+            image = rows[:, parent]
+            fan = self.deg[image]
+            position = _ragged(host.indptr[image], fan)
+            which = np.repeat(np.arange(len(rows)), fan)
+            cand = self.neighbours[position]
+        else:
+            free = self.free[s]
+            which = np.repeat(np.arange(len(rows)), len(free))
+            cand = np.tile(free, len(rows))
+            position = None
+        keep = prep.masks[s][cand]
+        for t in p.less[s]:
+            keep &= cand > rows[which, t]
+        which, cand = which[keep], cand[keep]
+        found = [position[keep]] if arcs and position is not None else []
+        for t in p.extra[s]:
+            other = rows[which, t]
+            if self.padded is not None and not arcs:
+                keep = _contains(self.padded[other], cand)
+            else:
+                at = host.arcs(other, cand)
+                keep = at >= 0
+                if arcs:
+                    found = [f[keep] for f in found] + [at[keep]]
+            which, cand = which[keep], cand[keep]
+            if not arcs:
+                found = []
+        if self.padded is not None:
+            for t, d in prep.look[s]:
+                keep = _contains(self.ball(d)[rows[which, t]], cand)
+                which, cand = which[keep], cand[keep]
+                found = [f[keep] for f in found]
+        grown = rows[which]
+        keep = ~_contains(grown, cand)
+        return which[keep], cand[keep], grown[keep], [f[keep] for f in found]
+
+    @staticmethod
+    def child(grown: np.ndarray, cand: np.ndarray) -> np.ndarray:
+        rows = np.empty((len(cand), grown.shape[1] + 1), dtype=grown.dtype)
+        rows[:, :-1] = grown
+        rows[:, -1] = cand
+        return rows
+
+    def maps(self, rows: np.ndarray) -> np.ndarray:
+        """Full maps (host nodes in pattern node order, int64)."""
+        return rows[:, self.inverse].astype(np.int64)
+
+
+class _Probe:
+    """A plain depth-first search, one partial map at a time, for the first map: a few
+    microseconds per step where a numpy step costs tens, and never a pile of partial
+    maps. The same checks as `Engine.candidates`, in Python; host neighbourhoods are
+    read as the search reaches them."""
+
+    def __init__(self, engine: Engine):
+        self.engine = engine
+        prep = engine.prep
+        self.indptr = prep.host.indptr
+        self.indices = prep.host.indices
+        self.lists: dict[int, list[int]] = {}
+        self.sets: dict[int, frozenset] = {}
+        self.balls: dict[int, frozenset] = {}
+        self.masks: list = [None] * prep.k
+        p = prep.plan
+        self.steps = [(p.parent[s], p.extra[s], p.less[s], prep.look[s])
+                      for s in range(prep.k)]
+
+    def near(self, v: int) -> list[int]:
+        got = self.lists.get(v)
+        if got is None:
+            got = self.lists[v] = self.indices[self.indptr[v]:self.indptr[v + 1]].tolist()
+        return got
+
+    def near_set(self, v: int) -> frozenset:
+        got = self.sets.get(v)
+        if got is None:
+            got = self.sets[v] = frozenset(self.near(v))
+        return got
+
+    def ball2(self, v: int) -> frozenset:
+        got = self.balls.get(v)
+        if got is None:
+            ball = {v, *self.near(v)}
+            for w in self.near(v):
+                ball.update(self.near(w))
+            got = self.balls[v] = frozenset(ball)
+        return got
+
+    def run(self, anchor: int, budget: int):
+        """(the first map from `anchor` in step order or None, steps used, whether the
+        anchor's whole search tree was seen)."""
+        k = self.engine.prep.k
+        image = [anchor]
+        used = {anchor}
+        options: list = [None] * (k + 1)
+        steps = 0
+        while image:
+            s = len(image)
+            if s == k:
+                return tuple(image), steps, False
+            parent, extra, less, look = self.steps[s]
+            if options[s] is None:
+                options[s] = iter(self.near(image[parent]) if parent >= 0 else
+                                  self.engine.free[s].tolist())
+            mask = self.masks[s]
+            if mask is None:
+                mask = self.masks[s] = self.engine.prep.masks[s].tobytes()
+            for c in options[s]:
+                steps += 1
+                if c in used or not mask[c]:
+                    continue
+                ok = True
+                for t in less:
+                    if c <= image[t]:
+                        ok = False
+                        break
+                if ok and extra:
+                    around = self.near_set(c)
+                    for t in extra:
+                        if image[t] not in around:
+                            ok = False
+                            break
+                if ok and look:
+                    around = self.near(c)
+                    for t, d in look:
+                        reach = self.near_set(image[t]) if d == 2 else self.ball2(image[t])
+                        if c not in reach and reach.isdisjoint(around):
+                            ok = False
+                            break
+                if ok:
+                    image.append(c)
+                    used.add(c)
+                    options[s + 1] = None
+                    break
+            else:
+                options[s] = None
+                used.discard(image.pop())
+            if steps >= budget:
+                return None, steps, False
+        return None, steps, True
+
+
+def _probe_anchors(engine: Engine, anchors: np.ndarray) -> list[int]:
+    """A few anchors where a first map is likely: among up to PROBE_SAMPLE anchors spread
+    over the list, those with the biggest balls of half the root's eccentricity (far from
+    the chip's edges and holes)."""
+    if not len(anchors):
+        return []
+    step = max(1, len(anchors) // PROBE_SAMPLE)
+    sample = anchors[step // 2::step][:PROBE_SAMPLE]
+    radius = max(1, (len(engine.prep.profile) - 1 + 1) // 2)
+    sizes = _layers(engine.prep.host, sample, radius, 2 * engine.prep.k + 64)[2]
+    middle = len(sample) // 2
+    rank = sorted(range(len(sample)), key=lambda i: (-int(sizes[i, -1]), abs(i - middle), i))
+    return [int(sample[i]) for i in rank[:PROBE_ANCHORS]]
 
 
 def grow(prep: Prepared, *, part: tuple[int, int] = (0, 1), chunk: int = 1 << 20,
-         held: int = 1 << 24) -> Iterator[np.ndarray]:
-    """The search itself (see `monomorphisms`): depth first over blocks of partial maps.
+         held: int = 1 << 24, probe: int | None = None) -> Iterator[np.ndarray]:
+    """The search itself (see `monomorphisms`).
 
-    A block at step s has s columns: the images of the first s nodes of the plan's order.
-    A block is split so that its extension holds at most `chunk` entries, and the pieces
-    waiting on the stack hold at most about `held` entries in all (when they would hold
-    more, the next splits make smaller pieces), so memory stays bounded (16 MiB of
-    2-byte entries by default, plus one block) however deep or wide the search grows."""
-    host, k, p, masks = prep.host, prep.k, prep.plan, prep.masks
+    First a probe: a plain depth-first search from a few promising anchors (see
+    `_probe_anchors`), at most `probe` steps in all (default 32 k + 512), for a first map
+    in microseconds per step however many partial maps a wide search would pile up.
+    Then every anchor in batches (256, then four times more each time), each batch's ball
+    sizes worked out when the search reaches it, depth first over blocks of partial maps
+    (numpy); the map the probe found is not yielded again, and anchors whose whole tree
+    the probe saw are skipped. A block is split so that its extension holds at most
+    `chunk` entries, and the pieces waiting on the stack hold at most about `held`
+    entries in all (when they would hold more, the next splits make smaller pieces), so
+    memory stays bounded (16 MiB of 2-byte entries by default, plus one block) however
+    deep or wide the search grows."""
+    k = prep.k
     if k == 0:
         yield np.zeros((1, 0), dtype=np.int64)
         return
-    dtype = node_dtype(host.n)
-    hdeg = host.degree
-    neighbours = host.indices.astype(dtype)
-    free_nodes = [np.flatnonzero(masks[s]).astype(dtype) if p.parent[s] < 0 else None
-                  for s in range(k)]
-    start = prep.start[part[0]::part[1]].astype(dtype)
-    stack = [(1, start.reshape(-1, 1))] if len(start) else []
-    waiting = start.size
-    inverse = np.argsort(np.array(p.order))
-    pops = 0
-    while stack:
-        s, rows = stack.pop()
+    engine = Engine(prep)
+    anchors = prep.start[part[0]::part[1]]
+    budget = 32 * k + 512 if probe is None else probe
+    seen, done = None, set()
+    if budget > 0:
+        walker = _Probe(engine)
+        for anchor in _probe_anchors(engine, anchors):
+            image, steps, whole = walker.run(anchor, budget)
+            budget -= steps
+            if whole:
+                done.add(anchor)
+            if image is not None:
+                seen = np.array(image, dtype=np.int64)
+                yield engine.maps(seen.reshape(1, -1))
+                break
+            if budget <= 0:
+                break
+    if done:
+        anchors = anchors[~np.isin(anchors, list(done))]
+    size, taken = FIRST_ANCHORS, 0
+    stack: list[np.ndarray] = []
+    waiting = quiet = 0
+    while True:
+        if not stack:
+            if taken >= len(anchors):
+                return
+            batch = engine.anchors(anchors[taken:taken + size])
+            taken += size
+            size *= 4
+            if len(batch):
+                stack.append(engine.root(batch))
+                waiting += len(batch)
+            continue
+        rows = stack.pop()
         waiting -= rows.size
-        pops += 1
-        if pops % 64 == 0:
+        s = rows.shape[1]
+        if quiet >= 1 << 16:
+            quiet = 0
             yield np.zeros((0, k), dtype=np.int64)
         if s == k:
-            yield rows[:, inverse].astype(np.int64)
+            if seen is not None:
+                rows = rows[~(rows == seen).all(axis=1)]
+            yield engine.maps(rows)
             continue
-        if p.parent[s] >= 0:
-            fan = hdeg[rows[:, p.parent[s]]]
-        else:
-            fan = np.full(len(rows), len(free_nodes[s]), dtype=np.int64)
+        fan = engine.fan(rows)
         total = int(fan.sum())
         room = max(chunk // 16, min(chunk, held - waiting))
-        most = max(1, room // (s + 1))                # extended rows per piece
+        most = max(1, room // (s + 1))                # candidates per piece
         if total > most and len(rows) > 1:            # split: bounded memory, depth first
             cut = np.searchsorted(np.cumsum(fan), np.arange(1, total // most + 2) * most)
             pieces = np.split(rows, np.unique(np.clip(cut, 1, len(rows) - 1)))
-            stack.extend((s, piece) for piece in reversed(pieces) if len(piece))
+            stack.extend(piece for piece in reversed(pieces) if len(piece))
             waiting += rows.size
             continue
-        if p.parent[s] >= 0:
-            which = np.repeat(np.arange(len(rows)), fan)
-            cand = neighbours[_ragged(host.indptr[rows[:, p.parent[s]]], fan)]
-        else:
-            which = np.repeat(np.arange(len(rows)), len(free_nodes[s]))
-            cand = np.tile(free_nodes[s], len(rows))
-        keep = masks[s][cand]
-        which, cand = which[keep], cand[keep]
-        for t in p.extra[s]:
-            keep = host.adjacent(cand, rows[which, t])
-            which, cand = which[keep], cand[keep]
-        for t in p.less[s]:
-            keep = cand > rows[which, t]
-            which, cand = which[keep], cand[keep]
-        grown = rows[which]
-        keep = ~(grown == cand[:, None]).any(axis=1)
-        if keep.any():
-            out = np.empty((int(keep.sum()), s + 1), dtype=dtype)
-            out[:, :s] = grown[keep]
-            out[:, s] = cand[keep]
-            stack.append((s + 1, out))
+        quiet += total + 64
+        _, cand, grown, _ = engine.candidates(rows)
+        if len(cand):
+            out = engine.child(grown, cand)
+            stack.append(out)
             waiting += out.size
