@@ -449,6 +449,8 @@ def node_dtype(n: int):
 
 
 SMALL_DEGREE = 8        # hosts up to this degree get padded neighbour tables
+LOOK_TRIAL = 8192       # candidates a step's look-ahead check is tried on, at least,
+LOOK_WORTH = 0.02       # before it is dropped for pruning fewer than this fraction
 
 
 class Engine:
@@ -475,6 +477,15 @@ class Engine:
             padded = np.full((n + 1, top), n, dtype=self.dtype)      # pad: n (row n too)
             padded[np.repeat(np.arange(n), self.deg), slot] = host.indices
             self.padded = padded
+            known: dict = {}
+            self.padded_masks = []
+            for mask in prep.masks:                        # masks with pad n: False
+                if id(mask) not in known:
+                    known[id(mask)] = np.append(mask, False)
+                self.padded_masks.append(known[id(mask)])
+        self.looking = [bool(x) for x in prep.look] + [False]
+        self.look_seen = [0] * (k + 1)
+        self.look_cut = [0] * (k + 1)
 
     def ball(self, radius: int) -> np.ndarray:
         """Per host node, the nodes within `radius` (2 or 3) of it, padded with n; built
@@ -521,18 +532,28 @@ class Engine:
         p, host = prep.plan, prep.host
         s = rows.shape[1]
         parent = p.parent[s]
-        if parent >= 0:
+        position = None
+        if parent >= 0 and self.padded is not None:   # neighbours from the padded table
+            grid = self.padded[rows[:, parent]]
+            wide = grid.shape[1]
+            cand = grid.ravel()
+            which = np.repeat(np.arange(len(rows)), wide)
+            keep = self.padded_masks[s][cand]               # pads (n) never pass
+            if arcs:
+                position = host.indptr[rows[which, parent]] + \
+                    np.tile(np.arange(wide), len(rows))
+        elif parent >= 0:
             image = rows[:, parent]
             fan = self.deg[image]
             position = _ragged(host.indptr[image], fan)
             which = np.repeat(np.arange(len(rows)), fan)
             cand = self.neighbours[position]
+            keep = prep.masks[s][cand]
         else:
             free = self.free[s]
             which = np.repeat(np.arange(len(rows)), len(free))
             cand = np.tile(free, len(rows))
-            position = None
-        keep = prep.masks[s][cand]
+            keep = prep.masks[s][cand]
         for t in p.less[s]:
             keep &= cand > rows[which, t]
         which, cand = which[keep], cand[keep]
@@ -549,11 +570,16 @@ class Engine:
             which, cand = which[keep], cand[keep]
             if not arcs:
                 found = []
-        if self.padded is not None:
+        if self.padded is not None and self.looking[s]:
+            before = len(cand)
             for t, d in prep.look[s]:
                 keep = _contains(self.ball(d)[rows[which, t]], cand)
                 which, cand = which[keep], cand[keep]
                 found = [f[keep] for f in found]
+            seen = self.look_seen[s] = self.look_seen[s] + before
+            cut = self.look_cut[s] = self.look_cut[s] + before - len(cand)
+            if seen >= LOOK_TRIAL and cut < LOOK_WORTH * seen:
+                self.looking[s] = False          # this step's check rarely prunes: drop it
         grown = rows[which]
         keep = ~_contains(grown, cand)
         return which[keep], cand[keep], grown[keep], [f[keep] for f in found]
