@@ -262,9 +262,10 @@ class _Search:
 
         while heap or dive:
             if dive:
-                bound, _, rows, g, _ = dive.pop()
+                bound, _, rows, g, s = dive.pop()
             else:
                 bound, _, rows, g, payload = heapq.heappop(heap)
+                s = payload
                 if rows is None:                     # a batch of anchors to look at
                     self.anchor_bounds(payload)
                     base = self.node_rows[0][payload]
@@ -279,12 +280,11 @@ class _Search:
                     break                            # nothing left can beat the threshold
                 continue
             if budget is not None and work >= budget:
-                heapq.heappush(heap, (bound, next(count), rows, g, None))
+                heapq.heappush(heap, (bound, next(count), rows, g, s))
                 stop = "budget"
                 break
-            s = rows.shape[1]
-            work += int(engine.fan(rows).sum())
-            which, cand, grown, arcs = engine.candidates(rows, arcs=True)
+            work += int(engine.fan(rows, s).sum())
+            which, cand, grown, arcs = engine.candidates(rows, s, arcs=True)
             cost = g[which] + self.node_rows[s][cand]
             for row, arc in zip(self.closes[s], arcs):
                 cost = cost + row[arc]
@@ -299,7 +299,7 @@ class _Search:
                                                cost[keep], lower[keep])
             if not len(cand):
                 continue
-            out = engine.child(grown, cand)
+            out = engine.child(grown, cand, s)
             if s + 1 == k:
                 order = np.argsort(cost, kind="stable")
                 self._collect(out[order], cost[order], best, top, perms)
@@ -307,7 +307,7 @@ class _Search:
             order = np.argsort(lower, kind="stable")
             out, cost, lower = out[order], cost[order], lower[order]
             blocks = [(float(lower[lo]), next(count), out[lo:lo + BLOCK],
-                       cost[lo:lo + BLOCK], None) for lo in range(0, len(out), BLOCK)]
+                       cost[lo:lo + BLOCK], s + 1) for lo in range(0, len(out), BLOCK)]
             held += len(out)
             if len(best) < top or held > HELD:       # dive: best child first
                 dive.extend(reversed(blocks))
@@ -336,7 +336,7 @@ class _Search:
         rows, g, lower = rows[order], g[order], lower[order]
         for lo in range(0, len(rows), BLOCK):
             heapq.heappush(heap, (float(lower[lo]), next(count), rows[lo:lo + BLOCK],
-                                  g[lo:lo + BLOCK], None))
+                                  g[lo:lo + BLOCK], 1))
 
     def _collect(self, rows, cost, best, top, perms):
         """Complete maps into `best` (orbit key -> (cost, map)), keeping the `top`

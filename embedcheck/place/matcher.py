@@ -449,6 +449,7 @@ def node_dtype(n: int):
 
 
 SMALL_DEGREE = 8        # hosts up to this degree get padded neighbour tables
+SPARE = 8               # columns a block of partial maps grows by at a time
 LOOK_TRIAL = 8192       # candidates a step's look-ahead check is tried on, at least,
 LOOK_WORTH = 0.02       # before it is dropped for pruning fewer than this fraction
 
@@ -513,24 +514,27 @@ class Engine:
         return anchors[ok]
 
     def root(self, anchors: np.ndarray) -> np.ndarray:
-        return np.asarray(anchors).astype(self.dtype).reshape(-1, 1)
+        """The block of one-node maps (step 1) at `anchors`."""
+        rows = np.empty((len(anchors), min(SPARE, max(self.prep.k, 1))), dtype=self.dtype)
+        rows[:, 0] = anchors
+        return rows
 
-    def fan(self, rows: np.ndarray) -> np.ndarray:
-        """Candidates each row will try at its next step."""
-        s = rows.shape[1]
+    def fan(self, rows: np.ndarray, s: int) -> np.ndarray:
+        """Candidates each row (at step s) will try at its next step."""
         parent = self.prep.plan.parent[s]
         if parent < 0:
             return np.full(len(rows), len(self.free[s]), dtype=np.int64)
         return self.deg[rows[:, parent]]
 
-    def candidates(self, rows: np.ndarray, arcs: bool = False):
-        """(which, cand, grown, arcs): the extensions of `rows` (step s = its width) by
-        one node that pass every check: `which` the row extended, `cand` the new image,
-        `grown` = rows[which]; with `arcs`, a list holding for each pattern edge the step
-        closes (parent edge first, then `extra` in plan order) the host arc it uses."""
+    def candidates(self, rows: np.ndarray, s: int, arcs: bool = False):
+        """(which, cand, grown, arcs): the extensions of `rows` (at step s: columns 0..s-1
+        hold the images so far, any further columns are room for later steps) by one
+        node that pass every check: `which` the row extended, `cand` the new image,
+        `grown` = rows[which] (a copy to write the new image into: see `child`); with
+        `arcs`, a list holding for each pattern edge the step closes (parent edge first,
+        then `extra` in plan order) the host arc it uses."""
         prep = self.prep
         p, host = prep.plan, prep.host
-        s = rows.shape[1]
         parent = p.parent[s]
         position = None
         if parent >= 0 and self.padded is not None:   # neighbours from the padded table
@@ -581,19 +585,26 @@ class Engine:
             if seen >= LOOK_TRIAL and cut < LOOK_WORTH * seen:
                 self.looking[s] = False          # this step's check rarely prunes: drop it
         grown = rows[which]
-        keep = ~_contains(grown, cand)
+        keep = ~_contains(grown[:, :s], cand)
+        if keep.all():                      # the usual case: no second copy
+            return which, cand, grown, found
         return which[keep], cand[keep], grown[keep], [f[keep] for f in found]
 
     @staticmethod
-    def child(grown: np.ndarray, cand: np.ndarray) -> np.ndarray:
-        rows = np.empty((len(cand), grown.shape[1] + 1), dtype=grown.dtype)
-        rows[:, :-1] = grown
-        rows[:, -1] = cand
-        return rows
+    def child(grown: np.ndarray, cand: np.ndarray, s: int) -> np.ndarray:
+        """The rows at step s + 1: `grown` (from `candidates`) with image s written in,
+        widened by SPARE columns when it has no room left (so a row is copied once per
+        step, not twice)."""
+        if s >= grown.shape[1]:
+            wider = np.empty((len(cand), grown.shape[1] + SPARE), dtype=grown.dtype)
+            wider[:, :s] = grown[:, :s]
+            grown = wider
+        grown[:, s] = cand
+        return grown
 
     def maps(self, rows: np.ndarray) -> np.ndarray:
-        """Full maps (host nodes in pattern node order, int64)."""
-        return rows[:, self.inverse].astype(np.int64)
+        """Full maps of rows at step k (host nodes in pattern node order, int64)."""
+        return rows[:, :self.prep.k][:, self.inverse].astype(np.int64)
 
 
 class _Probe:
@@ -744,7 +755,7 @@ def grow(prep: Prepared, *, part: tuple[int, int] = (0, 1), chunk: int = 1 << 20
     if done:
         anchors = anchors[~np.isin(anchors, list(done))]
     size, taken = FIRST_ANCHORS, 0
-    stack: list[np.ndarray] = []
+    stack: list[tuple[int, np.ndarray]] = []
     waiting = quiet = 0
     while True:
         if not stack:
@@ -754,33 +765,33 @@ def grow(prep: Prepared, *, part: tuple[int, int] = (0, 1), chunk: int = 1 << 20
             taken += size
             size *= 4
             if len(batch):
-                stack.append(engine.root(batch))
-                waiting += len(batch)
+                root = engine.root(batch)
+                stack.append((1, root))
+                waiting += root.size
             continue
-        rows = stack.pop()
+        s, rows = stack.pop()
         waiting -= rows.size
-        s = rows.shape[1]
         if quiet >= 1 << 16:
             quiet = 0
             yield np.zeros((0, k), dtype=np.int64)
         if s == k:
             if seen is not None:
-                rows = rows[~(rows == seen).all(axis=1)]
+                rows = rows[~(rows[:, :k] == seen).all(axis=1)]
             yield engine.maps(rows)
             continue
-        fan = engine.fan(rows)
+        fan = engine.fan(rows, s)
         total = int(fan.sum())
         room = max(chunk // 16, min(chunk, held - waiting))
-        most = max(1, room // (s + 1))                # candidates per piece
+        most = max(1, room // (rows.shape[1] + 1))      # candidates per piece
         if total > most and len(rows) > 1:            # split: bounded memory, depth first
             cut = np.searchsorted(np.cumsum(fan), np.arange(1, total // most + 2) * most)
             pieces = np.split(rows, np.unique(np.clip(cut, 1, len(rows) - 1)))
-            stack.extend(piece for piece in reversed(pieces) if len(piece))
+            stack.extend((s, piece) for piece in reversed(pieces) if len(piece))
             waiting += rows.size
             continue
         quiet += total + 64
-        _, cand, grown, _ = engine.candidates(rows)
+        _, cand, grown, _ = engine.candidates(rows, s)
         if len(cand):
-            out = engine.child(grown, cand)
-            stack.append(out)
+            out = engine.child(grown, cand, s)
+            stack.append((s + 1, out))
             waiting += out.size
