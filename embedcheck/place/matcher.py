@@ -484,7 +484,13 @@ class Engine:
                 if id(mask) not in known:
                     known[id(mask)] = np.append(mask, False)
                 self.padded_masks.append(known[id(mask)])
-        self.looking = [bool(x) for x in prep.look] + [False]
+        self.reset()
+
+    def reset(self) -> None:
+        """Forget which look-ahead checks were dropped (each search starts afresh, so a
+        piece of the anchors gives the same maps whichever process runs it)."""
+        k = self.prep.k
+        self.looking = [bool(x) for x in self.prep.look] + [False]
         self.look_seen = [0] * (k + 1)
         self.look_cut = [0] * (k + 1)
 
@@ -717,7 +723,8 @@ def _probe_anchors(engine: Engine, anchors: np.ndarray) -> list[int]:
 
 
 def grow(prep: Prepared, *, part: tuple[int, int] = (0, 1), chunk: int = 1 << 20,
-         held: int = 1 << 24, probe: int | None = None) -> Iterator[np.ndarray]:
+         held: int = 1 << 24, probe: int | None = None,
+         engine: Engine | None = None) -> Iterator[np.ndarray]:
     """The search itself (see `monomorphisms`).
 
     First a probe: a plain depth-first search from a few promising anchors (see
@@ -730,12 +737,15 @@ def grow(prep: Prepared, *, part: tuple[int, int] = (0, 1), chunk: int = 1 << 20
     `chunk` entries, and the pieces waiting on the stack hold at most about `held`
     entries in all (when they would hold more, the next splits make smaller pieces), so
     memory stays bounded (16 MiB of 2-byte entries by default, plus one block) however
-    deep or wide the search grows."""
+    deep or wide the search grows. `engine` lets several searches of one `prep` share
+    the tables an `Engine` builds."""
     k = prep.k
     if k == 0:
         yield np.zeros((1, 0), dtype=np.int64)
         return
-    engine = Engine(prep)
+    if engine is None:
+        engine = Engine(prep)
+    engine.reset()
     anchors = prep.start[part[0]::part[1]]
     budget = 32 * k + 512 if probe is None else probe
     seen, done = None, set()
