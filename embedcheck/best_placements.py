@@ -1,0 +1,212 @@
+"""The best few placements of a patch by the fidelity product, without listing the rest.
+
+A patch much sparser than its chip has millions of placements; this searches them best
+first (`best_first.py`, branch and bound) and stops once the `top` best are proven, or
+on a budget with the gap still open. The cost is minus the log of the fidelity product
+(`rank.py`), split into additive parts: per patch qubit and chip qubit, its measurements,
+single-qubit gates, resets and idling; per interacting pair and coupler, its two-qubit
+gates (weighted by how often each circuit runs). That split is exact when the schedule
+does not depend on the placement (every coupler, single-qubit gate and measurement takes
+as long on every qubit, or no qubit has T1/T2): then idle times are fixed. Otherwise the
+search takes idle times from the schedule with median durations (`idle_exact` is False),
+and the placements found are scored afterwards with the full model (`full_log_success`).
+
+Qubits with no two-qubit gate in the searched circuits take no part in the search; they
+go on the nearest free qubits as `find_placements` puts them. Scores are model
+estimates from the calibration supplied, which drifts (see `rank.CAUTION`).
+
+    >>> from embedcheck.device import Device, CouplerCalibration
+    >>> from embedcheck.lattices import square_grid
+    >>> from embedcheck.patch import Patch, Circuit, Operation
+    >>> lat = square_grid(1, 4)
+    >>> dev = Device.from_lattice(lat, name="line", coupler_calibration={
+    ...     (0, 1): CouplerCalibration(0.03), (1, 2): CouplerCalibration(0.01),
+    ...     (2, 3): CouplerCalibration(0.02)})
+    >>> patch = Patch("pair", ("a", "b"), dict.fromkeys("ab", "data"),
+    ...               {"round": Circuit("round", (Operation("cx", ("a", "b"), "2q"),))})
+    >>> best = find_best_placements(dev, patch, top=2)
+    >>> [p.physical for p in best.placements], best.proven
+    ([(1, 2), (2, 3)], True)
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, replace
+from typing import Sequence
+
+import numpy as np
+
+from .best_first import best_first
+from .constraints import Constraints
+from .device import Device
+from .matcher import Host
+from .patch import Patch
+from .rank import circuit_timing, experiment_counts, idle_error, rank_placements
+from .search import (Placement, _check_request, _chip_graph, _complete, _directional_arcs,
+                     _pattern, _symmetry_group, necessary_conditions, role_masks)
+
+
+@dataclass(frozen=True, kw_only=True)
+class BestPlacements:
+    """The best placements found, best first, and how far that is proven.
+
+    `log_success` is the searched model's log S of each placement (the fidelity product,
+    idle times from a median-duration schedule unless `idle_exact`); `full_log_success`
+    the full model's, as `rank_placements` computes it. `proven`: no placement outside these has
+    a higher searched log S than the last one listed (and none at all remain when fewer
+    than `top` came back). Otherwise (`stop_reason` 'budget') a placement not listed may
+    have a log S up to `gap` higher than the last one listed. `reasons` explain why no
+    placement exists, when a cheap check already rules it out."""
+
+    circuits: tuple[str, ...]
+    placements: tuple[Placement, ...]
+    log_success: np.ndarray
+    full_log_success: np.ndarray
+    proven: bool
+    stop_reason: str
+    gap: float
+    work: int
+    idle_exact: bool
+    symmetry_order: int
+    reasons: tuple[str, ...] = ()
+    notes: tuple[str, ...] = ()
+
+
+def find_best_placements(device: Device, patch: Patch, *, top: int = 10,
+                         circuits: Sequence[str] | None = None,
+                         constraints: Constraints | None = None,
+                         budget: int | None = None) -> BestPlacements:
+    """The `top` swap-free placements with the highest fidelity product (see the module
+    doc), one per symmetry orbit, searched best first. `budget` caps the work (candidate
+    extensions tried: identical runs stop at the same place); `constraints` as in
+    `find_placements`."""
+    names = _check_request(patch, circuits, top, None, 1, budget)
+    rules = constraints or Constraints()
+    reasons = necessary_conditions(device, patch, names, rules)
+    empty = np.zeros(0)
+    if reasons:
+        return BestPlacements(circuits=names, placements=(), log_success=empty,
+                              full_log_success=empty, proven=True, stop_reason="complete",
+                              gap=0.0, work=0, idle_exact=True, symmetry_order=1,
+                              reasons=tuple(reasons))
+    pattern, placed = _pattern(patch, names)
+    chip = _chip_graph(device, rules)
+    host = Host.from_edges(chip.num_nodes(), chip.edge_list())
+    physical = np.array(chip.nodes(), dtype=np.int64)
+    usable = rules.qubits(device)
+    blocked = {i for i in range(chip.num_nodes()) if physical[i] not in usable}
+    allowed = rules.allowed_by_role(device, set(patch.roles.values())) if rules.roles else None
+    masks = role_masks(chip, pattern, allowed, blocked)
+    edges = [tuple(e) for e in pattern.edge_list()]
+    node_cost, edge_cost, idle_exact = _costs(device, patch, names, placed, edges,
+                                              physical, host)
+    notes = []
+    if rules.forbid_direction_fixes:          # directional gates only the native way
+        tail = np.repeat(np.arange(host.n), host.degree)
+        native = np.array([device.runs_natively(int(physical[a]), int(physical[b]))
+                           for a, b in zip(tail, host.indices)], dtype=bool)
+        index = {e: i for i, e in enumerate(edges)}
+        for a, b in _directional_arcs(patch, names, placed):
+            if (a, b) in index:
+                edge_cost[index[(a, b)], ~native] = np.inf
+            else:
+                reverse = host.arcs(host.indices, tail)
+                edge_cost[index[(b, a)], ~native[reverse]] = np.inf
+        group = [tuple(range(len(placed)))]
+    else:
+        group, too_big = _symmetry_group(pattern)
+        if too_big:
+            notes.append("the patch's symmetry group is too big to list: placements are "
+                         "not merged by symmetry")
+    if not idle_exact:
+        notes.append("durations differ across the chip, so idle times depend on the "
+                     "placement: the search takes them from a schedule with median "
+                     "durations; full_log_success has the exact figure")
+    found = best_first(host, len(placed), edges, node_cost=node_cost, edge_cost=edge_cost,
+                       candidates=masks, symmetries=group, top=top, budget=budget)
+    placements, logs = [], []
+    for row, cost in zip(found.maps.tolist(), found.costs.tolist()):
+        if len(placed) == patch.num_qubits:
+            done = Placement(tuple(int(physical[node]) for node in row))
+        else:
+            done = _complete(chip, patch, placed, row, blocked, allowed)
+        if done is not None:
+            placements.append(done)
+            logs.append(-cost)
+    full = rank_placements(device, patch, placements) if placements else None
+    order = {p: i for i, p in enumerate(full.placements)} if full else {}
+    full_logs = np.array([full.log_success[order[p]] for p in placements]) if full \
+        else empty
+    return BestPlacements(circuits=names, placements=tuple(placements),
+                          log_success=np.array(logs), full_log_success=full_logs,
+                          proven=found.proven, stop_reason=found.stop_reason,
+                          gap=float(found.gap), work=found.work,
+                          idle_exact=idle_exact, symmetry_order=len(group),
+                          notes=tuple(notes))
+
+
+def _costs(device, patch, names, placed, edges, physical, host):
+    """(node_cost, edge_cost, idle_exact): minus the log fidelity terms of each pattern
+    node on each chip node and each pattern edge on each host arc; idle_exact says
+    whether the idle part is exact (see `_fixed_schedule`)."""
+    cal = device.calibration_arrays()
+    pairs, measures, singles, resets = experiment_counts(patch)
+    with np.errstate(divide="ignore"):
+        readout = -np.log1p(-cal.readout_error[physical])
+        single = -np.log1p(-cal.single_qubit_error[physical])
+        reset = -np.log1p(-cal.reset_error[physical])
+    node_cost = np.array([measures[q] * readout + singles[q] * single + resets[q] * reset
+                          for q in placed]).reshape(len(placed), host.n)
+    idle_exact = _fixed_schedule(cal, physical, host)
+    node_cost = node_cost + _idle_costs(patch, placed, cal, physical)
+    tail = np.repeat(np.arange(host.n), host.degree)
+    error = cal.coupler(physical[tail], physical[host.indices], cal.coupler_error)
+    with np.errstate(divide="ignore"):
+        per_arc = -np.log1p(-np.nan_to_num(error, nan=1.0))
+    edge_cost = np.zeros((len(edges), len(host.keys)))
+    for e, (a, b) in enumerate(edges):
+        pa, pb = placed[a], placed[b]
+        weight = pairs.get((pa, pb), 0) + pairs.get((pb, pa), 0)
+        edge_cost[e] = weight * per_arc if weight else 0.0
+    return node_cost, edge_cost, idle_exact
+
+
+def _fixed_schedule(cal, physical, host) -> bool:
+    """Does the schedule (hence every idle time) not depend on the placement?"""
+    if np.isinf(cal.t1_us[physical]).all() and np.isinf(cal.t2_us[physical]).all():
+        return True                          # nothing decays: no idle term at all
+    tail = np.repeat(np.arange(host.n), host.degree)
+    ns = cal.coupler(physical[tail], physical[host.indices], cal.coupler_ns)
+    return all(len(np.unique(values)) <= 1 for values in
+               (ns, cal.single_qubit_ns[physical], cal.measurement_ns[physical]))
+
+
+def _idle_costs(patch, placed, cal, physical) -> np.ndarray:
+    """Minus the log idle factors, per pattern node and chip node, as `rank.scores` sums
+    them, on the schedule every placement gets when each duration is the chip's median
+    (exact when durations do not vary: see `_fixed_schedule`)."""
+    out = np.zeros((len(placed), len(physical)))
+    if not len(physical):
+        return out
+
+    def median(values):
+        known = values[physical][values[physical] > 0]
+        return np.full(cal.size, float(np.median(known)) if known.size else 0.0)
+
+    typical = replace(cal, coupler_keys=np.zeros(0, dtype=np.int64),   # every pair off
+                      coupler_error=np.zeros(0), coupler_ns=np.zeros(0),  # a coupler: the
+                      single_qubit_ns=median(cal.single_qubit_ns),        # median two-qubit
+                      measurement_ns=median(cal.measurement_ns))          # duration
+    grid = np.zeros((1, patch.num_qubits), dtype=np.int64)
+    t1, t2 = cal.t1_us[physical], cal.t2_us[physical]
+    for name, times in patch.experiment():
+        finish, first, busy, started = circuit_timing(patch, name, grid, typical)
+        base = np.where(started[:, None], np.maximum(finish - first - busy, 0.0), 0.0)[:, 0]
+        for again, count in ((False, 1), (True, times - 1)):
+            if count <= 0:
+                continue
+            waiting = {patch.index[q] for q in patch.waiting(name, again)}
+            for j, q in enumerate(placed):
+                t = max(float(finish[0] - busy[q, 0]), 0.0) if q in waiting else base[q]
+                with np.errstate(divide="ignore"):
+                    out[j] -= count * np.log1p(-idle_error(t, t1, t2))
+    return out
