@@ -51,7 +51,7 @@ import numpy as np
 
 from .matcher import Engine, Host, _layers, prepare
 
-BLOCK = 512              # rows per block on the heap
+BLOCK = 4096              # rows per block on the heap
 HELD = 1 << 22           # rows held on the heap before it works depth first
 ANCHOR_BATCH = 256       # anchors whose balls are worked out together
 
@@ -183,12 +183,28 @@ class _Search:
         self.edge_floor = [[float(r.min(initial=np.inf)) for r in self.closes[s]]
                            for s in range(k)]
         self.rest = np.full((prep.host.n, k + 1), np.inf)
+        # per host node / coupler, the least any pattern node / edge of the root's part
+        # costs there (for the distinct-nodes bound)
+        inside = [s for s in range(k) if self.reach[s] < k]
+        self.node_lower = np.full(prep.host.n, np.inf)
+        for s in inside:
+            self.node_lower = np.minimum(self.node_lower,
+                                         np.where(masks[s], self.node_rows[s], np.inf))
+        self.coupler_lower = np.full(len(prep.host.keys), np.inf)
+        for t, s, row in self.edge_rows:
+            if self.reach[t] < k and self.reach[s] < k:
+                self.coupler_lower = np.minimum(self.coupler_lower,
+                                                np.minimum(row, row[reverse]))
         self.invariant = False
         self.frontier = _Frontier(self)
 
     # bounds -----------------------------------------------------------------------
     def anchor_bounds(self, anchors: np.ndarray) -> None:
-        """rest[a, s]: the cheapest the steps s.. can cost around anchor a."""
+        """rest[a, s]: the least the steps s.. (and the edges they close) can cost around
+        anchor a. Two bounds, the larger kept, for nodes and for edges apart: each one
+        at its cheapest in the ball its pattern distance from the root allows; or, since
+        the nodes left need as many distinct host nodes of the root's ball (and the
+        edges as many distinct couplers), the sum of that many of its cheapest."""
         prep, k, host = self.prep, self.k, self.prep.host
         part = self.reach < k
         radius = int(self.reach[part].max(initial=0))
@@ -200,14 +216,15 @@ class _Search:
         first = np.concatenate([[0], np.cumsum(sizes[:, -1])[:-1]])
         rank = np.arange(len(owner)) - first[owner]
         dist = (rank[:, None] >= sizes[owner]).sum(axis=1)        # breadth-first distance
-        steps = np.zeros((m, k))
+        nodes = np.zeros((m, k))                     # per step, inside the root's part
+        nodes_other = np.zeros(k)                    # per step, other parts (global)
         for s in range(k):
-            if self.reach[s] >= k:
-                steps[:, s] = self.node_floor[s]
+            if not part[s]:
+                nodes_other[s] = self.node_floor[s]
                 continue
             vals = np.where(prep.masks[s][node] & (dist <= self.reach[s]),
                             self.node_rows[s][node], np.inf)
-            steps[:, s] = np.minimum.reduceat(vals, first) if len(vals) else np.inf
+            nodes[:, s] = np.minimum.reduceat(vals, first) if len(vals) else np.inf
         # arcs inside the balls: x -> y with both ends reached
         fan = host.degree[node]
         who = np.repeat(owner, fan)
@@ -221,20 +238,38 @@ class _Search:
         head = np.where(inside, dist[order][at], radius + 1)
         per_owner = np.bincount(who, minlength=m)
         arcs_first = np.concatenate([[0], np.cumsum(per_owner)[:-1]])
+        edges = np.zeros((m, k))
+        edges_other = np.zeros(k)
+        edges_left = np.zeros(k + 1, dtype=np.int64)
         p = self.prep.plan
         for s in range(k):
             earlier = ([p.parent[s]] if p.parent[s] >= 0 else []) + list(p.extra[s])
             for row, t in zip(self.closes[s], earlier):
-                if self.reach[s] >= k or self.reach[t] >= k:
-                    steps[:, s] += float(row.min(initial=np.inf))
+                if not (part[s] and part[t]):
+                    edges_other[s] += float(row.min(initial=np.inf))
                     continue
+                edges_left[s] += 1
                 ok = (tail <= self.reach[t]) & (head <= self.reach[s])
                 vals = np.where(ok, row[arc], np.inf)
                 low = np.minimum.reduceat(vals, np.minimum(arcs_first, len(vals) - 1)) \
                     if len(vals) else np.full(m, np.inf)
-                steps[:, s] += np.where(per_owner > 0, low, np.inf)
+                edges[:, s] += np.where(per_owner > 0, low, np.inf)
+        # the distinct-nodes and distinct-couplers bounds, as prefix sums per anchor
+        left = np.concatenate([np.cumsum(part[::-1])[::-1], [0]])     # part nodes left
+        edges_left = np.cumsum(edges_left[::-1])[::-1]                 # part edges left
+        cheapest_nodes = _cheapest_sums(owner, self.node_lower[node], sizes[:, -1],
+                                        int(left[0]))
+        one_way = inside & (host.indices[arc] > np.repeat(node, fan))  # each coupler once
+        cheapest_couplers = _cheapest_sums(who[one_way], self.coupler_lower[arc[one_way]],
+                                           np.bincount(who[one_way], minlength=m),
+                                           int(edges_left[0]))
         rest = np.zeros((m, k + 1))
-        rest[:, :k] = np.cumsum(steps[:, ::-1], axis=1)[:, ::-1]
+        node_part = _suffix(nodes)
+        edge_part = _suffix(edges)
+        rows = np.arange(m)[:, None]
+        rest += np.maximum(node_part, cheapest_nodes[rows, left[None, :]])
+        rest += np.maximum(edge_part, cheapest_couplers[rows, edges_left[None, :]])
+        rest += _suffix(nodes_other[None, :]) + _suffix(edges_other[None, :])
         self.rest[anchors] = rest
 
     # the search ---------------------------------------------------------------------
@@ -505,6 +540,39 @@ class _Frontier:
         for arr, ref in parts:
             out += arr[cand] if ref == last else arr[grown[:, ref]]
         return out
+
+
+def _suffix(steps: np.ndarray) -> np.ndarray:
+    """Per row, the sums of columns s.. for s = 0 .. width (the last one 0)."""
+    out = np.zeros((steps.shape[0], steps.shape[1] + 1))
+    out[:, :-1] = np.cumsum(steps[:, ::-1], axis=1)[:, ::-1]
+    return out
+
+
+def _cheapest_sums(owner: np.ndarray, values: np.ndarray, counts: np.ndarray,
+                   most: int) -> np.ndarray:
+    """out[i, j]: the sum of the j smallest `values` of group i (`owner` sorted, group i
+    holding counts[i] values), j = 0 .. most; inf past the group's size."""
+    m = len(counts)
+    out = np.full((m, most + 1), np.inf)
+    out[:, 0] = 0.0
+    if not len(values) or not most:
+        return out
+    order = np.lexsort((values, owner))
+    ranked = values[order]
+    infinite = np.isinf(ranked)              # kept apart: inf - inf would be NaN
+    total = np.cumsum(np.where(infinite, 0.0, ranked))
+    blocked = np.cumsum(infinite)
+    start = np.concatenate([[0], np.cumsum(counts)[:-1]])
+    j = np.arange(1, most + 1)
+    at = np.minimum(start[:, None] + j[None, :] - 1, len(total) - 1)
+    ok = j[None, :] <= counts[:, None]
+    before = np.where(start > 0, total[np.maximum(start - 1, 0)], 0.0)
+    blocked_before = np.where(start > 0, blocked[np.maximum(start - 1, 0)], 0)
+    sums = total[at] - before[:, None]
+    sums[blocked[at] - blocked_before[:, None] > 0] = np.inf
+    out[:, 1:] = np.where(ok, sums, np.inf)
+    return out
 
 
 def _canonical(maps: np.ndarray, perms: np.ndarray) -> np.ndarray:
