@@ -243,7 +243,7 @@ def _shortest_ear(nbrs, pos, order) -> list[int]:
     start: dict[int, int] = {}               # the mapped node the path left from
     queue = deque()
     for m in order:
-        for u in sorted(nbrs[m]):
+        for u in nbrs[m]:                    # neighbour lists come sorted
             if pos[u] < 0 and u not in root:
                 root[u], back[u], start[u] = len(root), -1, m
                 queue.append(u)
@@ -257,7 +257,7 @@ def _shortest_ear(nbrs, pos, order) -> list[int]:
 
     while queue:
         v = queue.popleft()
-        for w in sorted(nbrs[v]):
+        for w in nbrs[v]:
             if pos[w] >= 0:
                 if w != start[v] or back[v] >= 0:
                     return path(v)
@@ -302,8 +302,9 @@ def plan(k: int, edges: Sequence[tuple[int, int]], counts: np.ndarray,
         for w in nbrs[v]:
             linked[w] += 1
 
+    ordered = [sorted(x) for x in nbrs]
     while len(order) < k:
-        ear = _shortest_ear(nbrs, pos, order)
+        ear = _shortest_ear(ordered, pos, order)
         if ear:
             for v in ear:
                 take(v)
@@ -419,25 +420,37 @@ def prepare(host: Host, k: int, edges: Sequence[tuple[int, int]], *,
                     _look_ahead(pnbr, p))
 
 
+LOOK_DISTANCE = 5       # look-ahead checks reach pattern nodes up to this far
+LOOK_WIDTH = 64         # and use chip balls of at most this many nodes
+
+
 def _look_ahead(pnbr, p: Plan, most: int = 1) -> tuple:
     """Per step s, up to `most` earlier steps t whose image must lie within distance d
-    (2 or 3: the pattern distance) of step s's image, where that is not already implied
-    by the nodes mapped so far (the short pattern path runs through unmapped nodes: the
-    rest of an ear). A necessary condition of a monomorphism, checked before the
-    injectivity test, so that walks that can no longer close their cycle die young."""
+    (2 .. LOOK_DISTANCE: the pattern distance) of step s's image, where that is not
+    already implied by the nodes mapped so far (the short pattern path runs through
+    unmapped nodes: the rest of an ear). A necessary condition of a monomorphism,
+    checked before the injectivity test, so that walks that can no longer close their
+    cycle die young; the nearest such step is taken."""
     pos = {v: s for s, v in enumerate(p.order)}
+
+    def reach(source, allowed):
+        dist, front = {source: 0}, [source]
+        for d in range(1, LOOK_DISTANCE + 1):
+            nxt = []
+            for v in front:
+                for w in pnbr[v]:
+                    if w not in dist and allowed(w):
+                        dist[w] = d
+                        nxt.append(w)
+            front = nxt
+        return dist
+
     out = []
     for s, v in enumerate(p.order):
-        linked = {p.order[t] for t in ((p.parent[s],) if p.parent[s] >= 0 else ())
-                  + p.extra[s]}
-        two = {x for w in linked for x in pnbr[w] if pos[x] < s}       # mapped paths
-        three = {y for x in two for y in pnbr[x] if pos[y] < s}
-        one_full = pnbr[v]
-        two_full = {x for w in one_full for x in pnbr[w]} - one_full - {v}
-        three_full = {y for x in two_full for y in pnbr[x]} - two_full - one_full - {v}
-        picks = sorted([(2, -pos[t]) for t in two_full if pos[t] < s and t not in two]
-                       + [(3, -pos[t]) for t in three_full
-                          if pos[t] < s and t not in two and t not in three])
+        full = reach(v, lambda w: True)
+        mapped = reach(v, lambda w, s=s: pos[w] < s)          # paths over mapped nodes
+        picks = sorted((d, -pos[t]) for t, d in full.items()
+                       if d >= 2 and pos[t] < s and mapped.get(t, LOOK_DISTANCE + 1) > d)
         out.append(tuple((-t, d) for d, t in picks[:most]))
     return tuple(out)
 
@@ -495,8 +508,8 @@ class Engine:
         self.look_cut = [0] * (k + 1)
 
     def ball(self, radius: int) -> np.ndarray:
-        """Per host node, the nodes within `radius` (2 or 3) of it, padded with n; built
-        once per search, for the look-ahead checks."""
+        """Per host node, the nodes within `radius` (2 .. LOOK_DISTANCE) of it, padded
+        with n; built once per search, for the look-ahead checks."""
         if radius not in self._balls:
             n = self.prep.host.n
             inner = self.ball(radius - 1) if radius > 2 else \
@@ -583,7 +596,10 @@ class Engine:
         if self.padded is not None and self.looking[s]:
             before = len(cand)
             for t, d in prep.look[s]:
-                keep = _contains(self.ball(d)[rows[which, t]], cand)
+                table = self.ball(d)
+                if table.shape[1] > LOOK_WIDTH:          # too dense a chip: skip it
+                    continue
+                keep = _contains(table[rows[which, t]], cand)
                 which, cand = which[keep], cand[keep]
                 found = [f[keep] for f in found]
             seen = self.look_seen[s] = self.look_seen[s] + before
@@ -644,13 +660,19 @@ class _Probe:
             got = self.sets[v] = frozenset(self.near(v))
         return got
 
-    def ball2(self, v: int) -> frozenset:
-        got = self.balls.get(v)
+    def ball(self, v: int, radius: int) -> frozenset:
+        """The host nodes within `radius` (>= 1) of v."""
+        got = self.balls.get((v, radius))
         if got is None:
-            ball = {v, *self.near(v)}
-            for w in self.near(v):
-                ball.update(self.near(w))
-            got = self.balls[v] = frozenset(ball)
+            if radius == 1:
+                got = frozenset({v, *self.near(v)})
+            else:
+                inner = self.ball(v, radius - 1)
+                ball = set(inner)
+                for w in inner:
+                    ball.update(self.near(w))
+                got = frozenset(ball)
+            self.balls[(v, radius)] = got
         return got
 
     def run(self, anchor: int, budget: int):
@@ -689,8 +711,8 @@ class _Probe:
                             break
                 if ok and look:
                     around = self.near(c)
-                    for t, d in look:
-                        reach = self.near_set(image[t]) if d == 2 else self.ball2(image[t])
+                    for t, d in look:            # within d of image[t]: c, or one of its
+                        reach = self.ball(image[t], d - 1)   # neighbours, within d - 1
                         if c not in reach and reach.isdisjoint(around):
                             ok = False
                             break
