@@ -432,26 +432,33 @@ def _look_ahead(pnbr, p: Plan, most: int = 1) -> tuple:
     checked before the injectivity test, so that walks that can no longer close their
     cycle die young; the nearest such step is taken."""
     pos = {v: s for s, v in enumerate(p.order)}
-
-    def reach(source, allowed):
-        dist, front = {source: 0}, [source]
+    out = []
+    for s, v in enumerate(p.order):
+        dist, front = {v: 0}, [v]                     # the whole pattern, around v
         for d in range(1, LOOK_DISTANCE + 1):
             nxt = []
-            for v in front:
-                for w in pnbr[v]:
-                    if w not in dist and allowed(w):
+            for x in front:
+                for w in pnbr[x]:
+                    if w not in dist:
                         dist[w] = d
                         nxt.append(w)
             front = nxt
-        return dist
-
-    out = []
-    for s, v in enumerate(p.order):
-        full = reach(v, lambda w: True)
-        mapped = reach(v, lambda w, s=s: pos[w] < s)          # paths over mapped nodes
-        picks = sorted((d, -pos[t]) for t, d in full.items()
-                       if d >= 2 and pos[t] < s and mapped.get(t, LOOK_DISTANCE + 1) > d)
-        out.append(tuple((-t, d) for d, t in picks[:most]))
+        picks = sorted((d, -pos[t]) for t, d in dist.items() if d >= 2 and pos[t] < s)
+        if not picks:
+            out.append(())
+            continue
+        deepest = picks[-1][0]
+        mapped, front = {v: 0}, [v]                   # paths over mapped nodes only
+        for d in range(1, deepest + 1):
+            nxt = []
+            for x in front:
+                for w in pnbr[x]:
+                    if w not in mapped and pos[w] < s:
+                        mapped[w] = d
+                        nxt.append(w)
+            front = nxt
+        chosen = [(-t, d) for d, t in picks if mapped.get(-t, deepest + 1) > d]
+        out.append(tuple(chosen[:most]))
     return tuple(out)
 
 
