@@ -11,27 +11,24 @@ operations on an array of partial maps (rows) instead of a Python loop per map.
 Pruning, all necessary conditions of a monomorphism:
 - a pattern node of degree d needs a host node of degree >= d, whose neighbours' degrees
   dominate its own neighbours' degrees (both sorted, largest first);
-- a node `d` steps from the first node (the root) in the pattern lands at most `d` steps
-  from the anchor on the host: so the host's ball of radius r around the anchor must hold
-  at least as many nodes as the pattern's ball around the root, for every r, and every
-  candidate must lie in the ball its distance from the root allows;
+- a node r steps from the first node (the root) in the pattern lands at most r steps
+  from the anchor on the host, so the host's ball of radius r around the anchor must hold
+  at least as many nodes as the pattern's ball around the root (checked for r = 1..4);
+- look-ahead: a node d <= 5 pattern steps from an earlier-mapped one, by a path through
+  nodes not yet mapped (the rest of an ear), must land within d host steps of its image;
+  so a walk that can no longer close its cycle dies young (a step's check is dropped
+  when it turns out to prune almost nothing);
 - per-node candidate masks from the caller (roles, constraints).
 
-The distances from an anchor are worked out when the search reaches that anchor (a
-breadth-first search in a batch of anchors, up to the root's eccentricity in the
-pattern), so the set-up is proportional to the part of the chip the search uses: a
-search stopped at its first placement looks at a few anchors only.
+Set-up follows the search: ball sizes are worked out per batch of anchors when the
+search reaches it (one breadth-first search for the batch), so a search stopped early
+pays for the anchors it looked at only.
 
-Each partial map is a row. Where the ball of every anchor is small, a row holds only the
-images the coming steps still need (the frontier), a bitmap over the anchor's ball (which
-host nodes are used: injectivity is one bit test) and a pointer to the row it grew from;
-full maps are read back along the pointers. Otherwise (patterns in several parts, or
-balls too big for a bitmap) a row holds every image so far.
-
-Order of work (never starve): depth first over blocks of rows, and the blocks start
-small -- a block may grow to about a quarter of the work done so far -- so the first
-placement comes after a narrow probe down the search tree, while a long enumeration
-soon works in big numpy batches.
+Order of work (never starve): first a probe, a plain depth-first search in Python, one
+partial map at a time (microseconds per step), from a few anchors far from the chip's
+edges; then depth first over blocks of rows in numpy. A patch much sparser than its chip
+(millions of placements, most partial maps never completing) thus gets a first map at
+once, where widening the blocks alone would pile up partial maps first.
 
 Symmetry breaking (one map per orbit of the pattern's automorphism group G, which acts
 freely on injective maps): along the matching order take base points u1, u2, ... with
@@ -113,11 +110,6 @@ class Host:
     def adjacent(self, a: np.ndarray, b: np.ndarray) -> np.ndarray:
         """Elementwise: is there an edge a-b?"""
         return self.arcs(a, b) >= 0
-
-    def ball_sizes(self, nodes: np.ndarray, radius: int) -> np.ndarray:
-        """Number of nodes within distance 1..radius of each of `nodes`, shape (len, radius)."""
-        sizes = _layers(self, np.asarray(nodes, dtype=np.int64), radius, None)[2]
-        return sizes[:, 1:radius + 1]
 
 
 def _ragged(starts: np.ndarray, counts: np.ndarray) -> np.ndarray:
@@ -443,7 +435,7 @@ def _look_ahead(pnbr, p: Plan, most: int = 1) -> tuple:
                         dist[w] = d
                         nxt.append(w)
             front = nxt
-        picks = sorted((d, -pos[t]) for t, d in dist.items() if d >= 2 and pos[t] < s)
+        picks = sorted((d, -pos[w], w) for w, d in dist.items() if d >= 2 and pos[w] < s)
         if not picks:
             out.append(())
             continue
@@ -457,7 +449,7 @@ def _look_ahead(pnbr, p: Plan, most: int = 1) -> tuple:
                         mapped[w] = d
                         nxt.append(w)
             front = nxt
-        chosen = [(-t, d) for d, t in picks if mapped.get(-t, deepest + 1) > d]
+        chosen = [(-t, d) for d, t, w in picks if mapped.get(w, deepest + 1) > d]
         out.append(tuple(chosen[:most]))
     return tuple(out)
 
