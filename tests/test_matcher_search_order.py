@@ -44,25 +44,48 @@ def medium(draw):
              draw(st.sampled_from([0, 5, None, 10**6])),     # probe steps
              draw(st.sampled_from([0, 8])),                  # padded tables or not
              draw(st.sampled_from([1, 8192])),               # look-ahead trial length
-             draw(st.sampled_from([2, 1 << 20])))            # chunk (many splits)
+             draw(st.sampled_from([2, 1 << 20])),            # chunk (many splits)
+             draw(st.sampled_from([0, 1 << 18])))            # girth learnt at once, or not
     return k, edges, n, host, knobs
 
 
 @settings(max_examples=150, derandomize=True, deadline=None)
 @given(medium())
 def test_every_map_once_whatever_the_search_order(case):
-    k, edges, n, host_edges, (first, probe, degree, trial, chunk) = case
-    saved = (matcher.FIRST_ANCHORS, matcher.SMALL_DEGREE, matcher.LOOK_TRIAL)
-    matcher.FIRST_ANCHORS, matcher.SMALL_DEGREE, matcher.LOOK_TRIAL = first, degree, trial
+    k, edges, n, host_edges, (first, probe, degree, trial, chunk, girth) = case
+    saved = (matcher.FIRST_ANCHORS, matcher.SMALL_DEGREE, matcher.LOOK_TRIAL,
+             matcher.GIRTH_AFTER)
+    (matcher.FIRST_ANCHORS, matcher.SMALL_DEGREE, matcher.LOOK_TRIAL,
+     matcher.GIRTH_AFTER) = first, degree, trial, girth
     try:
         prep = prepare(Host.from_edges(n, host_edges), k, edges)
         blocks = list(grow(prep, probe=probe, chunk=chunk))
     finally:
-        matcher.FIRST_ANCHORS, matcher.SMALL_DEGREE, matcher.LOOK_TRIAL = saved
+        (matcher.FIRST_ANCHORS, matcher.SMALL_DEGREE, matcher.LOOK_TRIAL,
+         matcher.GIRTH_AFTER) = saved
     maps = np.concatenate(blocks) if blocks else np.zeros((0, k), dtype=np.int64)
     found = [tuple(int(x) for x in row) for row in maps]
     assert len(found) == len(set(found))
     assert set(found) == _reference(n, host_edges, k, edges)
+
+
+@settings(max_examples=200, derandomize=True, deadline=None)
+@given(st.integers(3, 20), st.integers(2, 40), st.integers(0, 10**6))
+def test_girth_as_networkx_finds_it(n, m, seed):
+    # Reference: networkx.girth (breadth-first search per node).
+    graph = nx.gnm_random_graph(n, m, seed=seed)
+    index = {v: i for i, v in enumerate(graph.nodes)}
+    host = Host.from_edges(n, [(index[a], index[b]) for a, b in graph.edges])
+    expected = nx.girth(graph)
+    assert matcher._girth(host, 16) == (16 if expected > 16 else expected)
+
+
+def test_the_heavy_hex_lattice_has_girth_twelve_and_the_grid_four():
+    # Heavy-hex: hexagons with every edge subdivided (12-cycles); square grid: 4-cycles.
+    for lattice, girth in ((heavy_hex(4, 4), 12), (square_grid(5, 5), 4)):
+        index = {q: i for i, q in enumerate(lattice.qubits)}
+        host = Host.from_edges(len(index), [(index[a], index[b]) for a, b in lattice.couplers])
+        assert matcher._girth(host, 16) == girth
 
 
 def test_the_probe_finds_a_first_placement_on_a_sparse_patch_of_a_grid():

@@ -184,6 +184,47 @@ def _layers(host: Host, anchors: np.ndarray, radius: int, cap: int | None):
     return owner[order], node[order], np.stack(sizes, axis=1)
 
 
+def _girth(host: Host, cap: int) -> int:
+    """The length of the host's shortest cycle, or `cap` if it has none shorter.
+
+    Breadth-first search from every node at once, layer by layer: at depth d a node
+    reached from two nodes of the layer before (other than along the tree) closes a
+    cycle of at most 2d, an edge between two nodes of layer d one of 2d + 1, through the
+    search's root. The first depth at which any root sees one gives the girth (each
+    shortest cycle is seen from its own nodes at that depth)."""
+    n = host.n
+    if n == 0 or not len(host.indices):
+        return cap
+    owner = np.arange(n, dtype=np.int64)
+    front, came = owner.copy(), np.full(n, -1, dtype=np.int64)   # node, its parent
+    seen_prev = np.zeros(0, dtype=np.int64)                       # keys of depth d - 1
+    seen_now = owner * n + owner                                  # keys of depth d
+    deg = host.degree
+    for d in range(1, cap // 2 + 1):
+        fan = deg[front]
+        who = np.repeat(owner, fan)
+        src = np.repeat(front, fan)
+        back = np.repeat(came, fan)
+        dst = host.indices[_ragged(host.indptr[front], fan)]
+        keep = dst != back                               # not straight back up the tree
+        who, src, dst = who[keep], src[keep], dst[keep]
+        key = who * n + dst
+        at = np.minimum(np.searchsorted(seen_now, key), len(seen_now) - 1)
+        if (seen_now[at] == key).any():                  # an edge inside layer d - 1
+            return min(cap, 2 * d - 1)
+        order = np.argsort(key, kind="stable")
+        key, src = key[order], src[order]
+        if len(key) > 1 and (key[1:] == key[:-1]).any():  # reached twice: even cycle
+            return min(cap, 2 * d)
+        if len(seen_prev):
+            at = np.minimum(np.searchsorted(seen_prev, key), len(seen_prev) - 1)
+            if (seen_prev[at] == key).any():
+                return min(cap, 2 * d - 1)
+        seen_prev, seen_now = seen_now, key
+        owner, front, came = key // n, key % n, src
+    return cap
+
+
 def _top_degrees(indptr, indices, degree, width) -> np.ndarray:
     """Per node, its neighbours' degrees sorted largest first, padded with 0 to `width`."""
     n = len(indptr) - 1
@@ -462,6 +503,8 @@ def node_dtype(n: int):
 
 SMALL_DEGREE = 8        # hosts up to this degree get padded neighbour tables
 SPARE = 8               # columns a block of partial maps grows by at a time
+GIRTH_AFTER = 1 << 18   # candidates tried before the chip's girth is worth learning
+GIRTH_CAP = 16          # girths this long or longer count as this long
 LOOK_TRIAL = 8192       # candidates a step's look-ahead check is tried on, at least,
 LOOK_WORTH = 0.02       # before it is dropped for pruning fewer than this fraction
 
@@ -484,6 +527,7 @@ class Engine:
         self.radius = min(len(prep.profile) - 1, 4)
         top = int(self.deg.max(initial=0))
         self.padded = None
+        self.far: list | None = None         # see _learn_girth
         self._balls: dict[int, np.ndarray] = {}
         if 0 < top <= SMALL_DEGREE:
             slot = np.arange(len(host.indices)) - np.repeat(host.indptr[:-1], self.deg)
@@ -505,6 +549,44 @@ class Engine:
         self.looking = [bool(x) for x in self.prep.look] + [False]
         self.look_seen = [0] * (k + 1)
         self.look_cut = [0] * (k + 1)
+        self.work = 0
+
+    def _learn_girth(self) -> None:
+        """Once a search is big (GIRTH_AFTER candidates), learn the chip's girth g (up
+        to GIRTH_CAP) and, per step, which earlier images a new image could collide with.
+        A candidate c is a chip neighbour of its parent's image; if c were the image of
+        a mapped node t joined to the parent by a path of d mapped nodes, that path and
+        c would close a chip cycle of d + 1 distinct nodes, so d >= g - 1 (or d = 1: c
+        goes back along an edge). The other images need no comparison. (The girth is a
+        whole-chip figure, worked out once; a small search never asks for it.)"""
+        k, p = self.prep.k, self.prep.plan
+        g = _girth(self.prep.host, GIRTH_CAP)
+        self.far = []
+        if g < 5:
+            return                           # nothing to gain: compare with every image
+        nbrs: list[list[int]] = [[] for _ in range(k)]
+        for s in range(k):
+            for t in ((p.parent[s],) if p.parent[s] >= 0 else ()) + p.extra[s]:
+                nbrs[s].append(t)
+                nbrs[t].append(s)
+        for s in range(k + 1):
+            parent = p.parent[s] if s < k else -1
+            if parent < 0:
+                self.far.append((s, ()))
+                continue
+            dist, front = {parent: 0}, [parent]
+            while front:                     # over mapped steps only
+                nxt = []
+                for x in front:
+                    for w in nbrs[x]:
+                        if w < s and w not in dist:
+                            dist[w] = dist[x] + 1
+                            nxt.append(w)
+                front = nxt
+            hit = [t for t in range(s) if dist.get(t, k + 1) >= g - 1]
+            prefix = max(hit) + 1 if hit else 0
+            near = tuple(t for t in range(prefix, s) if dist.get(t) == 1)
+            self.far.append((prefix, near))
 
     def ball(self, radius: int) -> np.ndarray:
         """Per host node, the nodes within `radius` (2 .. LOOK_DISTANCE) of it, padded
@@ -606,7 +688,16 @@ class Engine:
             if seen >= LOOK_TRIAL and cut < LOOK_WORTH * seen:
                 self.looking[s] = False          # this step's check rarely prunes: drop it
         grown = rows[which]
-        keep = ~_contains(grown[:, :s], cand)
+        self.work += len(cand)
+        if self.far is None and self.work > GIRTH_AFTER:
+            self._learn_girth()
+        if self.far:                        # only images a collision could hit
+            prefix, near = self.far[s]
+            keep = ~_contains(grown[:, :prefix], cand)
+            for t in near:
+                keep &= grown[:, t] != cand
+        else:
+            keep = ~_contains(grown[:, :s], cand)
         if keep.all():                      # the usual case: no second copy
             return which, cand, grown, found
         return which[keep], cand[keep], grown[keep], [f[keep] for f in found]
