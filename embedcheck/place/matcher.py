@@ -185,7 +185,8 @@ def _layers(host: Host, anchors: np.ndarray, radius: int, cap: int | None):
 
 
 def _girth(host: Host, cap: int) -> int:
-    """The length of the host's shortest cycle, or `cap` if it has none shorter.
+    """The length of the host's shortest cycle, or `cap` if it has none shorter (or a
+    lower bound on it, when the search would hold more than GIRTH_MEMORY nodes).
 
     Breadth-first search from every node at once, layer by layer: at depth d a node
     reached from two nodes of the layer before (other than along the tree) closes a
@@ -202,6 +203,8 @@ def _girth(host: Host, cap: int) -> int:
     deg = host.degree
     for d in range(1, cap // 2 + 1):
         fan = deg[front]
+        if int(fan.sum()) > GIRTH_MEMORY:                # no cycle up to depth d - 1 so
+            return min(cap, max(3, 2 * d - 1))           # far: a lower bound will do
         who = np.repeat(owner, fan)
         src = np.repeat(front, fan)
         back = np.repeat(came, fan)
@@ -505,6 +508,7 @@ SMALL_DEGREE = 8        # hosts up to this degree get padded neighbour tables
 SPARE = 8               # columns a block of partial maps grows by at a time
 GIRTH_AFTER = 1 << 18   # candidates tried before the chip's girth is worth learning
 GIRTH_CAP = 16          # girths this long or longer count as this long
+GIRTH_MEMORY = 1 << 22  # search entries the girth may take (else a lower bound)
 LOOK_TRIAL = 8192       # candidates a step's look-ahead check is tried on, at least,
 LOOK_WORTH = 0.02       # before it is dropped for pruning fewer than this fraction
 
