@@ -63,7 +63,7 @@ def raw_maps(device: Device, chip: rx.PyGraph, pattern: rx.PyGraph,
         native = np.array(sorted(a * n + b for a, b in chip.edge_list() for a, b in
                                  ((a, b), (b, a)) if device.runs_natively(chip[a], chip[b])),
                           dtype=np.int64)
-    prep = prepare(Host.from_edges(n, list(chip.edge_list())), pattern.num_nodes(),
+    prep = prepare(Host.from_edges(n, chip.edge_list()), pattern.num_nodes(),
                    list(pattern.edge_list()), candidates=masks, symmetries=autos)
     job: _Job = (prep, arcs, native)
     if processes <= 1 or len(prep.start) < 2 * processes:
