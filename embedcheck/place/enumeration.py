@@ -37,13 +37,15 @@ def raw_maps(device: Device, chip: rx.PyGraph, pattern: rx.PyGraph,
              allowed: Mapping[str, set[int]] | None, blocked: set[int],
              arcs: Sequence[tuple[int, int]], autos: Sequence[Sequence[int]] | None, *,
              processes: int = 1, cap: int | None = None,
-             seconds: float | None = None) -> Iterator[tuple[np.ndarray, str | None, int]]:
+             seconds: float | None = None,
+             probe: bool = True) -> Iterator[tuple[np.ndarray, str | None, int]]:
     """(block, why, reported) triples: blocks of raw maps (rows: chip node of pattern node
     0, 1, ...), one per symmetry orbit when `autos` is given, without the maps whose
     directional gates run against a coupler's native direction when `arcs` is given.
     `why` is None, or 'limit' / 'budget' when a worker process stopped its part early (at
     `cap` maps, or after `seconds`); `reported` is, while workers still run, how many maps
-    they have found so far (for progress), else 0."""
+    they have found so far (for progress), else 0. `probe`: look for a first map depth
+    first before the batches (worth it unless every map is wanted anyway)."""
     n = chip.num_nodes()
     live = np.ones(n, dtype=bool)
     live[list(blocked)] = False
@@ -65,7 +67,7 @@ def raw_maps(device: Device, chip: rx.PyGraph, pattern: rx.PyGraph,
                           dtype=np.int64)
     prep = prepare(Host.from_edges(n, chip.edge_list()), pattern.num_nodes(),
                    list(pattern.edge_list()), candidates=masks, symmetries=autos)
-    job: _Job = (prep, arcs, native)
+    job: _Job = (prep, arcs, native, probe)
     if processes <= 1 or len(prep.start) < 2 * processes:
         for block in _filtered(job, (0, 1)):
             yield block, None, 0
@@ -103,13 +105,13 @@ def _start_worker(halt: Any, counted: Any) -> None:
     _HALT, _COUNTED = halt, counted
 
 
-_Job = tuple[Prepared, Sequence[tuple[int, int]], np.ndarray | None]
+_Job = tuple[Prepared, Sequence[tuple[int, int]], np.ndarray | None, bool]
 
 
 def _filtered(job: _Job, part: tuple[int, int]) -> Iterator[np.ndarray]:
-    prep, arcs, native = job
+    prep, arcs, native, probe = job
     n = prep.host.n
-    for block in grow(prep, part=part):
+    for block in grow(prep, part=part, probe=None if probe else 0):
         if native is not None and len(block):
             ok = np.ones(len(block), dtype=bool)
             for a, b in arcs:

@@ -114,9 +114,10 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
                   if x is not None)
     cut_short: str | None = None
     shown = 0
+    everything = limit is None and max_maps is None and budget_s is None
     for block, why, reported in raw_maps(device, chip, pattern, allowed, blocked, arcs,
                                          None if directed else autos, processes=processes,
-                                         cap=cap, seconds=budget_s):
+                                         cap=cap, seconds=budget_s, probe=not everything):
         cut_short = cut_short or why
         if reported and progress is not None and reported * order > shown:
             shown = reported * order              # workers' count while they still run
