@@ -28,9 +28,9 @@ import numpy as np
 import rustworkx as rx
 
 from ..model.device import Device
-from .matcher import Host, Prepared, grow, prepare
+from .matcher import Engine, Host, Prepared, grow, prepare
 
-__all__ = ["raw_maps"]
+__all__ = ["raw_maps", "role_masks"]
 
 
 def raw_maps(device: Device, chip: rx.PyGraph, pattern: rx.PyGraph,
@@ -47,19 +47,7 @@ def raw_maps(device: Device, chip: rx.PyGraph, pattern: rx.PyGraph,
     they have found so far (for progress), else 0. `probe`: look for a first map depth
     first before the batches (worth it unless every map is wanted anyway)."""
     n = chip.num_nodes()
-    live = np.ones(n, dtype=bool)
-    live[list(blocked)] = False
-    masks = None
-    if allowed is not None or blocked:
-        by_role: dict[str, np.ndarray] = {}
-        for role in set(pattern.nodes()):
-            mask = live.copy()
-            if allowed is not None:
-                ok = np.zeros(n, dtype=bool)
-                ok[[i for i in range(n) if chip[i] in allowed[role]]] = True
-                mask &= ok
-            by_role[role] = mask
-        masks = [by_role[role] for role in pattern.nodes()]
+    masks = role_masks(chip, pattern, allowed, blocked)
     native = None
     if arcs:
         native = np.array(sorted(a * n + b for a, b in chip.edge_list() for a, b in
@@ -73,45 +61,91 @@ def raw_maps(device: Device, chip: rx.PyGraph, pattern: rx.PyGraph,
             yield block, None, 0
         return
     import multiprocessing
-    from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
+    from concurrent.futures import Future, ProcessPoolExecutor, wait
     deadline = None if seconds is None else time.monotonic() + seconds
     context = multiprocessing.get_context()
     halt = context.Event()                   # set when the caller has enough
     counted = context.Value("q", 0)          # maps found by all workers so far (progress)
-    with ProcessPoolExecutor(processes, initializer=_start_worker,
-                             initargs=(halt, counted)) as pool:
-        futures = [pool.submit(_run_part, job, (i, processes), cap, deadline)
-                   for i in range(processes)]
+    # The anchors in PIECES pieces per process. This process works too: it takes the
+    # first piece, and later ones that no worker has started yet (from the end) rather
+    # than wait; pieces are handed on in their own order whoever ran them, so a limit
+    # keeps the same maps on every run.
+    pieces = [(i, PIECES * processes) for i in range(PIECES * processes)]
+    engine = Engine(prep)
+    with ProcessPoolExecutor(processes - 1, initializer=_start_worker,
+                             initargs=(halt, counted, job)) as pool:
+        futures: dict[int, Future] = {i: pool.submit(_run_part, part, cap, deadline)
+                                      for i, part in enumerate(pieces) if i}
+        ours: dict[int, tuple[np.ndarray, str | None]] = {}   # pieces run here ahead of turn
         try:
-            pending = set(futures)
-            while pending:
-                done, pending = wait(pending, timeout=0.5, return_when=FIRST_COMPLETED)
-                for future in done:
-                    yield future.result() + (0,)
-                if not done:                 # nothing back yet: tell how far the workers are
-                    yield np.zeros((0, prep.k), dtype=np.int64), None, counted.value
+            for i, part in enumerate(pieces):
+                if i in ours:
+                    yield ours.pop(i) + (0,)
+                    continue
+                future = futures.get(i)
+                if future is None or future.cancel():
+                    for block in _filtered(job, part, engine):
+                        yield block, None, 0
+                    continue
+                while not future.done():
+                    j = next((j for j in sorted(futures, reverse=True)
+                              if j > i and j not in ours and futures[j].cancel()), None)
+                    if j is not None:            # no worker started it: run it here
+                        ours[j] = _run_local(job, pieces[j], cap, deadline, engine)
+                        continue
+                    wait([future], timeout=0.5)
+                    if not future.done():            # tell how far the workers are
+                        yield np.zeros((0, prep.k), dtype=np.int64), None, counted.value
+                yield future.result() + (0,)
         finally:
             halt.set()                       # running workers stop at their next block
-            for future in futures:
+            for future in futures.values():
                 future.cancel()
 
 
+def role_masks(chip: rx.PyGraph, pattern: rx.PyGraph,
+               allowed: Mapping[str, set[int]] | None,
+               blocked: set[int]) -> list[np.ndarray] | None:
+    """Per pattern node, the chip graph nodes its role may use (None: any): live, and
+    allowed by the role's constraints. Nodes of one role share one mask."""
+    if allowed is None and not blocked:
+        return None
+    n = chip.num_nodes()
+    live = np.ones(n, dtype=bool)
+    live[list(blocked)] = False
+    by_role: dict[str, np.ndarray] = {}
+    for role in set(pattern.nodes()):
+        mask = live.copy()
+        if allowed is not None:
+            ok = np.zeros(n, dtype=bool)
+            ok[[i for i in range(n) if chip[i] in allowed[role]]] = True
+            mask &= ok
+        by_role[role] = mask
+    return [by_role[role] for role in pattern.nodes()]
+
+
+PIECES = 4                                   # pieces of the anchors per process
+
 _HALT: Any = None
 _COUNTED: Any = None
+_JOB: Any = None
+_ENGINE: Any = None
 
 
-def _start_worker(halt: Any, counted: Any) -> None:
-    global _HALT, _COUNTED
-    _HALT, _COUNTED = halt, counted
+def _start_worker(halt: Any, counted: Any, job: _Job) -> None:
+    global _HALT, _COUNTED, _JOB, _ENGINE
+    _HALT, _COUNTED, _JOB = halt, counted, job
+    _ENGINE = Engine(job[0])
 
 
 _Job = tuple[Prepared, Sequence[tuple[int, int]], np.ndarray | None, bool]
 
 
-def _filtered(job: _Job, part: tuple[int, int]) -> Iterator[np.ndarray]:
+def _filtered(job: _Job, part: tuple[int, int],
+              engine: Engine | None = None) -> Iterator[np.ndarray]:
     prep, arcs, native, probe = job
     n = prep.host.n
-    for block in grow(prep, part=part, probe=None if probe else 0):
+    for block in grow(prep, part=part, probe=None if probe else 0, engine=engine):
         if native is not None and len(block):
             ok = np.ones(len(block), dtype=bool)
             for a, b in arcs:
@@ -120,25 +154,32 @@ def _filtered(job: _Job, part: tuple[int, int]) -> Iterator[np.ndarray]:
         yield block
 
 
-def _run_part(job: _Job, part: tuple[int, int], cap: int | None,
+def _run_part(part: tuple[int, int], cap: int | None,
               deadline: float | None) -> tuple[np.ndarray, str | None]:
-    """One worker process's share of the anchors: every map it finds, unless `cap` maps
-    or the `deadline` (time.monotonic) come first; then also which one stopped it."""
+    """One worker process's piece of the anchors (see `_run_local`)."""
+    return _run_local(_JOB, part, cap, deadline, _ENGINE, counted=_COUNTED, halt=_HALT)
+
+
+def _run_local(job: _Job, part: tuple[int, int], cap: int | None, deadline: float | None,
+               engine: Engine | None, *, counted: Any = None,
+               halt: Any = None) -> tuple[np.ndarray, str | None]:
+    """A piece of the anchors: every map it finds, unless `cap` maps or the `deadline`
+    (time.monotonic) come first, or `halt` is set; then also which one stopped it."""
     blocks: list[np.ndarray] = []
     count, why = 0, None
-    for block in _filtered(job, part):
+    for block in _filtered(job, part, engine):
         blocks.append(block)
         count += len(block)
-        if _COUNTED is not None and len(block):
-            with _COUNTED.get_lock():
-                _COUNTED.value += len(block)
+        if counted is not None and len(block):
+            with counted.get_lock():
+                counted.value += len(block)
         if cap is not None and count >= cap:
             why = "limit"
             break
         if deadline is not None and time.monotonic() > deadline:
             why = "budget"
             break
-        if _HALT is not None and _HALT.is_set():
+        if halt is not None and halt.is_set():
             why = "budget"                   # the caller stopped (its result says why)
             break
     k = job[0].k
