@@ -100,7 +100,7 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
                  "relabelled copies",)
     allowed = rules.allowed_by_role(device, set(patch.roles.values())) if rules.roles else None
     found: list[Placement] = []
-    seen: set[bytes] = set()
+    seen: set[tuple[int, ...]] = set()
     raw, stop = 0, StopReason.COMPLETE
     usable = rules.qubits(device)
     blocked = {i for i in chip.node_indices() if chip[i] not in usable}
@@ -165,7 +165,8 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
                         notes=notes)
 
 
-def _take(batch: np.ndarray, perms: np.ndarray, seen: set[bytes], found: list[Placement],
+def _take(batch: np.ndarray, perms: np.ndarray, seen: set[tuple[int, ...]],
+          found: list[Placement],
           chip: rx.PyGraph, patch: Patch, placed: Sequence[int], blocked: set[int],
           allowed: Mapping[str, set[int]] | None, limit: int | None) -> int:
     """Canonicalise a batch of raw maps (numpy, no per-map Python loop over the symmetry
@@ -175,21 +176,32 @@ def _take(batch: np.ndarray, perms: np.ndarray, seen: set[bytes], found: list[Pl
     images = np.asarray(batch, dtype=np.int64).reshape(len(batch), len(placed))
     best = canonical_rows(images, perms)
     whole = len(placed) == patch.num_qubits          # every patch qubit interacts
-    physical = np.array(chip.nodes(), dtype=np.int64)[best]
-    for i, row in enumerate(best):
-        key = row.tobytes()
+    rows = (_qubit_numbers(chip)[best] if whole else best).tolist()   # one list, no
+    for i, row in enumerate(rows):                                    # per-row numpy
+        key = tuple(row)
         if key in seen:
             continue
         seen.add(key)
         if whole:
-            placement: Placement | None = Placement(tuple(physical[i].tolist()))
+            placement: Placement | None = Placement(key)
         else:
-            placement = complete_placement(chip, patch, placed, row.tolist(), blocked, allowed)
+            placement = complete_placement(chip, patch, placed, row, blocked, allowed)
         if placement is not None:
             found.append(placement)
         if limit is not None and len(found) >= limit:
             return i + 1
     return len(best)
+
+
+def _qubit_numbers(chip: rx.PyGraph) -> np.ndarray:
+    """The physical qubit of each chip graph node, as an array of the Python ints
+    themselves (read once per graph; lists made from it share those ints instead of
+    making one per placement and qubit)."""
+    numbers = chip.attrs
+    if not isinstance(numbers, np.ndarray):
+        numbers = np.array(chip.nodes(), dtype=object)
+        chip.attrs = numbers
+    return numbers
 
 
 def _check_request(patch: Patch, circuits: str | Sequence[str] | None, limit: int | None,
