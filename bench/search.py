@@ -1,3 +1,4 @@
+# ruff: noqa: B023  (every closure made in a loop here is timed and dropped in that same iteration)
 """Placement search speed against rustworkx's VF2++ and VF3 (vf3py), in the same process.
 
     python bench/search.py [--runs 3] [--only enumerate,first,processes,best]
@@ -36,12 +37,14 @@ import rustworkx as rx
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent / "tests"))
 from embedcheck import Device, heavy_hex, load_patch, rank_placements  # noqa: E402
-from embedcheck.codes import build_patch  # noqa: E402
-from embedcheck.device import CouplerCalibration, QubitCalibration  # noqa: E402
-from embedcheck.lattices import square_grid  # noqa: E402
-from embedcheck.best_placements import find_best_placements  # noqa: E402
-from embedcheck.matcher import Host, grow, prepare  # noqa: E402
-from embedcheck.search import Placement, _automorphisms, _pattern, find_placements  # noqa: E402
+from embedcheck.io.patchfile import patch_from_family as build_patch  # noqa: E402
+from embedcheck.model.device import CouplerCalibration, QubitCalibration  # noqa: E402
+from embedcheck.model.lattices import square_grid  # noqa: E402
+from embedcheck.model.placement import Placement  # noqa: E402
+from embedcheck.place.matcher import Host, grow, prepare  # noqa: E402
+from embedcheck.place.search import find_placements  # noqa: E402
+from embedcheck.place.symmetry import automorphisms, interaction_pattern  # noqa: E402
+from embedcheck.score.best_placements import find_best_placements  # noqa: E402
 from helpers import FIXED_PATCH, patch_from_edges  # noqa: E402
 
 try:
@@ -81,7 +84,7 @@ def median_times(functions, runs):
     time with --clock wall; the processes section always uses wall time)."""
     times = [[] for _ in functions]
     for _ in range(runs):
-        for slot, fn in zip(times, functions):
+        for slot, fn in zip(times, functions, strict=True):
             t = CLOCK()
             fn()
             slot.append(CLOCK() - t)
@@ -89,7 +92,7 @@ def median_times(functions, runs):
 
 
 def graphs(device, patch, names):
-    pattern, placed = _pattern(patch, names)
+    pattern, placed = interaction_pattern(patch, names)
     host = device.live_graph()
     nxh = nx.Graph(list(host.edge_list()))
     nxh.add_nodes_from(host.node_indices())
@@ -161,7 +164,7 @@ def enumerate_section(runs):
         ours, vf2, ranked = times[:3]
         vf3 = times[3] if vf3py is not None else float("nan")
         raw = vf2_all(host, pattern)
-        same = agree(device, result, placed, _automorphisms(pattern), raw)
+        same = agree(device, result, placed, automorphisms(pattern), raw)
         if vf3py is not None:
             same = same and len(vf3_all(nxp, nxh)) == len(raw)
         tracemalloc.start()
@@ -240,10 +243,10 @@ def processes_section(runs):
     print(f"== worker processes (medians of {runs} interleaved runs; load {load():.2f}, "
           f"cores {os.cpu_count()}) ==")
     device, patch = chip(heavy_hex(40, 40), "hh8319"), piece(3, 4)
-    pattern, placed = _pattern(patch, list(patch.circuits))
+    pattern, placed = interaction_pattern(patch, list(patch.circuits))
     graph = device.live_graph()
     prep = prepare(Host.from_edges(graph.num_nodes(), graph.edge_list()), pattern.num_nodes(),
-                   list(pattern.edge_list()), symmetries=_automorphisms(pattern))
+                   list(pattern.edge_list()), symmetries=automorphisms(pattern))
     one = lambda: find_placements(device, patch, limit=None)  # noqa: E731
     two = lambda: find_placements(device, patch, limit=None, processes=2)  # noqa: E731
     one(), two()
@@ -300,7 +303,7 @@ def _orbit_best(device, patch, found):
     members = [Placement(tuple(p.physical[perm[i]] for i in range(n)))
                for p in found.placements for perm in found.symmetries]
     scores = rank_placements(device, patch, members)
-    score = dict(zip(scores.placements, scores.log_success.tolist()))
+    score = dict(zip(scores.placements, scores.log_success.tolist(), strict=True))
     order = len(found.symmetries)
     return sorted((max(score[m] for m in members[i * order:(i + 1) * order])
                    for i in range(len(found.placements))), reverse=True)

@@ -57,10 +57,13 @@ on the stack (see `grow`).
 from __future__ import annotations
 
 from collections import deque
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
-from typing import Iterator, Sequence
 
 import numpy as np
+
+__all__ = ["Engine", "Host", "Plan", "Prepared", "girth", "grow", "layers", "monomorphisms",
+           "node_dtype", "plan", "prepare"]
 
 FIRST_ANCHORS = 256         # anchors in the first batch; batches then grow fourfold
 PROBE_SAMPLE = 16           # anchors sampled to pick where the probe starts
@@ -140,7 +143,7 @@ def _contains(table: np.ndarray, values: np.ndarray) -> np.ndarray:
     return out != 0
 
 
-def _layers(host: Host, anchors: np.ndarray, radius: int, cap: int | None):
+def layers(host: Host, anchors: np.ndarray, radius: int, cap: int | None):
     """Breadth-first search from each anchor at once, up to `radius` steps, stopping after
     the first radius at which some anchor's ball holds more than `cap` nodes.
 
@@ -184,7 +187,7 @@ def _layers(host: Host, anchors: np.ndarray, radius: int, cap: int | None):
     return owner[order], node[order], np.stack(sizes, axis=1)
 
 
-def _girth(host: Host, cap: int) -> int:
+def girth(host: Host, cap: int) -> int:
     """The length of the host's shortest cycle, or `cap` if it has none shorter (or a
     lower bound on it, when the search would hold more than GIRTH_MEMORY nodes).
 
@@ -277,7 +280,7 @@ def _shortest_ear(nbrs, pos, order) -> list[int]:
     root: dict[int, int] = {}
     back: dict[int, int] = {}                # previous node on the path (-1 at the start)
     start: dict[int, int] = {}               # the mapped node the path left from
-    queue = deque()
+    queue: deque[int] = deque()
     for m in order:
         for u in nbrs[m]:                    # neighbour lists come sorted
             if pos[u] < 0 and u not in root:
@@ -310,7 +313,7 @@ class Plan:
     """The matching order and, per step, what to check."""
 
     order: tuple[int, ...]                       # pattern node mapped at each step
-    parent: tuple[int, ...]                      # step whose image's neighbours are candidates, -1: free
+    parent: tuple[int, ...]      # step whose image's neighbours are candidates, -1: free
     extra: tuple[tuple[int, ...], ...]           # other earlier steps that must be adjacent
     less: tuple[tuple[int, ...], ...]            # earlier steps whose image must be smaller
     anchors: tuple[int, ...]                     # steps that start a connected part
@@ -431,7 +434,9 @@ def prepare(host: Host, k: int, edges: Sequence[tuple[int, int]], *,
     pindptr = np.concatenate([[0], np.cumsum(pdeg)])
     pind = np.array([w for v in range(k) for w in sorted(pnbr[v])], dtype=np.int64)
     ptop = _top_degrees(pindptr, pind, pdeg, width)
-    masks, counts, known = [], [], {}        # nodes alike share one mask
+    masks: list[np.ndarray] = []             # nodes alike share one mask
+    counts: list[int] = []
+    known: dict[tuple, tuple[np.ndarray, int]] = {}
     for j in range(k):
         sig = (tuple(ptop[j, :pdeg[j]].tolist()),
                None if candidates is None else id(candidates[j]))
@@ -444,13 +449,13 @@ def prepare(host: Host, k: int, edges: Sequence[tuple[int, int]], *,
             known[sig] = (ok, int(ok.sum()))
         masks.append(known[sig][0])
         counts.append(known[sig][1])
-    counts = np.array(counts)
-    p = plan(k, edges, counts, symmetries)
+    sizes = np.array(counts)
+    p = plan(k, edges, sizes, symmetries)
     profile = np.ones(1, dtype=np.int64)
     if k:
         dist = _distances(pnbr, p.order[0])
         profile = np.cumsum(np.bincount(np.array(list(dist.values()))))
-    start = np.flatnonzero(masks[p.order[0]]) if k and not (counts == 0).any() else \
+    start = np.flatnonzero(masks[p.order[0]]) if k and not (sizes == 0).any() else \
         np.zeros(0, np.int64)
     return Prepared(host, k, p, tuple(masks[v] for v in p.order), start, profile,
                     _look_ahead(pnbr, p))
@@ -468,7 +473,7 @@ def _look_ahead(pnbr, p: Plan, most: int = 1) -> tuple:
     checked before the injectivity test, so that walks that can no longer close their
     cycle die young; the nearest such step is taken."""
     pos = {v: s for s, v in enumerate(p.order)}
-    out = []
+    out: list[tuple[tuple[int, int], ...]] = []
     for s, v in enumerate(p.order):
         dist, front = {v: 0}, [v]                     # the whole pattern, around v
         for d in range(1, LOOK_DISTANCE + 1):
@@ -526,11 +531,11 @@ class Engine:
         self.deg = host.degree
         self.neighbours = host.indices.astype(self.dtype)
         self.inverse = np.argsort(np.array(prep.plan.order, dtype=np.int64))
-        self.free = [np.flatnonzero(prep.masks[s]).astype(self.dtype)
+        self.free: list[np.ndarray | None] = [np.flatnonzero(prep.masks[s]).astype(self.dtype)
                      if prep.plan.parent[s] < 0 else None for s in range(k)]
         self.radius = min(len(prep.profile) - 1, 4)
         top = int(self.deg.max(initial=0))
-        self.padded = None
+        self.padded: np.ndarray | None = None
         self.far: list | None = None         # see _learn_girth
         self._balls: dict[int, np.ndarray] = {}
         if 0 < top <= SMALL_DEGREE:
@@ -564,7 +569,7 @@ class Engine:
         goes back along an edge). The other images need no comparison. (The girth is a
         whole-chip figure, worked out once; a small search never asks for it.)"""
         k, p = self.prep.k, self.prep.plan
-        g = _girth(self.prep.host, GIRTH_CAP)
+        g = girth(self.prep.host, GIRTH_CAP)
         self.far = []
         if g < 5:
             return                           # nothing to gain: compare with every image
@@ -597,9 +602,11 @@ class Engine:
         with n; built once per search, for the look-ahead checks."""
         if radius not in self._balls:
             n = self.prep.host.n
+            padded = self.padded
+            assert padded is not None            # look-ahead needs the padded table
             inner = self.ball(radius - 1) if radius > 2 else \
-                np.concatenate([np.arange(n + 1, dtype=self.dtype)[:, None], self.padded], 1)
-            both = np.sort(np.concatenate([inner, self.padded[inner].reshape(n + 1, -1)],
+                np.concatenate([np.arange(n + 1, dtype=self.dtype)[:, None], padded], 1)
+            both = np.sort(np.concatenate([inner, padded[inner].reshape(n + 1, -1)],
                                           axis=1), axis=1)
             dup = np.zeros(both.shape, dtype=bool)
             dup[:, 1:] = both[:, 1:] == both[:, :-1]
@@ -613,7 +620,7 @@ class Engine:
         pattern's around its root (one breadth-first search for all of them)."""
         if self.radius < 2 or not len(anchors):
             return anchors
-        sizes = _layers(self.prep.host, anchors, self.radius, None)[2]
+        sizes = layers(self.prep.host, anchors, self.radius, None)[2]
         ok = np.all(sizes >= self.prep.profile[None, :self.radius + 1], axis=1)
         return anchors[ok]
 
@@ -627,7 +634,9 @@ class Engine:
         """Candidates each row (at step s) will try at its next step."""
         parent = self.prep.plan.parent[s]
         if parent < 0:
-            return np.full(len(rows), len(self.free[s]), dtype=np.int64)
+            free = self.free[s]
+            assert free is not None              # a step without a parent has its list
+            return np.full(len(rows), len(free), dtype=np.int64)
         return self.deg[rows[:, parent]]
 
     def candidates(self, rows: np.ndarray, s: int, arcs: bool = False):
@@ -659,6 +668,7 @@ class Engine:
             keep = prep.masks[s][cand]
         else:
             free = self.free[s]
+            assert free is not None
             which = np.repeat(np.arange(len(rows)), len(free))
             cand = np.tile(free, len(rows))
             keep = prep.masks[s][cand]
@@ -736,7 +746,7 @@ class _Probe:
         self.indices = prep.host.indices
         self.lists: dict[int, list[int]] = {}
         self.sets: dict[int, frozenset] = {}
-        self.balls: dict[int, frozenset] = {}
+        self.balls: dict[tuple[int, int], frozenset] = {}
         self.masks: list = [None] * prep.k
         p = prep.plan
         self.steps = [(p.parent[s], p.extra[s], p.less[s], prep.look[s])
@@ -783,8 +793,9 @@ class _Probe:
                 return tuple(image), steps, False
             parent, extra, less, look = self.steps[s]
             if options[s] is None:
-                options[s] = iter(self.near(image[parent]) if parent >= 0 else
-                                  self.engine.free[s].tolist())
+                free = self.engine.free[s]
+                options[s] = iter(self.near(image[parent]) if parent >= 0 or free is None
+                                  else free.tolist())
             mask = self.masks[s]
             if mask is None:
                 mask = self.masks[s] = self.engine.prep.masks[s].tobytes()
@@ -804,10 +815,10 @@ class _Probe:
                             ok = False
                             break
                 if ok and look:
-                    around = self.near(c)
+                    nearby = self.near(c)
                     for t, d in look:            # within d of image[t]: c, or one of its
                         reach = self.ball(image[t], d - 1)   # neighbours, within d - 1
-                        if c not in reach and reach.isdisjoint(around):
+                        if c not in reach and reach.isdisjoint(nearby):
                             ok = False
                             break
                 if ok:
@@ -832,7 +843,7 @@ def _probe_anchors(engine: Engine, anchors: np.ndarray) -> list[int]:
     step = max(1, len(anchors) // PROBE_SAMPLE)
     sample = anchors[step // 2::step][:PROBE_SAMPLE]
     radius = max(1, (len(engine.prep.profile) - 1 + 1) // 2)
-    sizes = _layers(engine.prep.host, sample, radius, 2 * engine.prep.k + 64)[2]
+    sizes = layers(engine.prep.host, sample, radius, 2 * engine.prep.k + 64)[2]
     middle = len(sample) // 2
     rank = sorted(range(len(sample)), key=lambda i: (-int(sizes[i, -1]), abs(i - middle), i))
     return [int(sample[i]) for i in rank[:PROBE_ANCHORS]]

@@ -57,7 +57,7 @@ from .symmetry import (
     symmetry_group,
 )
 
-__all__ = ["SearchResult", "StopReason", "find_placements"]
+__all__ = ["SearchResult", "StopReason", "check_request", "chip_graph", "find_placements"]
 
 
 def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[str] | None = None,
@@ -77,7 +77,7 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
     `processes > 1` the chip's anchors are split among that many worker processes (the
     result is the same set; workers read the budget from the wall clock, not `clock`).
     """
-    names = _check_request(patch, circuits, limit, budget_s, processes, max_maps)
+    names = check_request(patch, circuits, limit, budget_s, processes, max_maps)
     rules = constraints or Constraints()
     start = clock()
     reasons = necessary_conditions(device, patch, names, rules)
@@ -87,7 +87,7 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
                             elapsed_s=clock() - start)
     directed = rules.forbid_direction_fixes
     pattern, placed = interaction_pattern(patch, names)
-    chip = _chip_graph(device, rules)
+    chip = chip_graph(device, rules)
     # Native directions: search undirected, keep the maps whose directional gates all run
     # the native way (a symmetric gate such as cz has no direction); no symmetry merging.
     arcs = directional_arcs(patch, names, placed) if directed else []
@@ -204,7 +204,7 @@ def _qubit_numbers(chip: rx.PyGraph) -> np.ndarray:
     return numbers
 
 
-def _check_request(patch: Patch, circuits: str | Sequence[str] | None, limit: int | None,
+def check_request(patch: Patch, circuits: str | Sequence[str] | None, limit: int | None,
                    budget_s: float | None, processes: int,
                    max_maps: int | None) -> tuple[str, ...]:
     """The searched circuit names, after refusing what the CLI would refuse."""
@@ -226,7 +226,7 @@ def _check_request(patch: Patch, circuits: str | Sequence[str] | None, limit: in
 
 
 
-def _chip_graph(device: Device, rules: Constraints) -> rx.PyGraph:
+def chip_graph(device: Device, rules: Constraints) -> rx.PyGraph:
     """The usable coupling graph; node i holds physical qubit `device.qubits[i]`.
 
     Couplers outside the constraints are left out (an unused coupler never matters,

@@ -6,12 +6,12 @@ import numpy as np
 import pytest
 
 from embedcheck import Device, find_placements, load_patch, rank_placements
-from embedcheck.best_placements import find_best_placements
-from embedcheck.codes import build_patch
-from embedcheck.constraints import build
-from embedcheck.device import CouplerCalibration, QubitCalibration
-from embedcheck.lattices import heavy_hex, square_grid
-from embedcheck.search import Placement
+from embedcheck.io.patchfile import patch_from_family as build_patch
+from embedcheck.model.constraints import build
+from embedcheck.model.device import CouplerCalibration, QubitCalibration
+from embedcheck.model.lattices import heavy_hex, square_grid
+from embedcheck.model.placement import Placement
+from embedcheck.score.best_placements import find_best_placements
 from helpers import FIXED_PATCH, patch_from_edges
 
 
@@ -40,7 +40,7 @@ def _every_orbit_best(device, patch, constraints=None):
             members.append(Placement(tuple(p.physical[perm[i]]
                                            for i in range(patch.num_qubits))))
     ranked = rank_placements(device, patch, members)
-    score = dict(zip(ranked.placements, ranked.log_success.tolist()))
+    score = dict(zip(ranked.placements, ranked.log_success.tolist(), strict=True))
     best = {}
     for p in found.placements:
         orbit = [Placement(tuple(p.physical[perm[i]] for i in range(patch.num_qubits)))
@@ -78,7 +78,7 @@ def test_durations_that_vary_are_scored_afterwards_with_the_full_model():
     best = find_best_placements(device, patch, top=5)
     assert best.proven and not best.idle_exact and best.notes
     full = rank_placements(device, patch, list(best.placements))
-    score = dict(zip(full.placements, full.log_success.tolist()))
+    score = dict(zip(full.placements, full.log_success.tolist(), strict=True))
     assert best.full_log_success.tolist() == [score[p] for p in best.placements]
 
 

@@ -1,9 +1,9 @@
 """The best few placements of a patch by the fidelity product, without listing the rest.
 
 A patch much sparser than its chip has millions of placements; this searches them best
-first (`best_first.py`, branch and bound) and stops once the `top` best are proven, or
+first (`place/best_first.py`, branch and bound) and stops once the `top` best are proven, or
 on a budget with the gap still open. The cost is minus the log of the fidelity product
-(`rank.py`), split into additive parts: per patch qubit and chip qubit, its measurements,
+(`cost.py`), split into additive parts: per patch qubit and chip qubit, its measurements,
 single-qubit gates, resets and idling; per interacting pair and coupler, its two-qubit
 gates (weighted by how often each circuit runs). That split is exact when the schedule
 does not depend on the placement (every coupler, single-qubit gate and measurement takes
@@ -13,11 +13,11 @@ and the placements found are scored afterwards with the full model (`full_log_su
 
 Qubits with no two-qubit gate in the searched circuits take no part in the search; they
 go on the nearest free qubits as `find_placements` puts them. Scores are model
-estimates from the calibration supplied, which drifts (see `rank.CAUTION`).
+estimates from the calibration supplied, which drifts (see `cost.CAUTION`).
 
-    >>> from embedcheck.device import Device, CouplerCalibration
-    >>> from embedcheck.lattices import square_grid
-    >>> from embedcheck.patch import Patch, Circuit, Operation
+    >>> from embedcheck.model.device import Device, CouplerCalibration
+    >>> from embedcheck.model.lattices import square_grid
+    >>> from embedcheck.model.patch import Patch, Circuit, Operation
     >>> lat = square_grid(1, 4)
     >>> dev = Device.from_lattice(lat, name="line", coupler_calibration={
     ...     (0, 1): CouplerCalibration(0.03), (1, 2): CouplerCalibration(0.01),
@@ -30,19 +30,27 @@ estimates from the calibration supplied, which drifts (see `rank.CAUTION`).
 """
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass, replace
-from typing import Sequence
 
 import numpy as np
 
-from .best_first import best_first
-from .constraints import Constraints
-from .device import Device
-from .matcher import Host
-from .patch import Patch
-from .rank import circuit_timing, experiment_counts, idle_error, rank_placements
-from .search import (Placement, _check_request, _chip_graph, _complete, _directional_arcs,
-                     _pattern, _symmetry_group, necessary_conditions, role_masks)
+from ..model.constraints import Constraints
+from ..model.device import Device
+from ..model.patch import Patch
+from ..model.placement import Placement
+from ..place.best_first import best_first
+from ..place.completion import complete_placement
+from ..place.enumeration import role_masks
+from ..place.matcher import Host
+from ..place.reasons import necessary_conditions
+from ..place.search import check_request, chip_graph
+from ..place.symmetry import directional_arcs, interaction_pattern, symmetry_group
+from .cost import experiment_counts, rank_placements
+from .idle import idle_channel
+from .schedule import circuit_timing
+
+__all__ = ["BestPlacements", "find_best_placements"]
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -79,7 +87,7 @@ def find_best_placements(device: Device, patch: Patch, *, top: int = 10,
     doc), one per symmetry orbit, searched best first. `budget` caps the work (candidate
     extensions tried: identical runs stop at the same place); `constraints` as in
     `find_placements`."""
-    names = _check_request(patch, circuits, top, None, 1, budget)
+    names = check_request(patch, circuits, top, None, 1, budget)
     rules = constraints or Constraints()
     reasons = necessary_conditions(device, patch, names, rules)
     empty = np.zeros(0)
@@ -88,24 +96,24 @@ def find_best_placements(device: Device, patch: Patch, *, top: int = 10,
                               full_log_success=empty, proven=True, stop_reason="complete",
                               gap=0.0, work=0, idle_exact=True, symmetry_order=1,
                               reasons=tuple(reasons))
-    pattern, placed = _pattern(patch, names)
-    chip = _chip_graph(device, rules)
+    pattern, placed = interaction_pattern(patch, names)
+    chip = chip_graph(device, rules)
     host = Host.from_edges(chip.num_nodes(), chip.edge_list())
     physical = np.array(chip.nodes(), dtype=np.int64)
     usable = rules.qubits(device)
     blocked = {i for i in range(chip.num_nodes()) if physical[i] not in usable}
     allowed = rules.allowed_by_role(device, set(patch.roles.values())) if rules.roles else None
     masks = role_masks(chip, pattern, allowed, blocked)
-    edges = [tuple(e) for e in pattern.edge_list()]
+    edges = [(int(a), int(b)) for a, b in pattern.edge_list()]
     node_cost, edge_cost, idle_exact = _costs(device, patch, names, placed, edges,
                                               physical, host)
     notes = []
     if rules.forbid_direction_fixes:          # directional gates only the native way
         tail = np.repeat(np.arange(host.n), host.degree)
         native = np.array([device.runs_natively(int(physical[a]), int(physical[b]))
-                           for a, b in zip(tail, host.indices)], dtype=bool)
+                           for a, b in zip(tail, host.indices, strict=True)], dtype=bool)
         index = {e: i for i, e in enumerate(edges)}
-        for a, b in _directional_arcs(patch, names, placed):
+        for a, b in directional_arcs(patch, names, placed):
             if (a, b) in index:
                 edge_cost[index[(a, b)], ~native] = np.inf
             else:
@@ -113,7 +121,7 @@ def find_best_placements(device: Device, patch: Patch, *, top: int = 10,
                 edge_cost[index[(b, a)], ~native[reverse]] = np.inf
         group = [tuple(range(len(placed)))]
     else:
-        group, too_big = _symmetry_group(pattern)
+        group, too_big = symmetry_group(pattern)
         if too_big:
             notes.append("the patch's symmetry group is too big to list: placements are "
                          "not merged by symmetry")
@@ -124,11 +132,12 @@ def find_best_placements(device: Device, patch: Patch, *, top: int = 10,
     found = best_first(host, len(placed), edges, node_cost=node_cost, edge_cost=edge_cost,
                        candidates=masks, symmetries=group, top=top, budget=budget)
     placements, logs = [], []
-    for row, cost in zip(found.maps.tolist(), found.costs.tolist()):
+    for row, cost in zip(found.maps.tolist(), found.costs.tolist(), strict=True):
+        done: Placement | None
         if len(placed) == patch.num_qubits:
             done = Placement(tuple(int(physical[node]) for node in row))
         else:
-            done = _complete(chip, patch, placed, row, blocked, allowed)
+            done = complete_placement(chip, patch, placed, row, blocked, allowed)
         if done is not None:
             placements.append(done)
             logs.append(-cost)
@@ -148,7 +157,7 @@ def _costs(device, patch, names, placed, edges, physical, host):
     """(node_cost, edge_cost, idle_exact): minus the log fidelity terms of each pattern
     node on each chip node and each pattern edge on each host arc; idle_exact says
     whether the idle part is exact (see `_fixed_schedule`)."""
-    cal = device.calibration_arrays()
+    cal = device.calibration_arrays
     pairs, measures, singles, resets = experiment_counts(patch)
     with np.errstate(divide="ignore"):
         readout = -np.log1p(-cal.readout_error[physical])
@@ -181,7 +190,7 @@ def _fixed_schedule(cal, physical, host) -> bool:
 
 
 def _idle_costs(patch, placed, cal, physical) -> np.ndarray:
-    """Minus the log idle factors, per pattern node and chip node, as `rank.scores` sums
+    """Minus the log idle factors, per pattern node and chip node, as `cost.scores` sums
     them, on the schedule every placement gets when each duration is the chip's median
     (exact when durations do not vary: see `_fixed_schedule`)."""
     out = np.zeros((len(placed), len(physical)))
@@ -194,12 +203,14 @@ def _idle_costs(patch, placed, cal, physical) -> np.ndarray:
 
     typical = replace(cal, coupler_keys=np.zeros(0, dtype=np.int64),   # every pair off
                       coupler_error=np.zeros(0), coupler_ns=np.zeros(0),  # a coupler: the
+                      coupler_ns_given=np.zeros(0, dtype=bool),
                       single_qubit_ns=median(cal.single_qubit_ns),        # median two-qubit
                       measurement_ns=median(cal.measurement_ns))          # duration
     grid = np.zeros((1, patch.num_qubits), dtype=np.int64)
     t1, t2 = cal.t1_us[physical], cal.t2_us[physical]
     for name, times in patch.experiment():
-        finish, first, busy, started = circuit_timing(patch, name, grid, typical)
+        timing = circuit_timing(patch, name, grid, typical)
+        finish, first, busy, started = timing.finish, timing.first, timing.busy, timing.started
         base = np.where(started[:, None], np.maximum(finish - first - busy, 0.0), 0.0)[:, 0]
         for again, count in ((False, 1), (True, times - 1)):
             if count <= 0:
@@ -208,5 +219,5 @@ def _idle_costs(patch, placed, cal, physical) -> np.ndarray:
             for j, q in enumerate(placed):
                 t = max(float(finish[0] - busy[q, 0]), 0.0) if q in waiting else base[q]
                 with np.errstate(divide="ignore"):
-                    out[j] -= count * np.log1p(-idle_error(t, t1, t2))
+                    out[j] -= count * np.log1p(-idle_channel(t, t1, t2).total)
     return out

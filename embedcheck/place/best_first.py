@@ -32,7 +32,7 @@ when the cost does change, every map is searched and each orbit is represented b
 cheapest map (found first, best first).
 
     >>> import numpy as np
-    >>> from embedcheck.matcher import Host
+    >>> from embedcheck.place.matcher import Host
     >>> line = Host.from_edges(5, [(0, 1), (1, 2), (2, 3), (3, 4)])   # a path of 5 nodes
     >>> node_cost = np.array([[5., 1., 1., 9., 9.], [5., 1., 1., 9., 9.]])
     >>> best = best_first(line, 2, [(0, 1)], node_cost=node_cost,
@@ -44,12 +44,14 @@ from __future__ import annotations
 
 import heapq
 import itertools
+from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Sequence
 
 import numpy as np
 
-from .matcher import Engine, Host, _layers, prepare
+from .matcher import Engine, Host, layers, prepare
+
+__all__ = ["BestMaps", "best_first"]
 
 BLOCK = 4096              # rows per block on the heap
 HELD = 1 << 22           # rows held on the heap before it works depth first
@@ -160,7 +162,7 @@ class _Search:
             self.closes.append([rows[(t, s)] for t in earlier])
         self.node_rows = [node_cost[v] for v in order]
         self.reach = np.full(k, k, dtype=np.int64)   # pattern distance from the root
-        nbrs = [set() for _ in range(k)]
+        nbrs: list[set[int]] = [set() for _ in range(k)]
         for a, b in edges:
             if a != b:
                 nbrs[a].add(b)
@@ -208,7 +210,7 @@ class _Search:
         prep, k, host = self.prep, self.k, self.prep.host
         part = self.reach < k
         radius = int(self.reach[part].max(initial=0))
-        owner, node, sizes = _layers(host, anchors, radius, None)
+        owner, node, sizes = layers(host, anchors, radius, None)
         m = len(anchors)
         if sizes.shape[1] <= radius:                 # every ball stopped growing early
             sizes = np.concatenate([sizes, np.repeat(sizes[:, -1:], radius + 1 -
@@ -244,7 +246,7 @@ class _Search:
         p = self.prep.plan
         for s in range(k):
             earlier = ([p.parent[s]] if p.parent[s] >= 0 else []) + list(p.extra[s])
-            for row, t in zip(self.closes[s], earlier):
+            for row, t in zip(self.closes[s], earlier, strict=True):
                 if not (part[s] and part[t]):
                     edges_other[s] += float(row.min(initial=np.inf))
                     continue
@@ -321,7 +323,7 @@ class _Search:
             work += int(engine.fan(rows, s).sum())
             which, cand, grown, arcs = engine.candidates(rows, s, arcs=True)
             cost = g[which] + self.node_rows[s][cand]
-            for row, arc in zip(self.closes[s], arcs):
+            for row, arc in zip(self.closes[s], arcs, strict=True):
                 cost = cost + row[arc]
             lower = cost + self.rest[grown[:, 0], s + 1]
             keep = (lower <= tau + _slack(tau)) & np.isfinite(lower)
@@ -380,7 +382,7 @@ class _Search:
         keys = _canonical(maps, perms) if perms is not None else maps
         if self.invariant:               # every map of an orbit costs the same: show the
             maps = keys                  # lexicographically smallest, as find does
-        for m, key, c in zip(maps.tolist(), keys.tolist(), cost.tolist()):
+        for m, key, c in zip(maps.tolist(), keys.tolist(), cost.tolist(), strict=True):
             key, item = tuple(key), (c, tuple(m))
             if key in best:
                 best[key] = min(best[key], item)
@@ -408,7 +410,7 @@ class _Frontier:
         host = prep.host
         self.k = k
         order = prep.plan.order
-        nbrs = [set() for _ in range(k)]
+        nbrs: list[set[int]] = [set() for _ in range(k)]
         for t, s, _ in search.edge_rows:
             nbrs[t].add(s)
             nbrs[s].add(t)

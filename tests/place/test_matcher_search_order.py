@@ -9,13 +9,13 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from networkx.algorithms.isomorphism import GraphMatcher
 
-import embedcheck.matcher as matcher
+import embedcheck.place.matcher as matcher
 from embedcheck import Device
-from embedcheck.audit import off_coupler_counts
-from embedcheck.codes import build_patch
-from embedcheck.lattices import heavy_hex, square_grid
-from embedcheck.matcher import Host, grow, prepare
-from embedcheck.search import find_placements
+from embedcheck.io.patchfile import patch_from_family as build_patch
+from embedcheck.model.lattices import heavy_hex, square_grid
+from embedcheck.model.placement import off_coupler_counts
+from embedcheck.place.matcher import Host, grow, prepare
+from embedcheck.place.search import find_placements
 from helpers import patch_from_edges
 
 
@@ -26,8 +26,9 @@ def _reference(n, host_edges, k, edges):
     p = nx.Graph()
     p.add_nodes_from(range(k))
     p.add_edges_from(edges)
-    return {tuple(inv[j] for j in range(k)) for inv in
-            ({j: v for v, j in m.items()} for m in GraphMatcher(h, p).subgraph_monomorphisms_iter())}
+    maps = GraphMatcher(h, p).subgraph_monomorphisms_iter()
+    return {tuple(inv[j] for j in range(k))
+            for inv in ({j: v for v, j in m.items()} for m in maps)}
 
 
 @st.composite
@@ -77,10 +78,10 @@ def test_girth_as_networkx_finds_it(n, m, seed):
     index = {v: i for i, v in enumerate(graph.nodes)}
     host = Host.from_edges(n, [(index[a], index[b]) for a, b in graph.edges])
     expected = nx.girth(graph)
-    assert matcher._girth(host, 16) == (16 if expected > 16 else expected)
+    assert matcher.girth(host, 16) == (16 if expected > 16 else expected)
     saved, matcher.GIRTH_MEMORY = matcher.GIRTH_MEMORY, 8     # cut short: a lower bound
     try:
-        assert 3 <= matcher._girth(host, 16) <= min(16, expected) or not graph.edges
+        assert 3 <= matcher.girth(host, 16) <= min(16, expected) or not graph.edges
     finally:
         matcher.GIRTH_MEMORY = saved
 
@@ -90,7 +91,7 @@ def test_the_heavy_hex_lattice_has_girth_twelve_and_the_grid_four():
     for lattice, girth in ((heavy_hex(4, 4), 12), (square_grid(5, 5), 4)):
         index = {q: i for i, q in enumerate(lattice.qubits)}
         host = Host.from_edges(len(index), [(index[a], index[b]) for a, b in lattice.couplers])
-        assert matcher._girth(host, 16) == girth
+        assert matcher.girth(host, 16) == girth
 
 
 def test_the_probe_finds_a_first_placement_on_a_sparse_patch_of_a_grid():
@@ -145,6 +146,6 @@ def test_a_time_budget_read_from_a_clock_stops_at_the_same_place():
     for _ in range(2):
         ticks = iter(range(10**9))
         runs.append(find_placements(device, patch, limit=None, budget_s=20,
-                                    clock=lambda: next(ticks)))
+                                    clock=ticks.__next__))
     assert runs[0].stop_reason == "budget" and runs[0].placements
     assert runs[0].placements == runs[1].placements

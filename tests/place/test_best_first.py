@@ -9,9 +9,9 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from networkx.algorithms.isomorphism import GraphMatcher
 
-from embedcheck.best_first import best_first
-from embedcheck.matcher import Host
-from embedcheck.search import _automorphisms
+from embedcheck.place.best_first import best_first
+from embedcheck.place.matcher import Host
+from embedcheck.place.symmetry import automorphisms
 
 
 def _all_maps(n, host_edges, k, edges, allowed=None):
@@ -48,7 +48,7 @@ def _symmetries(k, edges):
     g = rx.PyGraph()
     g.add_nodes_from(["data"] * k)
     g.add_edges_from([(a, b, ((1,),)) for a, b in edges])
-    return _automorphisms(g)
+    return automorphisms(g)
 
 
 def _canonical(maps, group):
@@ -59,7 +59,7 @@ def _reference(host, maps, edges, node_cost, edge_cost, group):
     """Every orbit once, at the cost of its cheapest map, cheapest first."""
     cost = _costs(host, maps, edges, node_cost, edge_cost)
     orbit = {}
-    for key, c in zip(_canonical(maps, group), cost.tolist()):
+    for key, c in zip(_canonical(maps, group), cost.tolist(), strict=True):
         orbit[key] = min(orbit.get(key, np.inf), c)
     return sorted(orbit.items(), key=lambda kv: (kv[1], kv[0]))
 
