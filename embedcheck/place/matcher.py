@@ -558,7 +558,8 @@ class Engine:
         self.looking = [bool(x) for x in self.prep.look] + [False]
         self.look_seen = [0] * (k + 1)
         self.look_cut = [0] * (k + 1)
-        self.work = 0
+        self.work = 0                        # candidates tried (and probe steps): the
+        self.reached = 0                     # search's work unit; anchors begun so far
 
     def _learn_girth(self) -> None:
         """Once a search is big (GIRTH_AFTER candidates), learn the chip's girth g (up
@@ -875,12 +876,15 @@ def grow(prep: Prepared, *, part: tuple[int, int] = (0, 1), chunk: int = 1 << 20
     engine.reset()
     anchors = prep.start[part[0]::part[1]]
     budget = 32 * k + 512 if probe is None else probe
-    seen, done = None, set()
+    seen: np.ndarray | None = None
+    done: set[int] = set()
     if budget > 0:
         walker = _Probe(engine)
         for anchor in _probe_anchors(engine, anchors):
             image, steps, whole = walker.run(anchor, budget)
             budget -= steps
+            engine.work += steps
+            engine.reached = len(done) + 1
             if whole:
                 done.add(anchor)
             if image is not None:
@@ -900,6 +904,7 @@ def grow(prep: Prepared, *, part: tuple[int, int] = (0, 1), chunk: int = 1 << 20
                 return
             batch = engine.anchors(anchors[taken:taken + size])
             taken += size
+            engine.reached = len(done) + min(taken, len(anchors))
             size *= 4
             if len(batch):
                 root = engine.root(batch)

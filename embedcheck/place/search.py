@@ -45,7 +45,7 @@ from ..model.device import Device
 from ..model.patch import Patch
 from ..model.placement import Placement
 from .completion import complete_placement
-from .enumeration import raw_maps
+from .enumeration import Effort, raw_maps
 from .reasons import constraint_reasons, necessary_conditions, part_reasons
 from .result import SearchResult, StopReason
 from .symmetry import (
@@ -65,7 +65,9 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
                     progress: Callable[[int], None] | None = None,
                     constraints: Constraints | None = None,
                     clock: Callable[[], float] = time.monotonic,
-                    max_maps: int | None = None, processes: int = 1) -> SearchResult:
+                    max_maps: int | None = None, processes: int = 1,
+                    max_work: int | None = None,
+                    on_effort: Callable[[Effort], None] | None = None) -> SearchResult:
     """All distinct swap-free placements of `patch` for `circuits` (default: all).
 
     `limit` caps the number of distinct placements, `budget_s` the seconds spent (read
@@ -76,8 +78,18 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
     `progress(n)` is called now and then with the number of raw maps seen. With
     `processes > 1` the chip's anchors are split among that many worker processes (the
     result is the same set; workers read the budget from the wall clock, not `clock`).
+
+    `max_work` caps the matcher's work: candidate extensions of partial maps tried (plus
+    the first-map probe's steps). Unlike seconds it stops every run at the same place, so
+    identical calls give identical results; the result's `work` says how much was used.
+    A stop on the clock is noted in the result (another run may stop elsewhere).
+    `on_effort(effort)` is called after every block the matcher hands back, maps or not,
+    with the work done and the anchors begun (progress before a first map).
     """
     names = check_request(patch, circuits, limit, budget_s, processes, max_maps)
+    if max_work is not None and (not isinstance(max_work, numbers.Integral)
+                                 or isinstance(max_work, bool) or max_work < 0):
+        raise InputError(f"max_work must be a whole number >= 0, not {max_work!r}")
     rules = constraints or Constraints()
     start = clock()
     reasons = necessary_conditions(device, patch, names, rules)
@@ -114,16 +126,23 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
                   if x is not None)
     cut_short: str | None = None
     shown = 0
-    everything = limit is None and max_maps is None and budget_s is None
+    everything = limit is None and max_maps is None and budget_s is None and max_work is None
+    effort = Effort()
+    timed_out = False                        # stopped on the clock, not on a count
     for block, why, reported in raw_maps(device, chip, pattern, allowed, blocked, arcs,
                                          None if directed else autos, processes=processes,
-                                         cap=cap, seconds=budget_s, probe=not everything):
-        cut_short = cut_short or why
+                                         cap=cap, seconds=budget_s, probe=not everything,
+                                         max_work=max_work, effort=effort):
+        timed_out = timed_out or why == "budget"
+        cut_short = cut_short or ("budget" if why == "work" else why)
+        if on_effort is not None:
+            on_effort(effort)
         if reported and progress is not None and reported * order > shown:
             shown = reported * order              # workers' count while they still run
             progress(shown)
         if processes <= 1 and budget_s is not None and clock() - start > budget_s:
             stop = StopReason.BUDGET                  # checked first: budget_s=0 takes nothing
+            timed_out = True
             break
         if len(block):
             if max_maps is not None:
@@ -143,6 +162,7 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
             break
         if processes > 1 and budget_s is not None and clock() - start > budget_s:
             stop = StopReason.BUDGET                  # workers kept the deadline: keep what came
+            timed_out = True
             break
     if stop is StopReason.COMPLETE and cut_short:
         stop = StopReason(cut_short)   # a worker's part stopped early: the union is incomplete
@@ -158,11 +178,15 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
         if not rules.empty:
             reasons += constraint_reasons(device, patch, names, rules, clock, left,
                                           search=find_placements)
+    if timed_out and stop is StopReason.BUDGET:
+        notes += (f"stopped on the clock after {budget_s:g} s: another "
+                  "run may stop elsewhere and list other placements",)
     return SearchResult(circuits=names, placements=tuple(found), raw_maps=raw,
                         symmetry_order=len(autos), stop_reason=stop, reasons=tuple(reasons),
                         elapsed_s=clock() - start,
                         symmetries=patch_permutations(autos, placed, patch.num_qubits),
-                        notes=notes)
+                        notes=notes, work=effort.work,
+                        timed_out=timed_out and stop is StopReason.BUDGET)
 
 
 def _take(batch: np.ndarray, perms: np.ndarray, seen: set[tuple[int, ...]],
