@@ -66,6 +66,7 @@ class BestPlacements:
     placement exists, when a cheap check already rules it out."""
 
     circuits: tuple[str, ...]
+    top: int                                     # placements asked for
     placements: tuple[Placement, ...]
     log_success: np.ndarray
     full_log_success: np.ndarray
@@ -92,7 +93,7 @@ def find_best_placements(device: Device, patch: Patch, *, top: int = 10,
     reasons = necessary_conditions(device, patch, names, rules)
     empty = np.zeros(0)
     if reasons:
-        return BestPlacements(circuits=names, placements=(), log_success=empty,
+        return BestPlacements(circuits=names, top=top, placements=(), log_success=empty,
                               full_log_success=empty, proven=True, stop_reason="complete",
                               gap=0.0, work=0, idle_exact=True, symmetry_order=1,
                               reasons=tuple(reasons))
@@ -141,13 +142,16 @@ def find_best_placements(device: Device, patch: Patch, *, top: int = 10,
         if done is not None:
             placements.append(done)
             logs.append(-cost)
+    # A budget stop with no gap left is a proof too: every map not returned costs at least
+    # as much as the last one returned (ties remain, none better).
+    proven = found.proven or (len(found.maps) >= top and found.gap <= 0.0)
     full = rank_placements(device, patch, placements) if placements else None
     order = {p: i for i, p in enumerate(full.placements)} if full else {}
     full_logs = np.array([full.log_success[order[p]] for p in placements]) if full \
         else empty
-    return BestPlacements(circuits=names, placements=tuple(placements),
+    return BestPlacements(circuits=names, top=top, placements=tuple(placements),
                           log_success=np.array(logs), full_log_success=full_logs,
-                          proven=found.proven, stop_reason=found.stop_reason,
+                          proven=proven, stop_reason=found.stop_reason,
                           gap=float(found.gap), work=found.work,
                           idle_exact=idle_exact, symmetry_order=len(group),
                           notes=tuple(notes))
