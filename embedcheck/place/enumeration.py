@@ -74,7 +74,10 @@ def raw_maps(device: Device, chip: rx.PyGraph, pattern: rx.PyGraph,
                           dtype=np.int64)
     prep = prepare(Host.from_edges(n, chip.edge_list()), pattern.num_nodes(),
                    list(pattern.edge_list()), candidates=masks, symmetries=autos)
-    job: _Job = (prep, arcs, native, probe)
+    steps = None if probe else 0             # the probe's steps (None: the matcher's default)
+    if probe and max_work is not None:
+        steps = min(32 * prep.k + 512, max_work)     # the probe's steps count as work too
+    job: _Job = (prep, arcs, native, steps)
     effort = effort if effort is not None else Effort()
     effort.anchors_total = len(prep.start)
     engine = Engine(prep)
@@ -190,7 +193,7 @@ def _start_worker(halt: Any, counted: Any, worked: Any, job: _Job) -> None:
     _ENGINE = Engine(job[0])
 
 
-_Job = tuple[Prepared, Sequence[tuple[int, int]], np.ndarray | None, bool]
+_Job = tuple[Prepared, Sequence[tuple[int, int]], np.ndarray | None, int | None]
 # A piece's result: its blocks of maps, the work done after each, its whole work, why it
 # stopped early, the anchors it began.
 _Piece = tuple[list[np.ndarray], list[int], int, str | None, int]
@@ -200,7 +203,7 @@ def _filtered(job: _Job, part: tuple[int, int],
               engine: Engine | None = None) -> Iterator[np.ndarray]:
     prep, arcs, native, probe = job
     n = prep.host.n
-    for block in grow(prep, part=part, probe=None if probe else 0, engine=engine):
+    for block in grow(prep, part=part, probe=probe, engine=engine):
         if native is not None and len(block):
             ok = np.ones(len(block), dtype=bool)
             for a, b in arcs:
