@@ -53,21 +53,27 @@ def add_parser(sub: Any) -> None:
                       "(.png or .svg)")
     find.add_argument("--score-map", metavar="FILE", help="draw every qubit shaded by the best "
                       "score of any placement that uses it (.png or .svg)")
-    find.add_argument("--figure", choices=("auto", "undetected", "kept", "fidelity_product"),
+    find.add_argument("--figure", choices=("auto", "estimate", "undetected", "kept",
+                                           "fidelity_product"),
                       default="auto",
-                      help="what ranks the placements: 'undetected' (lowest-order rate of "
-                           "logical errors no detector sees, from stim's detector error model), "
-                           "'kept' (fraction of shots kept by post-selection) or "
-                           "'fidelity_product'; 'auto' (default) takes 'undetected' when the "
-                           "patch declares detectors and an observable and every circuit is "
-                           "swap-free, else 'fidelity_product'")
+                      help="what ranks the placements: 'estimate' (leading-order decoded "
+                           "logical error from stim's detector error model and matching's "
+                           "own decisions), 'undetected' (lowest-order rate of logical errors "
+                           "no detector sees), 'kept' (fraction of shots kept by "
+                           "post-selection) or 'fidelity_product'; 'auto' (default) takes "
+                           "'undetected' for codes of fault distance 1 or 2 and 'estimate' for "
+                           "larger ones when the patch declares detectors and an observable "
+                           "and every circuit is swap-free, else 'fidelity_product'")
     find.add_argument("--monte-carlo", type=bounded_int(MAX_SHOTS), metavar="SHOTS",
-                      help="also sample SHOTS noisy shots of each listed placement with stim")
+                      help="also sample up to SHOTS noisy shots of each listed placement with "
+                           "stim")
     find.add_argument("--decode", action="store_true",
-                      help="with --monte-carlo, also decode by matching (pymatching)")
+                      help="with --monte-carlo, decode by matching (pymatching); with "
+                           "--figure auto, the listed placements are then sampled adaptively "
+                           "and ranked by their decoded logical error")
     find.add_argument("--processes", type=bounded_int(max_processes()), default=1,
-                      help="worker processes for the placement search and the logical "
-                           "scores (default 1)")
+                      help="worker processes for the placement search, the logical scores "
+                           "and the sampling (default 1)")
     find.add_argument("--compare-sdk", action="store_true",
                       help="also run qiskit's VF2Layout on the whole experiment and say where "
                            "its choice ranks under our model")
@@ -134,10 +140,15 @@ def run(args: argparse.Namespace) -> int:
             f"no placement to shade, so --score-map wrote nothing to {args.score_map}"
     if args.score_map and vetting.ranking.placements:
         if logical is not None:
-            values = -np.log10(np.maximum(logical.undetected, 1e-12)) \
-                if logical.figure == "undetected" else logical.kept
-            label = "-log10 undetected rate" if logical.figure == "undetected" else \
-                "kept fraction"
+            deterministic = logical.estimate if logical.estimate is not None else \
+                logical.undetected
+            if logical.figure == "kept" and logical.kept is not None:
+                values, label = logical.kept, "kept fraction"
+            else:
+                assert deterministic is not None
+                values = -np.log10(np.maximum(deterministic, 1e-12))
+                label = ("-log10 decoded estimate" if logical.estimate is not None
+                         else "-log10 undetected rate")
             figure = draw_score_map(device, patch, logical.placements, values, None,
                                     label=f"best {label} using it (higher is better)")
         else:

@@ -12,7 +12,18 @@ import sys
 from pathlib import Path
 from typing import Any
 
-from .options import positive_float, positive_int
+from ..io.limits import MAX_CODE_DISTANCE, MAX_CODE_ROUNDS, MAX_SHOTS
+from .options import (
+    add_executor_options,
+    bounded_int,
+    executor_from,
+    executor_label,
+    positive_float,
+    positive_int,
+    seed_value,
+)
+
+MAX_SCALES = 64          # scaled calibrations per forecast (each one samples every distance)
 
 __all__ = ["add_parser", "default_samples_file", "run"]
 
@@ -30,9 +41,9 @@ def add_parser(sub: Any) -> None:
     p.add_argument("--distances", metavar="LIST",
                    help="code distances, e.g. 3,5,7 (default: 3, 5, ... up to --max-distance, "
                         "stopping at the first that does not fit)")
-    p.add_argument("--max-distance", type=positive_int, default=9, metavar="D",
+    p.add_argument("--max-distance", type=bounded_int(MAX_CODE_DISTANCE), default=9, metavar="D",
                    help="largest distance tried when --distances is not given (default 9)")
-    p.add_argument("--rounds", type=positive_int, metavar="R",
+    p.add_argument("--rounds", type=bounded_int(MAX_CODE_ROUNDS), metavar="R",
                    help="check rounds of every patch (default: the distance)")
     p.add_argument("--basis", choices=("z", "x"), default="z",
                    help="memory basis (repetition code only; default z)")
@@ -40,14 +51,14 @@ def add_parser(sub: Any) -> None:
                    help="calibration scale factors for the curves (every error x s, T1 and "
                         "T2 / s), e.g. 0.25,0.5,1,2 (default 0.1,0.2,0.35,0.5,0.7,1,1.4,2; "
                         "1 is always included)")
-    p.add_argument("--shots", type=positive_int, default=20_000, metavar="N",
+    p.add_argument("--shots", type=bounded_int(MAX_SHOTS), default=20_000, metavar="N",
                    help="shots per point (default 20000)")
-    p.add_argument("--max-errors", type=positive_int, default=200, metavar="N",
+    p.add_argument("--max-errors", type=bounded_int(MAX_SHOTS), default=200, metavar="N",
                    help="stop a point once it has this many logical errors (default 200)")
     p.add_argument("--budget-s", type=positive_float, metavar="S",
                    help="stop sampling after this many seconds (default: no limit); the "
                         "report then says INCOMPLETE and a rerun adds to it")
-    p.add_argument("--seed", type=int, default=1, help="sampling seed (default 1)")
+    p.add_argument("--seed", type=seed_value, default=1, help="sampling seed (default 1)")
     p.add_argument("--samples", metavar="FILE",
                    help="SQLite file of finished sampling chunks, the resume (default: "
                         "CHIPNAME-FAMILY.forecast.sqlite beside --json or --picture, else in "
@@ -56,14 +67,7 @@ def add_parser(sub: Any) -> None:
                    help="placements the search keeps per distance (default 10000)")
     p.add_argument("--search-budget-s", type=positive_float, default=60.0, metavar="S",
                    help="seconds for each distance's search (default 60)")
-    where = p.add_mutually_exclusive_group()
-    where.add_argument("--scheduler", metavar="ADDRESS",
-                       help="an existing Dask scheduler, e.g. tcp://10.0.0.5:8786 (default: a "
-                            "local cluster of worker processes started here)")
-    where.add_argument("--serial", action="store_true",
-                       help="sample in this process (no Dask)")
-    p.add_argument("--workers", type=positive_int, metavar="N",
-                   help="worker processes of the local cluster (default: the cores)")
+    add_executor_options(p, serial_help="sample in this process (no Dask)")
     p.add_argument("--json", metavar="FILE", help="also write the report as JSON here")
     p.add_argument("--picture", metavar="FILE",
                    help="draw logical error per round against the scale (.png or .svg)")
@@ -92,9 +96,9 @@ def run(args: argparse.Namespace) -> int:
     from ..pipeline.forecast import DEFAULT_SCALES, run_forecast
     from ..report.forecast import draw_forecast, forecast_dict, render_forecast_text
     from ..score.sampling import SampleStore
-    from .options import emit, finite, int_list, picture_bytes_for, require_picture_path
+    from .options import emit, finite, picture_bytes_for, require_picture_path
 
-    distances = int_list(args.distances, "--distances") if args.distances else None
+    distances = _distances(args.distances) if args.distances else None
     if args.distances is not None and not distances:
         raise InputError("--distances: give at least one distance, e.g. 3,5,7")
     scales = _scales(args.scales) if args.scales else DEFAULT_SCALES
@@ -111,7 +115,7 @@ def run(args: argparse.Namespace) -> int:
     bar = _Bar() if sys.stderr.isatty() else None
     store = SampleStore(samples)
     try:
-        with _executor(args) as executor:
+        with executor_from(args) as executor:
             forecast = run_forecast(
                 device, args.family, distances=distances, max_distance=args.max_distance,
                 rounds=args.rounds, basis=args.basis, scales=scales, shots=args.shots,
@@ -128,10 +132,8 @@ def run(args: argparse.Namespace) -> int:
         store.close()
     if bar:
         bar.close()
-    where = "this process" if args.serial else (
-        f"Dask at {args.scheduler}" if args.scheduler else "a local Dask cluster")
     payload = forecast_dict(forecast, chip_file=args.chip, samples_file=samples,
-                            executor=where)
+                            executor=executor_label(args))
     files: dict[str | Path, str | bytes] = {}
     if args.json:
         files[args.json] = json.dumps(finite(payload), indent=2, allow_nan=False) + "\n"
@@ -140,6 +142,19 @@ def run(args: argparse.Namespace) -> int:
     outputs.commit(files)
     emit(args, payload, render_forecast_text(payload))
     return 0
+
+
+def _distances(text: str) -> list[int]:
+    """'3,5,7' or '3-9' as sorted distances, each at most MAX_CODE_DISTANCE."""
+    import re
+
+    from ..errors import InputError
+    from .options import int_list
+    for number in re.findall(r"\d+", text):
+        if int(number) > MAX_CODE_DISTANCE:
+            raise InputError(f"--distances: {int(number)} is above the limit of "
+                             f"{MAX_CODE_DISTANCE}")
+    return int_list(text, "--distances", noun="distance")
 
 
 def _scales(text: str) -> list[float]:
@@ -155,20 +170,12 @@ def _scales(text: str) -> list[float]:
         if not math.isfinite(value) or value <= 0:
             raise InputError(f"--scales: '{part}' must be a positive number")
         out.append(value)
+        if len(out) > MAX_SCALES:
+            raise InputError(f"--scales: more than {MAX_SCALES} scales")
     if not out:
         raise InputError("--scales: give at least one scale, e.g. 0.5,1,2")
     return out
 
-
-def _executor(args: argparse.Namespace):
-    from ..engine import DaskExecutor, SerialExecutor
-    from ..errors import InputError
-    if args.serial:
-        return SerialExecutor()
-    try:
-        return DaskExecutor(scheduler=args.scheduler, workers=args.workers)
-    except ConnectionError as err:
-        raise InputError(f"--scheduler: {err}") from None
 
 
 class _Bar:

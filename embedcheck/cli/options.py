@@ -89,7 +89,7 @@ def request_constraints(args: argparse.Namespace, patch: Patch,
     return merge_constraints(patch.constraints, given, device)
 
 
-def int_list(text: str | None, option: str) -> list[int]:
+def int_list(text: str | None, option: str, noun: str = "qubit number") -> list[int]:
     """Qubit numbers from '3,17,40-52' (ranges merged first, so no list is longer than the
     qubit numbers that exist: 0 to MAX_QUBIT_NUMBER)."""
     spans = []
@@ -98,7 +98,7 @@ def int_list(text: str | None, option: str) -> list[int]:
         try:
             first, last = (int(lo), int(hi)) if sep else (int(part), int(part))
         except ValueError:
-            raise InputError(f"{option}: '{part}' is not a qubit number or range") from None
+            raise InputError(f"{option}: '{part}' is not a {noun} or range") from None
         if last < first:
             raise InputError(f"{option}: range '{part}' runs backwards; write {last}-{first}")
         if first < 0 or last > MAX_QUBIT_NUMBER:
@@ -191,6 +191,36 @@ def non_negative_int(text: str) -> int:
     if value < 0:
         raise argparse.ArgumentTypeError(f"'{text}' must be 0 or more")
     return value
+
+
+def add_executor_options(parser: Any, *, serial_help: str) -> None:
+    """--scheduler / --serial / --workers: where a command's tasks run (sweep, forecast)."""
+    where = parser.add_mutually_exclusive_group()
+    where.add_argument("--scheduler", metavar="ADDRESS",
+                       help="an existing Dask scheduler, e.g. tcp://10.0.0.5:8786 (default: a "
+                            "local cluster of worker processes started here)")
+    where.add_argument("--serial", action="store_true", help=serial_help)
+    parser.add_argument("--workers", type=bounded_int(max_processes()), metavar="N",
+                        help="worker processes of the local cluster (default: the cores; at "
+                             "most 4 per CPU)")
+
+
+def executor_from(args: argparse.Namespace) -> Any:
+    """The executor the options above ask for; an unreachable scheduler is bad input (2)."""
+    from ..engine import DaskExecutor, SerialExecutor
+    if args.serial:
+        return SerialExecutor()
+    try:
+        return DaskExecutor(scheduler=args.scheduler, workers=args.workers)
+    except ConnectionError as err:
+        raise InputError(f"--scheduler: {err}") from None
+
+
+def executor_label(args: argparse.Namespace) -> str:
+    """Where the tasks ran, for the report."""
+    if args.serial:
+        return "this process"
+    return f"Dask at {args.scheduler}" if args.scheduler else "a local Dask cluster"
 
 
 def max_processes() -> int:

@@ -11,7 +11,7 @@ import json
 import sys
 from typing import Any
 
-from .options import bounded_int, max_processes
+from .options import add_executor_options, executor_from, executor_label
 
 __all__ = ["add_parser", "run"]
 
@@ -21,15 +21,8 @@ def add_parser(sub: Any) -> None:
     sweep = sub.add_parser("sweep", help="run chips x snapshots x patches on Dask and store the "
                            "results in a database (a rerun resumes)")
     sweep.add_argument("file", metavar="SWEEP", help="sweep file (YAML)")
-    where = sweep.add_mutually_exclusive_group()
-    where.add_argument("--scheduler", metavar="ADDRESS",
-                       help="an existing Dask scheduler, e.g. tcp://10.0.0.5:8786 (default: a "
-                            "local cluster of worker processes started here)")
-    where.add_argument("--serial", action="store_true",
-                       help="run every task in this process (no Dask; for debugging)")
-    sweep.add_argument("--workers", type=bounded_int(max_processes()), metavar="N",
-                       help="worker processes of the local cluster (default: the cores; at "
-                            "most 4 per CPU)")
+    add_executor_options(sweep, serial_help="run every task in this process (no Dask; for "
+                                            "debugging)")
     sweep.add_argument("--database", metavar="FILE",
                        help="SQLite results file (default: the sweep file's 'database', else "
                             "<sweep>.sqlite beside it)")
@@ -96,19 +89,9 @@ def run(args: argparse.Namespace) -> int:
 
 
 def _run(args, sweep, database, run_sweep) -> dict:
-    from ..engine import DaskExecutor, Executor, SerialExecutor
-    from ..errors import InputError
     bar = _progress_bar()
     try:
-        executor: Executor
-        if args.serial:
-            executor = SerialExecutor()
-        else:
-            try:
-                executor = DaskExecutor(scheduler=args.scheduler, workers=args.workers)
-            except ConnectionError as err:
-                raise InputError(f"--scheduler: {err}") from None
-        with executor:
+        with executor_from(args) as executor:
             outcome = run_sweep(sweep, executor=executor, database=database,
                                 progress=bar.update if bar else None)
     except KeyboardInterrupt:
@@ -119,8 +102,7 @@ def _run(args, sweep, database, run_sweep) -> dict:
         raise SystemExit(130) from None
     if bar:
         bar.close()
-    return {"executor": "serial" if args.serial else (
-        f"Dask at {args.scheduler}" if args.scheduler else "a local Dask cluster"),
+    return {"executor": executor_label(args),
         "computed": outcome.computed, "skipped": outcome.skipped, "units": outcome.units,
         "failed_units": len(outcome.failed_units), "failed_samples": outcome.failed_samples}
 

@@ -125,15 +125,19 @@ class _Walker:
         for stmt in statements:
             self.statement(stmt, conditional)
 
+    def quantum_gate(self, stmt, conditional):
+        """A gate call: no modifiers, a known gate, finite angles; then its operations."""
+        if stmt.modifiers:
+            raise self.fail(stmt, "gate modifiers (ctrl @, inv @, pow @) are not supported")
+        self.check_gate_call(stmt)
+        for arg in stmt.arguments:
+            self.check_finite(arg, stmt)
+        self.gate(stmt, stmt.name.name, [self.operand(q, stmt) for q in stmt.qubits],
+                  conditional, stmt.name.name)
+
     def statement(self, stmt, conditional):
         if type(stmt) is ast.QuantumGate:         # most statements: straight to the gate
-            if stmt.modifiers:
-                raise self.fail(stmt, "gate modifiers (ctrl @, inv @, pow @) are not supported")
-            self.check_gate_call(stmt)
-            for arg in stmt.arguments:
-                self.check_finite(arg, stmt)
-            self.gate(stmt, stmt.name.name, [self.operand(q, stmt) for q in stmt.qubits],
-                      conditional, stmt.name.name)
+            self.quantum_gate(stmt, conditional)
         elif isinstance(stmt, ast.Include):
             if stmt.filename not in _LIBRARIES:
                 raise self.fail(stmt, f"include \"{stmt.filename}\" is not supported: only the "
@@ -191,13 +195,7 @@ class _Walker:
             self.definitions[stmt.name.name] = stmt
             self.costs.clear()                 # a redefinition changes what others unroll to
         elif isinstance(stmt, ast.QuantumGate):
-            if stmt.modifiers:
-                raise self.fail(stmt, "gate modifiers (ctrl @, inv @, pow @) are not supported")
-            self.check_gate_call(stmt)
-            for arg in stmt.arguments:
-                self.check_finite(arg, stmt)
-            self.gate(stmt, stmt.name.name, [self.operand(q, stmt) for q in stmt.qubits],
-                      conditional, stmt.name.name)
+            self.quantum_gate(stmt, conditional)
         elif isinstance(stmt, ast.QuantumMeasurementStatement):
             qubits = self.operand(stmt.measure.qubit, stmt)
             bits: list = [None] * len(qubits)

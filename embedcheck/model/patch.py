@@ -138,39 +138,14 @@ class Patch:
     def runs(self) -> list[tuple[str, bool, int]]:
         """(circuit, again, count): the experiment's runs by kind. A circuit run more than
         once is listed twice, its first run (again=False, count 1) and its later runs
-        (again=True), because they differ in which qubits already hold state."""
+        (again=True), because they differ in which waits reach into them from before (the
+        idle rule of `score.schedule`)."""
         out: list[tuple[str, bool, int]] = []
         for name, times in self.experiment():
             out.append((name, False, 1))
             if times > 1:
                 out.append((name, True, times - 1))
         return out
-
-    def waiting(self, circuit: str, again: bool = False) -> frozenset[str]:
-        """Qubits that hold state when `circuit` starts and will be used again: touched by
-        an earlier circuit of the experiment (or by this one, on a later run) and not reset
-        last, with a next operation (in this circuit or a later one) that is not a reset. Their
-        wait from
-        the circuit's start is idle time; a qubit still in its initial |0> does not decay,
-        and one that is reset next, or never used again, has nothing to lose."""
-        names = [n for n, _ in self.experiment()]
-        at = names.index(circuit) if circuit in names else len(names)
-        before = names[:at] + ([circuit] if again else [])
-        last: dict[str, str] = {}                          # each qubit's last operation so far
-        for n in before:
-            for op in self.circuits[n].operations:
-                if op.kind != "barrier":
-                    for q in op.qubits:
-                        last[q] = op.kind
-        touched = {q for q, kind in last.items() if kind != "reset"}   # reset: back in |0>
-        upcoming = [circuit] + names[at + 1:]
-        next_kind: dict[str, str] = {}
-        for n in upcoming:
-            for op in self.circuits[n].operations:
-                if op.kind != "barrier":
-                    for q in op.qubits:
-                        next_kind.setdefault(q, op.kind)
-        return frozenset(q for q in touched if next_kind.get(q, "reset") != "reset")
 
     def interaction_counts(self, circuit_names: Sequence[str] | None = None,
                            weighted: bool = False) -> dict[tuple[int, int], int]:

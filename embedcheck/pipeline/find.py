@@ -1,12 +1,21 @@
 """The `find` command as one call: vet the patch, then decide what else the report holds.
 
 On top of `vet_patch` (search, audit, rank): the calibration figures that move the best
-placement's score most; which logical figure ranks the placements (`figure="auto"`
-takes 'undetected' when the patch declares detectors and an observable and every
-circuit is swap-free, unless that figure is 0 on every placement, which is decided once
-on a circuit with every possible fault); the ranking over calibration snapshots; and
-qiskit's own layout choice. The report (`embedcheck.report.data.find_dict`) formats
-the result and says why a logical figure was not used (`LogicalNote`).
+placement's score most; which logical figure ranks the placements; the ranking over
+calibration snapshots; and qiskit's own layout choice.
+
+`figure="auto"` ranks by a logical figure when the patch declares detectors and an
+observable that is not itself a detector parity, and every circuit is swap-free:
+
+- fault distance 1 or 2 (some one or two faults flip the observable unseen, decided once
+  on a circuit with every possible fault): 'undetected', the post-selection figure;
+- fault distance 3 or more: 'estimate', the leading-order decoded logical error
+  (`score.estimate`), when stim's model of the circuit is graph-like;
+- with Monte Carlo shots and `decode`: 'decoded', the listed placements (chosen by the
+  estimate) sampled adaptively and sorted by their sampled decoded logical error.
+
+Otherwise it keeps the fidelity product, and `LogicalNote` says why. The report
+(`embedcheck.report.data.find_dict`) formats the result and words the note.
 
     >>> from embedcheck.io.chipfile import load_device
     >>> from embedcheck.io.patchfile import load_patch
@@ -23,6 +32,7 @@ from enum import Enum
 
 import numpy as np
 
+from ..engine import ProcessExecutor, SerialExecutor
 from ..errors import InputError
 from ..model.constraints import Constraints
 from ..model.device import Device
@@ -31,10 +41,12 @@ from ..place.enumeration import Effort
 from ..score.cost import Sensitivity, SnapshotRanking, rank_across_snapshots, sensitivity
 from ..score.logical import (
     LogicalRanking,
+    decoder_model,
     rank_by_logical,
     require_detectors,
     undetected_zero_everywhere,
 )
+from ..score.noise import noisy_circuit
 from .requests import require_sound_detectors
 from .sdk import SdkComparison, compare_with_sdk
 from .vet import DEFAULT_BUDGET_WORK, Vetting, vet_patch
@@ -47,10 +59,11 @@ Progress = Callable[[str, int], None]      # (stage: 'searching' or 'scoring', c
 class LogicalNote(Enum):
     """Why the logical ranking is as it is, or absent (the report words each one)."""
 
-    SAMPLED_BY_KEPT = "undetected is zero: ranked by kept, sampled"
+    NO_DETECTORS = "no detectors or no observable declared"
     UNDETECTED_ALL_ZERO = "undetected is zero on every placement"
     OBSERVABLE_IS_DETECTOR_PARITY = "observable is a detector parity"
-    UNDETECTED_ZERO_TO_SECOND_ORDER = "undetected is zero to second order"
+    NOT_MATCHABLE = "the error model is not graph-like"
+    ESTIMATE_INCOMPLETE = "an enumeration budget cut the estimate short"
     NOTHING_TO_SAMPLE = "nothing to sample"
 
 
@@ -87,10 +100,11 @@ def run_find(snapshots: Sequence[Device], patch: Patch, *, limit: int | None = 1
     """Vet `patch` on the newest of `snapshots` and work out the rest of the find report.
 
     `top` is how many placements to list (None: all); `figure` what ranks them ('auto',
-    'undetected', 'kept' or 'fidelity_product'); `monte_carlo` shots sample the listed
-    placements, `decode` decodes them; several snapshots are also ranked over
-    (`over_snapshots`: 'worst', 'mean' or 'q<fraction>'). `budget_work` bounds the
-    searches in work units (identical runs stop at the same place; `budget_s` is the
+    'estimate', 'undetected', 'kept' or 'fidelity_product'); `monte_carlo` shots sample
+    the listed placements, `decode` decodes them (with 'auto': ranks them by the sampled
+    decoded logical error, on `processes` worker processes); several snapshots are also
+    ranked over (`over_snapshots`: 'worst', 'mean' or 'q<fraction>'). `budget_work` bounds
+    the searches in work units (identical runs stop at the same place; `budget_s` is the
     clock's cap on top); when the placements are too many to list, the best `top` (at
     least 10) by the fidelity product are searched best first (`Vetting.best`).
     """
@@ -103,23 +117,12 @@ def run_find(snapshots: Sequence[Device], patch: Patch, *, limit: int | None = 1
     placements = vetting.ranking.placements
     shown = top if top is not None else max(1, len(placements))
     sensitive = tuple(sensitivity(device, patch, placements[0], top=5)) if placements else ()
-    logical, zero = _logical_ranking(device, patch, vetting, figure=figure,
+    logical, note = _logical_ranking(device, patch, vetting, figure=figure,
                                      monte_carlo=monte_carlo, decode=decode, top=top,
                                      processes=processes, progress=progress)
-    note = None
-    if logical is not None:
-        if zero:
-            note = LogicalNote.SAMPLED_BY_KEPT
-        elif logical.figure == "undetected" and not np.any(logical.undetected):
-            note = LogicalNote.UNDETECTED_ALL_ZERO
-    elif patch.detectors and patch.observable and vetting.all_swap_free:
-        if observable_is_detector_parity(patch):
-            note = LogicalNote.OBSERVABLE_IS_DETECTOR_PARITY
-        elif zero:
-            note = LogicalNote.UNDETECTED_ZERO_TO_SECOND_ORDER
     if monte_carlo and logical is None and note is None:
         note = LogicalNote.NOTHING_TO_SAMPLE
-    if logical is None and figure in ("undetected", "kept"):
+    if logical is None and figure in ("estimate", "undetected", "kept"):
         raise InputError("no placement makes every circuit swap-free, so there is no noisy "
                          "circuit to score; use fidelity_product", key=f"--figure {figure}")
     robust = None
@@ -133,31 +136,43 @@ def run_find(snapshots: Sequence[Device], patch: Patch, *, limit: int | None = 1
 
 def _logical_ranking(device: Device, patch: Patch, vetting: Vetting, *, figure: str,
                      monte_carlo: int, decode: bool, top: int | None, processes: int,
-                     progress: Progress | None) -> tuple[LogicalRanking | None, bool]:
-    """(ranking by a logical figure when asked, or by 'auto' when it applies, else None;
-    whether 'undetected' is 0 on every placement, so 'auto' could not use it)."""
+                     progress: Progress | None
+                     ) -> tuple[LogicalRanking | None, LogicalNote | None]:
+    """The ranking by a logical figure when asked, or by 'auto' when one applies (see the
+    module docstring), else None; and the note on why."""
+    if figure == "fidelity_product":
+        return None, None
+    if not patch.detectors or not patch.observable:
+        if figure != "auto" or monte_carlo:
+            require_detectors(patch)                # one line: what to declare
+        return None, LogicalNote.NO_DETECTORS
     swap_free = [p for p, off in zip(vetting.ranking.placements, vetting.ranking.unscored_gates,
                                      strict=True)
                  if off == 0] if vetting.all_swap_free else []
-    zero = False
-    if figure == "fidelity_product":
-        return None, zero
-    if figure == "auto":
-        if not swap_free or not patch.detectors or not patch.observable:
-            return None, zero
-        if observable_is_detector_parity(patch):   # no fault flips it unseen: every score is 0
-            return None, zero
-        zero = undetected_zero_everywhere(patch)   # every fault at once: 0 there, 0 anywhere
-        if zero and not monte_carlo:
-            return None, zero
-        figure = "kept" if zero else "undetected"   # kept: sampled below, ranked by what is kept
     if not swap_free:
-        return None, zero
-    require_detectors(patch)
+        return None, None
+    if figure == "auto":
+        if observable_is_detector_parity(patch):   # no fault flips it unseen: every score is 0
+            return None, LogicalNote.OBSERVABLE_IS_DETECTOR_PARITY
+        if monte_carlo and decode:
+            figure = "decoded"
+        elif undetected_zero_everywhere(patch):    # every fault at once: 0 there, 0 anywhere
+            try:
+                decoder_model(noisy_circuit(device, patch, swap_free[0]))
+            except InputError:
+                return None, LogicalNote.NOT_MATCHABLE
+            figure = "estimate"
+        else:
+            figure = "undetected"
     require_sound_detectors(patch, patch.source)
-    out = rank_by_logical(device, patch, swap_free, figure=figure,
-                          monte_carlo_shots=monte_carlo or 0,
-                          top=top if top is not None else len(swap_free), decode=decode,
-                          processes=processes,
-                          progress=(lambda n: progress("scoring", n)) if progress else None)
-    return out, zero
+    with (ProcessExecutor(processes) if processes > 1 else SerialExecutor()) as executor:
+        out = rank_by_logical(device, patch, swap_free, figure=figure,
+                              monte_carlo_shots=monte_carlo or 0,
+                              top=top if top is not None else len(swap_free), decode=decode,
+                              processes=processes, executor=executor, progress=progress)
+    note = None
+    if out.figure == "undetected" and out.undetected is not None and not np.any(out.undetected):
+        note = LogicalNote.UNDETECTED_ALL_ZERO
+    elif out.estimate is not None and not out.estimate_complete:
+        note = LogicalNote.ESTIMATE_INCOMPLETE
+    return out, note

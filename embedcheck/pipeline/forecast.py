@@ -5,7 +5,8 @@ chip's calibration:
 
 1. **Per distance d**: the family's patch (`patch_from_family`, d rounds unless told) is
    searched on the chip (`vet_patch`); its swap-free placements are put in order by a
-   *ranking* (`RANKINGS`; by default the fidelity product, the search's own order) and
+   *ranking* (`RANKINGS`; by default the decoded-logical estimate of `score.estimate`
+   for codes of distance 3 and more, else the fidelity product, the search's own order) and
    the **best** and the **median** one kept, so the spread over the chip shows. Each
    kept placement's noisy circuit (`noisy_circuit`, from the calibration) is sampled and
    decoded by matching (`score.sampling`) into a logical error per shot and per round,
@@ -71,7 +72,7 @@ from .vet import vet_patch
 
 __all__ = ["DEFAULT_RANKING", "DEFAULT_SCALES", "FORECAST_FAMILIES", "RANKINGS", "Crossing",
            "DistanceSearch", "Forecast", "ForecastPoint", "Ranker", "Suppression",
-           "rank_by_fidelity_product", "run_forecast"]
+           "rank_by_estimate", "rank_by_fidelity_product", "run_forecast"]
 
 DEFAULT_SCALES = (0.1, 0.2, 0.35, 0.5, 0.7, 1.0, 1.4, 2.0)
 FORECAST_FAMILIES = tuple(f for f in FAMILIES if f != "flagged")   # families with a distance
@@ -85,12 +86,43 @@ def rank_by_fidelity_product(device: Device, patch: Patch,
     return placements
 
 
+ESTIMATE_MAX_PLACEMENTS = 1000
+
+
+def rank_by_estimate(device: Device, patch: Patch,
+                     placements: Sequence[Placement]) -> Sequence[Placement]:
+    """Lowest decoded-logical estimate first (`score.estimate`: leading order ceil(d/2) from
+    the detector error model and matching's own decisions), for codes of fault distance 3
+    to 5 with at most `ESTIMATE_MAX_PLACEMENTS` placements; ties keep the fidelity-product
+    order. Otherwise the fidelity-product order is kept: distance 1 or 2 and 7 or more
+    are not what the estimate was measured on (bench/logical.py), and at 7 its enumeration
+    grows steeply; thousands of placements (a repetition code on a big chip) would cost a
+    minute (7-300 ms each, measured on devices/demo_grid.yaml); a model stim cannot make
+    graph-like has no matching to estimate."""
+    from ..score.estimate import decoded_logical_estimate
+    from ..score.logical import decoder_model, estimate_scores
+    if not 2 <= len(placements) <= ESTIMATE_MAX_PLACEMENTS or not patch.detectors \
+            or not patch.observable:
+        return placements
+    try:
+        first = decoded_logical_estimate(decoder_model(noisy_circuit(device, patch,
+                                                                     placements[0])))
+    except InputError:
+        return placements
+    if not 3 <= max(first.distance or 0, first.circuit_distance or 0) <= 5:
+        return placements
+    values = [e.value for e in estimate_scores(device, patch, placements)]
+    order = sorted(range(len(placements)), key=lambda i: (values[i], i))
+    return [placements[i] for i in order]
+
+
 # The ranking that chooses the best and median placement of each distance. A ranker gets
-# the placements in the fidelity-product order and returns them best first. The fast
-# logical estimate (issue 15, `score/estimate.py`) plugs in here as one more entry, and
-# becomes the default by changing DEFAULT_RANKING.
-RANKINGS: dict[str, Ranker] = {"fidelity_product": rank_by_fidelity_product}
-DEFAULT_RANKING = "fidelity_product"
+# the placements in the fidelity-product order and returns them best first. By default the
+# decoded-logical estimate (issue 15), which ranks placements of distance-3 and distance-5
+# codes like decoded sampling does (bench/logical.py); the fidelity product for the rest.
+RANKINGS: dict[str, Ranker] = {"estimate": rank_by_estimate,
+                               "fidelity_product": rank_by_fidelity_product}
+DEFAULT_RANKING = "estimate"
 
 Progress = Callable[[str, int, int], None]
 

@@ -26,6 +26,7 @@ from ..place.graphs import degree_histogram, shortest_cycle
 from ..score.best_placements import BestPlacements
 from ..score.cost import CAUTION, Ranking, Sensitivity, SnapshotRanking
 from ..score.logical import LogicalRanking
+from ..score.sampling import per_round
 from ..version import __version__
 
 __all__ = ["audit_dict", "calibration_summary", "check_dict", "chip_details", "chip_summary",
@@ -139,6 +140,8 @@ def find_dict(result: FindResult) -> Json:
         out["logical"] = logical_dict(v.patch, result.logical, top,
                                       sampled=result.sampled)
         out["ranked_by"] = result.logical.figure
+        if result.logical.estimate_order is not None:
+            out["estimate_order"] = result.logical.estimate_order
     if result.logical_note is not None:
         out["logical_note"] = logical_note(result.logical_note, decoded=result.decoded)
     if result.snapshots is not None:
@@ -149,17 +152,25 @@ def find_dict(result: FindResult) -> Json:
 
 
 _NOTES = {
+    LogicalNote.NO_DETECTORS:
+        "the patch declares no detectors or no logical observable, so the placements are "
+        "ranked by fidelity_product; declare 'detectors:' (measurement parities fixed without "
+        "noise) and 'observable:' (the measurements whose parity is the logical result) to rank "
+        "them by logical error",
     LogicalNote.UNDETECTED_ALL_ZERO:
         "every placement scores 0 on 'undetected' (no one or two faults flip the observable "
         "unseen), so that column does not rank them; ties are broken by 'kept'",
     LogicalNote.OBSERVABLE_IS_DETECTOR_PARITY:
         "the logical observable is a parity of the declared detectors, so no fault flips it "
         "unseen and the logical figures are 0 everywhere; ranked by fidelity_product",
-    LogicalNote.UNDETECTED_ZERO_TO_SECOND_ORDER:
-        "no one or two faults flip the logical observable unseen (the circuit's fault "
-        "distance is above 2), so the 'undetected' figure, taken to second order, is 0 on "
-        "every placement and cannot rank them; ranked by fidelity_product (add --monte-carlo "
-        "SHOTS --decode to sample decoded logical errors of the placements listed)",
+    LogicalNote.NOT_MATCHABLE:
+        "no one or two faults flip the logical observable unseen, and some faults flip more "
+        "than two detectors in a way stim cannot split into graph-like pieces, so neither "
+        "'undetected' nor the decoded estimate can rank the placements; ranked by "
+        "fidelity_product (--monte-carlo SHOTS samples the placements listed)",
+    LogicalNote.ESTIMATE_INCOMPLETE:
+        "an enumeration budget cut the decoded estimate short on some placements: it is a "
+        "partial sum there (a lower bound of the leading order)",
     LogicalNote.NOTHING_TO_SAMPLE:
         "--monte-carlo needs a patch with detectors and an observable on which every circuit "
         "is swap-free; nothing sampled",
@@ -168,11 +179,6 @@ _NOTES = {
 
 def logical_note(note: LogicalNote, *, decoded: bool = False) -> str:
     """The words for a `LogicalNote`."""
-    if note is LogicalNote.SAMPLED_BY_KEPT:
-        return ("no one or two faults flip the logical observable unseen, so 'undetected' is 0 "
-                "on every placement; ranked by 'kept', with the sampled logical errors of the "
-                "placements listed" + (", decoded" if decoded else
-                                       " (add --decode to decode them)"))
     return _NOTES[note]
 
 
@@ -388,12 +394,16 @@ def sdk_dict(patch: Patch, sdk: SdkComparison) -> Json:
 
 def logical_dict(patch: Patch, logical: LogicalRanking, top: int = 10,
                  sampled: bool = False) -> Json:
-    """The ranking by a logical figure, with Monte Carlo results where sampled."""
+    """The ranking by a logical figure, with its deterministic figures per placement and
+    Monte Carlo results where sampled."""
     rows = []
     for i in range(min(top, len(logical.placements))):
-        row = {"rank": i + 1, "qubits": logical.placements[i].as_dict(patch),
-               "undetected": float(logical.undetected[i]), "kept": float(logical.kept[i])}
-        mc = logical.monte_carlo[i]
+        row: Json = {"rank": i + 1, "qubits": logical.placements[i].as_dict(patch)}
+        if logical.undetected is not None and logical.kept is not None:
+            row.update(undetected=float(logical.undetected[i]), kept=float(logical.kept[i]))
+        if logical.estimate is not None:
+            row["estimate"] = float(logical.estimate[i])
+        mc = logical.monte_carlo[i] if i < len(logical.monte_carlo) else None
         if mc is not None:
             row["monte_carlo"] = {
                 "shots": mc.shots, "kept_fraction": mc.kept_fraction,
@@ -406,12 +416,39 @@ def logical_dict(patch: Patch, logical: LogicalRanking, top: int = 10,
                 else mc.decoded_errors / mc.shots,
                 "decoded_interval": None if mc.decoded_errors is None
                 else list(mc.interval("decoded"))}
+        stats = logical.decoded[i] if i < len(logical.decoded) else None
+        if stats is not None:
+            low, high = stats.interval()
+            row["decoded"] = {
+                "shots": stats.shots, "errors": stats.errors, "per_shot": stats.rate,
+                "per_shot_interval": [low, high],
+                "per_round": per_round(stats.rate, logical.rounds),
+                "per_round_interval": [per_round(low, logical.rounds),
+                                       per_round(high, logical.rounds)]}
         rows.append(row)
-    method = "stim detector error model, lowest order"
+    out: Json = {"figure": logical.figure, "placements": len(logical.placements), "top": rows,
+                 "method": _logical_method(logical, sampled), "rounds": logical.rounds}
+    if logical.estimate_order is not None:
+        out["estimate"] = {"order": logical.estimate_order,
+                           "fault_distance": logical.estimate_distance,
+                           "complete": logical.estimate_complete}
+    return out
+
+
+def _logical_method(logical: LogicalRanking, sampled: bool) -> str:
+    if logical.figure == "decoded":
+        return (f"the {len(logical.decoded)} placements listed, chosen by the decoded estimate "
+                f"(order {logical.estimate_order}), sampled adaptively (stim, pymatching, "
+                "seeded) and sorted by decoded logical error; Wilson 95% intervals")
+    if logical.figure == "estimate":
+        method = (f"leading-order decoded logical error per shot, fault sets of up to "
+                  f"{logical.estimate_order} faults (ceil(d/2), d = {logical.estimate_distance})"
+                  " decided by exact matching on stim's detector error model")
+    else:
+        method = "stim detector error model, lowest order"
     if sampled:
         method += "; Monte Carlo with Wilson 95% intervals"
-    return {"figure": logical.figure, "placements": len(logical.placements), "top": rows,
-            "method": method}
+    return method
 
 
 def best_first_dict(patch: Patch, best: BestPlacements | None) -> dict[str, Any] | None:

@@ -102,6 +102,14 @@ def _factor(value: float | None) -> str:
     return "inf" if value is None else f"{value:.3g}"
 
 
+def _ranking_words(ranking: str) -> str:
+    if ranking == "estimate":         # what pipeline.forecast.rank_by_estimate does
+        return ("the decoded-logical estimate (leading order: ceil(d/2) faults, from the "
+                "detector error model; at distance 3 to 5 and up to 1000 placements, else "
+                "the fidelity product)")
+    return ranking.replace("_", " ")
+
+
 def render_forecast_text(payload: Json) -> str:
     """The forecast for a terminal: per distance today, the verdicts, the scaled table."""
     chip, sampling = payload["chip"], payload["sampling"]
@@ -109,7 +117,7 @@ def render_forecast_text(payload: Json) -> str:
     lines = [f"Forecast: {payload['family']} code ({payload['basis'].upper()} memory) on chip "
              f"'{chip['name']}'" + (f", calibration of {chip['calibration_timestamp']}"
                                     if chip["calibration_timestamp"] else ""),
-             f"  placements ranked by {payload['ranking'].replace('_', ' ')}; up to "
+             f"  placements ranked by {_ranking_words(payload['ranking'])}; up to "
              f"{sampling['shots']} shots or {sampling['max_errors']} logical errors per point; "
              f"{sampling['new_shots']} shots sampled now, {sampling['reused_shots']} reused"
              + (f" from {sampling['samples_file']}" if sampling["samples_file"] else ""),

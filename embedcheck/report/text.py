@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import math
+from typing import Any
 
 __all__ = ["format_score", "render_audit", "render_check", "render_chip", "render_find",
            "render_patch", "render_repair"]
@@ -164,21 +165,7 @@ def render_find(d: dict) -> str:
         out += ["", f"Note: {d['logical_note']}."]
     logical = d.get("logical")
     if logical:
-        out += ["", f"Ranked by {logical['figure']} ({logical['method']}; "
-                    f"{logical['placements']} swap-free placements):",
-                f"  {'rank':>4} {'undetected':>11} {'kept':>7}  placement"]
-        for r in logical["top"]:
-            out.append(f"  {r['rank']:>4} {r['undetected']:>11.3e} {r['kept']:>7.4f}  "
-                       f"{_placement(r['qubits'])}")
-            mc = r.get("monte_carlo")
-            if mc:
-                lo, hi = mc["post_selected_interval"]
-                line = (f"         Monte Carlo {mc['shots']} shots: post-selected "
-                        f"{mc['post_selected_logical_error']:.3e} [{lo:.2e}, {hi:.2e}], kept "
-                        f"{mc['kept_fraction']:.4f}, raw {mc['raw_logical_error']:.3e}")
-                if mc["decoded_logical_error"] is not None:
-                    line += f", decoded {mc['decoded_logical_error']:.3e}"
-                out.append(line)
+        out += [""] + _logical_rows(logical)
     if d.get("sensitivity"):
         out += ["", "What moves the best placement's score most (log contribution; d log S / d "
                     "figure):"]
@@ -424,3 +411,46 @@ def _best_first_lines(b: dict | None) -> list[str]:
         head += (f"{b['found']} found, not proven (the work budget ran out): a placement left "
                  f"out may score {gap} higher. They are ranked with the rest below.")
     return [head] + [f"Note: {note}." for note in b["notes"]]
+
+
+def _logical_rows(logical: dict[str, Any]) -> list[str]:
+    """The ranking by a logical figure: its deterministic figures, then what was sampled."""
+    estimate = logical.get("estimate")
+    out = [f"Ranked by {logical['figure']} ({logical['method']}; "
+           f"{logical['placements']} swap-free placements):"]
+    if estimate:
+        out.append(f"  (estimate: to order {estimate['order']}, fault sets of up to "
+                   f"{estimate['order']} faults; fault distance {estimate['fault_distance']}"
+                   + ("" if estimate["complete"] else "; INCOMPLETE: a budget cut it short")
+                   + "; a ranking figure, above the sampled rate near threshold)")
+    has_fast = any("undetected" in r for r in logical["top"])
+    head = f"  {'rank':>4}"
+    if "estimate" in (logical["top"][0] if logical["top"] else {}):
+        head += f" {'estimate':>10}"
+    if has_fast:
+        head += f" {'undetected':>11} {'kept':>7}"
+    out.append(head + "  placement")
+    for r in logical["top"]:
+        line = f"  {r['rank']:>4}"
+        if "estimate" in r:
+            line += f" {r['estimate']:>10.3e}"
+        if has_fast:
+            line += f" {r['undetected']:>11.3e} {r['kept']:>7.4f}"
+        out.append(f"{line}  {_placement(r['qubits'])}")
+        decoded = r.get("decoded")
+        if decoded:
+            lo, hi = decoded["per_shot_interval"]
+            rlo, rhi = decoded["per_round_interval"]
+            out.append(f"         decoded {decoded['per_shot']:.3e} per shot [{lo:.2e}, {hi:.2e}], "
+                       f"{decoded['per_round']:.3e} per round [{rlo:.2e}, {rhi:.2e}] "
+                       f"({decoded['errors']} errors in {decoded['shots']} shots)")
+        mc = r.get("monte_carlo")
+        if mc:
+            lo, hi = mc["post_selected_interval"]
+            line = (f"         Monte Carlo {mc['shots']} shots: post-selected "
+                    f"{mc['post_selected_logical_error']:.3e} [{lo:.2e}, {hi:.2e}], kept "
+                    f"{mc['kept_fraction']:.4f}, raw {mc['raw_logical_error']:.3e}")
+            if mc["decoded_logical_error"] is not None:
+                line += f", decoded {mc['decoded_logical_error']:.3e}"
+            out.append(line)
+    return out

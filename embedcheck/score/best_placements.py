@@ -48,7 +48,7 @@ from ..place.search import check_request, chip_graph
 from ..place.symmetry import directional_arcs, interaction_pattern, symmetry_group
 from .cost import experiment_counts, rank_placements
 from .idle import idle_channel
-from .schedule import circuit_timing
+from .schedule import run_idles
 
 __all__ = ["BestPlacements", "find_best_placements"]
 
@@ -212,16 +212,11 @@ def _idle_costs(patch, placed, cal, physical) -> np.ndarray:
                       measurement_ns=median(cal.measurement_ns))          # duration
     grid = np.zeros((1, patch.num_qubits), dtype=np.int64)
     t1, t2 = cal.t1_us[physical], cal.t2_us[physical]
-    for name, times in patch.experiment():
-        timing = circuit_timing(patch, name, grid, typical)
-        finish, first, busy, started = timing.finish, timing.first, timing.busy, timing.started
-        base = np.where(started[:, None], np.maximum(finish - first - busy, 0.0), 0.0)[:, 0]
-        for again, count in ((False, 1), (True, times - 1)):
-            if count <= 0:
-                continue
-            waiting = {patch.index[q] for q in patch.waiting(name, again)}
-            for j, q in enumerate(placed):
-                t = max(float(finish[0] - busy[q, 0]), 0.0) if q in waiting else base[q]
+    for run in run_idles(patch, grid, typical):        # the one idle rule, run by run
+        waited = run.idle_ns[0]
+        for j, q in enumerate(placed):
+            t = float(waited[q])
+            if t > 0:
                 with np.errstate(divide="ignore"):
-                    out[j] -= count * np.log1p(-idle_channel(t, t1, t2).total)
+                    out[j] -= run.times * np.log1p(-idle_channel(t, t1, t2).total)
     return out

@@ -10,13 +10,15 @@ fidelities" estimate, common practice):
       * prod_{circuit runs c, qubits q} (1 - p_idle(t_idle[c, q]; T1[q], T2[q]))
 
 over prep, `rounds` check rounds and readout. Idle times come from an
-as-soon-as-possible schedule of each circuit with the chip's durations (see
-`schedule.py`): a qubit idles from its first operation in a circuit (from the
-circuit's start when it already holds state) to the circuit's end, whenever it is not
-busy; the first and the later runs of a repeated circuit are scheduled apart. The idle
-error is the one idle model (`idle.py`): the Pauli-twirled amplitude and phase damping
-channel (the Pauli twirling approximation, Ghosh, Fowler & Geller, Phys. Rev. A 86,
-062318 (2012); the tests check it against qiskit's Kraus operators twirled numerically):
+as-soon-as-possible schedule of each circuit with the chip's durations and its idle
+rule (see `schedule.py`): a qubit idles between two of its operations, in one circuit
+or across circuits, unless the first left it in |0> (a Z-basis reset) or the second is a
+reset; never before its first operation or after its last. t_idle[c, q] sums the waits
+that end in run c; the first and the later runs of a repeated circuit are counted
+apart. The idle error is the one idle model (`idle.py`): the Pauli-twirled amplitude
+and phase damping channel (the Pauli twirling approximation, Ghosh, Fowler & Geller,
+Phys. Rev. A 86, 062318 (2012); the tests check it against qiskit's Kraus operators
+twirled numerically):
 
     p_x = p_y = (1 - exp(-t/T1)) / 4
     p_z       = (1 - exp(-t/T2)) / 2 - (1 - exp(-t/T1)) / 4
@@ -59,7 +61,7 @@ from ..model.device import CalibrationArrays, Device
 from ..model.patch import Patch
 from ..model.placement import Placement, check_placements, placement_grid
 from .idle import idle_channel
-from .schedule import circuit_timing, idle_times
+from .schedule import run_idles
 
 __all__ = ["CAUTION", "FIGURE", "TERMS", "Ranking", "Sensitivity", "SnapshotRanking",
            "experiment_counts", "rank_across_snapshots", "rank_placements", "scores",
@@ -130,26 +132,30 @@ def scores(device: Device, patch: Patch, grid: np.ndarray,
         terms["reset"] = (np.log1p(-cal.reset_error[grid]) * resets).sum(axis=1)
         idle = np.zeros(count)
         t1, t2 = np.ascontiguousarray(cal.t1_us[grid].T), np.ascontiguousarray(cal.t2_us[grid].T)
-        for name, times in patch.experiment():
-            # One schedule per circuit; its runs differ only in which qubits idle from time
-            # 0, so the log factors are built once per qubit and swapped in per run.
-            timing = circuit_timing(patch, name, grid, cal)
-            finish, busy = timing.finish, timing.busy
-            base = np.where(timing.started[:, None],
-                            np.maximum(finish - timing.first - busy, 0.0), 0.0)
-            log_base = np.log1p(-idle_channel(base, t1, t2).total)    # (qubits, placements)
-            total = log_base.sum(axis=0)
-            for again, runs in ((False, 1), (True, times - 1)):
-                if runs <= 0:
-                    continue
-                run = total.copy()
-                for q in sorted(patch.waiting(name, again), key=patch.index.__getitem__):
-                    i = patch.index[q]
-                    from_start = np.maximum(finish - busy[i], 0.0)
-                    run += np.log1p(-idle_channel(from_start, t1[i], t2[i]).total) - log_base[i]
-                idle += runs * run
+        timing, log_inner, base = None, np.zeros((0, count)), np.zeros(count)
+        for run in run_idles(patch, grid, cal):         # each circuit scheduled once
+            if run.timing is not timing:                # its waits within: once per circuit
+                timing = run.timing
+                log_inner = _log_no_idle(timing.inner, t1, t2)
+                base = log_inner.sum(axis=0)
+            total = base.copy()
+            for k, row in enumerate(run.entry_rows):    # waits reaching in from before
+                waited = timing.inner[row] + run.entry[k]
+                total += _log_no_idle(waited, t1[row], t2[row]) - log_inner[row]
+            idle += run.times * total
         terms["idle"] = idle
     return terms, unscored
+
+
+def _log_no_idle(waited: np.ndarray, t1: np.ndarray, t2: np.ndarray) -> np.ndarray:
+    """log(1 - p_idle) of the waits (same shapes), computed only where a row waits at all."""
+    out = np.zeros(waited.shape)
+    if waited.ndim == 1:
+        return np.log1p(-idle_channel(waited, t1, t2).total) if waited.any() else out
+    rows = np.flatnonzero(waited.any(axis=1))
+    if rows.size:
+        out[rows] = np.log1p(-idle_channel(waited[rows], t1[rows], t2[rows]).total)
+    return out
 
 
 def rank_placements(device: Device, patch: Patch, placements: Sequence[Placement]) -> Ranking:
@@ -264,10 +270,8 @@ def sensitivity(device: Device, patch: Patch, placement: Placement,
                                log_contribution=n * np.log1p(-e), derivative=-n / (1 - e)))
     grid = placement_grid([placement], patch.num_qubits)
     arrays = device.calibration_arrays            # built once per device, then cached
-    timings = {name: circuit_timing(patch, name, grid, arrays) for name, _ in patch.experiment()}
-    idle_ns = {(name, again): idle_times(patch, name, grid, arrays, again=again,
-                                         timing=timings[name])[0]
-               for name, again, _ in patch.runs()}      # every qubit's, scheduled once
+    idle_ns = {(run.circuit, run.again): run.idle_ns[0]       # every qubit's, scheduled once
+               for run in run_idles(patch, grid, arrays)}
     for i, phys in enumerate(where):
         cal = device.qubit_calibration.get(phys)
         if cal is None:

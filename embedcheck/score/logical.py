@@ -21,6 +21,14 @@ observable (Gidney, "Stim: a fast stabilizer circuit simulator", Quantum 5, 497 
 - Decoded (on request, when the DEM is graph-like after `decompose_errors=True`): the
   logical error after minimum-weight perfect matching with pymatching (Higgott &
   Gidney, "Sparse Blossom", Quantum 9, 1600 (2025); value from memory).
+- `estimate` (for codes whose fault distance is 3 or more, where `undetected` is 0 to the
+  order it is taken): the deterministic leading-order estimate of the decoded logical
+  error per shot (`estimate.decoded_logical_estimate`), from the DEM and the decoder's
+  own decisions, with no sampling.
+- `decoded` (with Monte Carlo shots): the listed placements, chosen by `estimate` (or by
+  `undetected` for codes of fault distance 1 or 2), sampled adaptively
+  (`sampling.sample_adaptively`: shots go where a placement's interval still overlaps the
+  leader's) and sorted by their sampled decoded logical error.
 
 These are model estimates from user-supplied calibration, like every score here.
 
@@ -40,13 +48,17 @@ from ..errors import InputError
 from ..model.device import Device
 from ..model.patch import Patch
 from ..model.placement import Placement
+from .estimate import DecodedEstimate, decoded_logical_estimate
 from .noise import noisy_circuit, stim_experiment
+from .sampling import DecodedStats, sample_adaptively, wilson
 
-__all__ = ["FIGURES", "FastScore", "LogicalRanking", "MonteCarlo", "decode_observables",
-           "fast_score", "fast_scores", "monte_carlo", "rank_by_logical", "require_detectors",
-           "undetected_zero_everywhere", "wilson"]
+__all__ = ["FIGURES", "LOGICAL_FIGURES", "FastScore", "LogicalRanking", "MonteCarlo",
+           "decode_observables", "decoder_model", "estimate_scores", "fast_score", "fast_scores",
+           "monte_carlo", "rank_by_logical", "require_detectors", "undetected_zero_everywhere",
+           "wilson"]
 
-FIGURES = ("undetected", "kept", "fidelity_product")
+FIGURES = ("estimate", "undetected", "kept", "fidelity_product")
+LOGICAL_FIGURES = ("estimate", "decoded", "undetected", "kept")
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -83,24 +95,6 @@ class MonteCarlo:
                 "kept": (self.kept, self.shots),
                 "decoded": (self.decoded_errors or 0, self.shots)}[which]
         return wilson(k, n, z)
-
-
-def wilson(k: int, n: int, z: float = 1.96) -> tuple[float, float]:
-    """Wilson score interval for k successes in n trials (Wilson 1927).
-
-    >>> tuple(round(x, 4) for x in wilson(5, 100))
-    (0.0215, 0.1118)
-    >>> wilson(0, 2000)[0], wilson(7, 7)[1]
-    (0.0, 1.0)
-    """
-    if n == 0:
-        return 0.0, 1.0
-    p = k / n
-    centre = (p + z * z / (2 * n)) / (1 + z * z / n)
-    half = z * math.sqrt(p * (1 - p) / n + z * z / (4 * n * n)) / (1 + z * z / n)
-    low = 0.0 if k == 0 else max(0.0, centre - half)      # exact ends, not rounding dust
-    high = 1.0 if k == n else min(1.0, centre + half)
-    return low, high
 
 
 def require_detectors(patch: Patch) -> None:
@@ -220,44 +214,140 @@ def decode_observables(circuit: Any, detections: np.ndarray) -> np.ndarray:
     """Observable predictions by matching; refuses, plainly, a DEM that is not graph-like."""
     import pymatching
 
+    matching = pymatching.Matching.from_detector_error_model(decoder_model(circuit))
+    return matching.decode_batch(detections)[:, 0]
+
+
+def decoder_model(circuit: Any) -> Any:
+    """The circuit's DEM as matching reads it: `decompose_errors=True` (graph-like pieces)
+    and `approximate_disjoint_errors=True` (the idle channel's X, Y and Z are disjoint;
+    stim takes them as independent, exact to first order). A plain `InputError` when stim
+    cannot make it graph-like."""
     try:
-        dem = circuit.detector_error_model(decompose_errors=True)
+        return circuit.detector_error_model(decompose_errors=True,
+                                            approximate_disjoint_errors=True)
     except ValueError as exc:
         raise InputError("this patch's error model cannot be matched: some faults flip more than "
                          "two detectors and stim cannot decompose them into graph-like pieces "
                          f"({str(exc).splitlines()[0][:120]})") from None
-    matching = pymatching.Matching.from_detector_error_model(dem)
-    return matching.decode_batch(detections)[:, 0]
+
+
+def estimate_scores(device: Device, patch: Patch, placements: Sequence[Placement], *,
+                    executor: Any = None,
+                    progress: Callable[[int], None] | None = None) -> list[DecodedEstimate]:
+    """The decoded-logical estimate of every placement (`estimate.py`), in chunks on
+    `executor` (an `engine.Executor`; default: this process). Every worker keeps the
+    enumeration it built for the patch's decoder graph, so a chunk costs one enumeration
+    and then one cheap evaluation per placement."""
+    require_detectors(patch)
+    if not placements:
+        return []
+    from ..engine import SerialExecutor, Task
+    run = executor or SerialExecutor()
+    workers = getattr(run, "processes", 1)
+    size = max(4, -(-len(placements) // (4 * workers))) if workers > 1 else 25
+    chunks = [list(placements[i:i + size]) for i in range(0, len(placements), size)]
+    tasks = [Task(key=str(k), function=_estimate_chunk, argument=(device, patch, chunk))
+             for k, chunk in enumerate(chunks)]
+    out: dict[int, list[DecodedEstimate]] = {}
+    done_count = 0
+    for done in run.results(tasks):
+        if done.error:
+            if done.error.startswith("InputError: "):
+                raise InputError(done.error[len("InputError: "):])
+            raise RuntimeError(f"estimate failed: {done.error}")
+        out[int(done.key)] = done.value
+        done_count += len(done.value)
+        if progress is not None:
+            progress(done_count)
+    return [e for k in range(len(chunks)) for e in out[k]]
+
+
+def _estimate_chunk(job: tuple[Device, Patch, list[Placement]]) -> list[DecodedEstimate]:
+    device, patch, placements = job
+    return [decoded_logical_estimate(decoder_model(noisy_circuit(device, patch, p)))
+            for p in placements]
 
 
 @dataclass(frozen=True, kw_only=True)
 class LogicalRanking:
-    """Swap-free placements ordered by a logical figure (lower `undetected` first, or higher
-    `kept` first), with both fast figures and, for the top ones, Monte Carlo results."""
+    """Swap-free placements ordered by a logical figure (lowest `undetected`, `estimate` or
+    sampled `decoded` logical error first, or highest `kept`), with the figures computed
+    and, for the listed ones, Monte Carlo results (`monte_carlo`: fixed shots, raw and
+    post-selected; `decoded`: adaptive decoded sampling, for figure 'decoded')."""
 
     figure: str
     placements: tuple[Placement, ...]
-    undetected: np.ndarray
-    kept: np.ndarray
+    undetected: np.ndarray | None
+    kept: np.ndarray | None
     monte_carlo: tuple[MonteCarlo | None, ...]
+    estimate: np.ndarray | None = None
+    estimate_order: int | None = None           # fault sets of up to this many faults
+    estimate_distance: int | None = None        # the distance the order comes from
+    estimate_complete: bool = True              # no enumeration budget cut it short
+    decoded: tuple[DecodedStats | None, ...] = ()
+    rounds: int = 1
+
+    @property
+    def preselected_by(self) -> str:
+        """The deterministic figure that chose the placements to sample (figure 'decoded')."""
+        return "estimate" if self.estimate is not None else "undetected"
 
 
 def rank_by_logical(device: Device, patch: Patch, placements: Sequence[Placement], *,
                     figure: str = "undetected", monte_carlo_shots: int = 0, top: int = 10,
                     decode: bool = False, seed: int = 7, processes: int = 1,
-                    progress: Callable[[int], None] | None = None) -> LogicalRanking:
-    """Rank swap-free placements by `undetected` (ascending) or `kept` (descending)."""
-    if figure not in ("undetected", "kept"):
-        raise InputError(f"figure must be 'undetected' or 'kept', not {figure!r}")
+                    executor: Any = None,
+                    progress: Callable[[str, int], None] | None = None) -> LogicalRanking:
+    """Rank swap-free placements by a logical figure: 'undetected' or 'estimate'
+    (ascending), 'kept' (descending), or 'decoded': the `top` placements by 'estimate'
+    sampled adaptively on `executor` (up to `monte_carlo_shots` each) and sorted by their
+    decoded logical error. Otherwise `monte_carlo_shots` samples the `top` placements
+    (raw and post-selected; `decode` adds matching). `progress(stage, count)`."""
+    if figure not in LOGICAL_FIGURES:
+        raise InputError(f"figure must be one of {', '.join(LOGICAL_FIGURES)}, not {figure!r}")
     require_detectors(patch)
-    fast = fast_scores(device, patch, placements, processes=processes, progress=progress)
-    und = np.array([f.undetected for f in fast])
-    kept = np.array([f.kept for f in fast])
-    order = np.lexsort((-kept, und)) if figure == "undetected" else np.lexsort((und, -kept))
-    ranked = tuple(placements[i] for i in order)
-    mc: list[MonteCarlo | None] = []
-    for k, placement in enumerate(ranked):
-        mc.append(monte_carlo(device, patch, placement, shots=monte_carlo_shots, seed=seed + k,
-                              decode=decode) if monte_carlo_shots and k < top else None)
-    return LogicalRanking(figure=figure, placements=ranked, undetected=und[order],
-                          kept=kept[order], monte_carlo=tuple(mc))
+    if figure == "decoded" and not monte_carlo_shots:
+        raise InputError("ranking by the decoded logical error samples it: give --monte-carlo "
+                         "SHOTS", key="--decode")
+    tick = (lambda n: progress("scoring", n)) if progress else None
+    und = kept = est = None
+    order_info: tuple[int | None, int | None, bool] = (None, None, True)
+    if figure in ("undetected", "kept"):
+        fast = fast_scores(device, patch, placements, processes=processes, progress=tick)
+        und = np.array([f.undetected for f in fast])
+        kept = np.array([f.kept for f in fast])
+        order = np.lexsort((-kept, und)) if figure == "undetected" else np.lexsort((und, -kept))
+    else:
+        estimates = estimate_scores(device, patch, placements, executor=executor, progress=tick)
+        est = np.array([e.value for e in estimates])
+        order = np.argsort(est, kind="stable")
+        if estimates:
+            worst = max(estimates, key=lambda e: e.order)
+            order_info = (worst.order, max(worst.distance or 0, worst.circuit_distance or 0)
+                          or None, all(e.complete for e in estimates))
+    ranked = [placements[i] for i in order]
+    pick = lambda a: None if a is None else a[order]          # noqa: E731
+    und, kept, est = pick(und), pick(kept), pick(est)
+    mc: list[MonteCarlo | None] = [None] * len(ranked)
+    decoded: list[DecodedStats | None] = []
+    if figure == "decoded":
+        listed = min(top, len(ranked))
+        circuits = {f"{k:07d}": noisy_circuit(device, patch, p)
+                    for k, p in enumerate(ranked[:listed])}
+        stats = sample_adaptively(circuits, max_shots=monte_carlo_shots, executor=executor,
+                                  seed=seed, progress=(lambda done, _total: progress(
+                                      "sampling", done)) if progress else None)
+        again = sorted(range(listed), key=lambda k: (stats[f"{k:07d}"].rate, k))
+        resort = np.array(again + list(range(listed, len(ranked))), dtype=np.int64)
+        ranked = [ranked[i] for i in resort]
+        est = None if est is None else est[resort]
+        decoded = [stats[f"{k:07d}"] for k in again]
+    elif monte_carlo_shots:
+        for k, placement in enumerate(ranked[:top]):
+            mc[k] = monte_carlo(device, patch, placement, shots=monte_carlo_shots,
+                                seed=seed + k, decode=decode)
+    return LogicalRanking(figure=figure, placements=tuple(ranked), undetected=und, kept=kept,
+                          monte_carlo=tuple(mc), estimate=est, estimate_order=order_info[0],
+                          estimate_distance=order_info[1], estimate_complete=order_info[2],
+                          decoded=tuple(decoded), rounds=max(1, patch.rounds))

@@ -19,10 +19,12 @@ With a device and a placement, each reported figure becomes a stim noise channel
   just before each measurement, mid-circuit ones included.
 - Reset error e: `X_ERROR(e)` just after each reset.
 - Idling: `PAULI_CHANNEL_1(px, py, pz)` of the one idle model (`idle.py`, Ghosh, Fowler &
-  Geller, Phys. Rev. A 86, 062318 (2012)), placed where the one schedule (`schedule.py`)
-  has the qubit wait: before an operation that starts after the qubit was free (or
-  after the circuit started, for a qubit that already holds state), and at the end of
-  each circuit.
+  Geller, Phys. Rev. A 86, 062318 (2012)) for each wait the idle rule of the one
+  schedule (`schedule.py`) counts, just before the operation that ends the wait: none
+  while a qubit sits in |0> (never used, or just reset in the Z basis), none before a
+  reset, none after a qubit's last operation. One channel for a whole wait equals one
+  per piece of it: the twirled channel's Pauli eigenvalues, exp(-t/T1) and exp(-t/T2),
+  multiply.
 
 Gates that land off-coupler have no coupler error: a noisy circuit is only built for
 placements where every circuit is swap-free.
@@ -48,7 +50,7 @@ from ..model.device import Device, pair
 from ..model.patch import Operation, Patch
 from ..model.placement import Placement, check_placements
 from .idle import idle_channel
-from .schedule import Timing, circuit_timing
+from .schedule import RunIdle, run_idles
 
 if TYPE_CHECKING:
     import stim
@@ -84,21 +86,21 @@ def stim_experiment(patch: Patch, *, device: Device | None = None,
     given a device and a placement, with the chip's noise (see the module docstring)."""
     import stim
 
-    timings: dict[str, Timing] = {}
-    if device is not None and placement is not None:
-        grid = check_placements(device, patch, [placement])
-        timings = {name: circuit_timing(patch, name, grid, device.calibration_arrays,
-                                        record_waits=True) for name, _ in patch.experiment()}
     circuit = stim.Circuit()
     measured = 0
-    for name, again, times in patch.runs():
-        if device is not None and placement is not None:
-            body, count = _noisy_run(patch, name, again, device, placement, timings[name])
-        else:
+    if device is not None and placement is not None:
+        grid = check_placements(device, patch, [placement])
+        for run in run_idles(patch, grid, device.calibration_arrays, record_waits=True):
+            body, count = _noisy_run(patch, run, device, placement)
+            for _ in range(run.times):
+                circuit += body
+            measured += count * run.times
+    else:
+        for name, _, times in patch.runs():
             body, count = _plain_run(patch, name)
-        for _ in range(times):
-            circuit += body
-        measured += count * times
+            for _ in range(times):
+                circuit += body
+            measured += count * times
     if detectors:
         append_detectors(circuit, patch, measured)
     return circuit
@@ -130,34 +132,34 @@ def _plain_run(patch: Patch, name: str) -> tuple[stim.Circuit, int]:
     return body, count
 
 
-def _noisy_run(patch: Patch, name: str, again: bool, device: Device, placement: Placement,
-               timing: Timing) -> tuple[stim.Circuit, int]:
-    """One run of a circuit with noise; `again`: a later run of a repeated circuit (the
-    schedule is the same, only the qubits already holding state differ)."""
+def _noisy_run(patch: Patch, run: RunIdle, device: Device,
+               placement: Placement) -> tuple[stim.Circuit, int]:
+    """One run of a circuit with noise: each operation's noise, and before it the idle
+    channel of every wait the idle rule counts (`schedule.py`), one channel per wait."""
     import stim
 
-    assert timing.waits is not None and timing.free is not None
+    timing = run.timing
+    assert timing.waits is not None
     where = placement.as_dict(patch)
     index = patch.index
     qcal = device.qubit_calibration
     body = stim.Circuit()
     count = 0
-    started: set[str] = set(patch.waiting(name, again))     # these idle from time 0
-    for op, waits in zip(patch.circuits[name].operations, timing.waits, strict=True):
-        qs = op.qubits
-        if op.kind != "barrier":
-            _refuse_conditional(op, name)
-        for q, wait in zip(qs, waits, strict=True):
-            if q in started:
-                _idle(body, index[q], float(wait[0]), qcal.get(where[q]))
+    seen: set[str] = set()
+    entry = dict(zip(run.entry_rows.tolist(), run.entry[:, 0].tolist(), strict=True))
+    for op, waits in zip(patch.circuits[run.circuit].operations, timing.waits, strict=True):
         if op.kind == "barrier":
             continue
-        _append(body, op, [index[q] for q in qs], name, device, [where[q] for q in qs])
+        qs = op.qubits
+        _refuse_conditional(op, run.circuit)
+        for q, wait in zip(qs, waits, strict=True):
+            t = float(wait[0])
+            if q not in seen:                 # its wait reaches back into the runs before
+                seen.add(q)
+                t += entry.get(index[q], 0.0)
+            _idle(body, index[q], t, qcal.get(where[q]))
+        _append(body, op, [index[q] for q in qs], run.circuit, device, [where[q] for q in qs])
         count += op.kind == "measure"
-        started.update(qs)
-    end = float(timing.finish[0])
-    for q in sorted(started, key=index.__getitem__):   # a fixed order: same circuit every run
-        _idle(body, index[q], end - float(timing.free[index[q], 0]), qcal.get(where[q]))
     return body, count
 
 

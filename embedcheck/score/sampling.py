@@ -7,9 +7,10 @@ weight perfect matching (pymatching: Higgott & Gidney, "Sparse Blossom", Quantum
 ones. It stops at `shots` or once `max_errors` logical errors were seen (the usual stopping
 rule of a Monte Carlo of logical error: common practice). The same seed gives the same
 counts, so sweeps and projections are reproducible; sinter's samplers are not seeded,
-which is why this exists (bench/projection.py compares its throughput with sinter's).
+which is why this exists (bench/forecast.py compares its throughput with sinter's).
 
-Intervals are Wilson score intervals (`logical.wilson`); the
+Intervals are Wilson score intervals (`wilson`; Wilson, J. Am. Stat. Assoc. 22, 209
+(1927)); the
 per-round figure inverts p_shot = (1 - (1 - 2 p_round)^r) / 2 (independent rounds, each
 flipping the observable with probability p_round: common practice).
 
@@ -27,11 +28,27 @@ import math
 import sqlite3
 from dataclasses import dataclass, field
 
-from .logical import wilson
-
 __all__ = ["ChunkedRun", "DecodedStats", "SampleStore", "chunk_seed", "circuit_key",
            "per_round", "sample_adaptively", "sample_chunk", "sample_decoded",
            "sample_in_chunks", "wilson"]
+
+
+def wilson(k: int, n: int, z: float = 1.96) -> tuple[float, float]:
+    """Wilson score interval for k successes in n trials (Wilson 1927).
+
+    >>> tuple(round(x, 4) for x in wilson(5, 100))
+    (0.0215, 0.1118)
+    >>> wilson(0, 2000)[0], wilson(7, 7)[1]
+    (0.0, 1.0)
+    """
+    if n == 0:
+        return 0.0, 1.0
+    p = k / n
+    centre = (p + z * z / (2 * n)) / (1 + z * z / n)
+    half = z * math.sqrt(p * (1 - p) / n + z * z / (4 * n * n)) / (1 + z * z / n)
+    low = 0.0 if k == 0 else max(0.0, centre - half)      # exact ends, not rounding dust
+    high = 1.0 if k == n else min(1.0, centre + half)
+    return low, high
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -74,9 +91,11 @@ def sample_decoded(circuit, *, shots: int, max_errors: int | None = None,
                    seed: int | None = None, dem=None, matching=None) -> DecodedStats:
     """Sample and decode `circuit` until `shots` or `max_errors` (see the module docstring).
 
-    `dem`: the circuit's detector error model with `decompose_errors=True`, when the caller
-    already has it; `matching`: the `pymatching.Matching` built from it (the model is then
-    not needed). Raises `ValueError` when stim cannot make the model graph-like.
+    `dem`: the circuit's detector error model (graph-like: `decompose_errors=True`, and
+    `approximate_disjoint_errors=True`, which the noisy circuit's idle channels need), when
+    the caller already has it; `matching`: the `pymatching.Matching` built from it (the
+    model is then not needed). Raises `ValueError` when stim cannot make the model
+    graph-like.
     """
     import time
 
@@ -85,7 +104,8 @@ def sample_decoded(circuit, *, shots: int, max_errors: int | None = None,
     started = time.perf_counter()
     if matching is None:
         if dem is None:
-            dem = circuit.detector_error_model(decompose_errors=True)
+            dem = circuit.detector_error_model(decompose_errors=True,
+                                               approximate_disjoint_errors=True)
         matching = pymatching.Matching.from_detector_error_model(dem)
     sampler = circuit.compile_detector_sampler(seed=seed)
     done = errors = 0
@@ -162,7 +182,7 @@ def _decoder(text: str):
     import pymatching
     import stim
     circuit = stim.Circuit(text)
-    dem = circuit.detector_error_model(decompose_errors=True)
+    dem = circuit.detector_error_model(decompose_errors=True, approximate_disjoint_errors=True)
     return circuit, pymatching.Matching.from_detector_error_model(dem)
 
 
@@ -210,11 +230,13 @@ def sample_adaptively(circuits, *, max_shots: int, first_shots: int | None = Non
     rounds = 0
     while open_:
         tasks = []
+        scheduled: set[str] = set()            # identical circuits share their chunks
         for name in open_:
             key, have = keys[name], store.total(keys[name]).shots
             taken = store.chunks(key)
-            if have >= max_shots:
+            if have >= max_shots or key in scheduled:
                 continue
+            scheduled.add(key)
             chunk = (max(taken) + 1) if taken else 0
             n = min(size[name], max_shots - have)
             size[name] *= 2

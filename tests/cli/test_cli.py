@@ -245,16 +245,17 @@ def test_project_rule_naming_a_missing_circuit(tmp_path, capsys):
 
 
 def test_worker_processes_scores_and_internal_errors(tmp_path, capsys, monkeypatch):
-    # --processes 2 pickles devices and patches for the workers; a distance-5 code gets a
-    # note instead of a column of zeros; tiny scores keep their digits; a bug of ours is
-    # one line and exit 3.
+    # --processes 2 pickles devices and patches for the workers; a distance-5 code (no one
+    # or two faults flip its observable unseen) is ranked by the decoded estimate, to order
+    # 3, computed in the workers; tiny scores keep their digits; a bug of ours is one line
+    # and exit 3.
     from embedcheck.report.text import format_score
     rep = tmp_path / "rep5.yaml"
     assert main(["code", "repetition", "--distance", "5", "--rounds", "3", "-o", str(rep)]) == 0
     capsys.readouterr()
     assert main(["find", str(DEMO_CHIP), str(rep), "--processes", "2"]) == 0
     out = capsys.readouterr().out
-    assert "no one or two faults flip the logical observable" in out
+    assert "Ranked by estimate" in out and "to order 3" in out
     assert format_score(1.234e-5) == "1.234e-05" and format_score(0.5974) == "0.5974"
     import embedcheck.pipeline.find as pipeline_find
     monkeypatch.setattr(pipeline_find, "vet_patch", lambda *a, **k: 1 / 0)

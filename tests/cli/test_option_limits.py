@@ -103,3 +103,25 @@ def test_counts_of_workers_and_cross_checks_are_bounded(capsys, argv, message):
     assert main([argv[0], str(ROOT / argv[1]), *argv[2:]]) == 2
     err = capsys.readouterr().err
     assert message in err and err.count("\n") == 1
+
+
+@pytest.mark.parametrize("argv,message", [
+    (["--distances", "3-2000000"], "--distances: 2000000 is above the limit of 101"),
+    (["--distances", "3,x"], "--distances: 'x' is not a distance or range"),
+    (["--max-distance", "999"], "argument --max-distance: 999 is above the limit of 101"),
+    (["--rounds", "5000"], "argument --rounds: 5000 is above the limit of 1000"),
+    (["--shots", "99999999999999"], "argument --shots: 99999999999999 is above the limit of"),
+    (["--max-errors", "99999999999999"], "argument --max-errors: 99999999999999 is above the"),
+    (["--seed", "-1"], "argument --seed: '-1' must be a whole number from 0 to 2^63 - 1"),
+    (["--workers", "1000000"], "argument --workers: 1000000 is above the limit of"),
+    (["--scales", ",".join(["1"] * 65)], "--scales: more than 64 scales"),
+])
+def test_forecast_options_are_bounded_before_any_work(capsys, tmp_path, argv, message):
+    # The forecast samples every distance at every scale: each of its sizes is bounded like
+    # find's and code's, and refused before a cluster starts or a samples file is made.
+    chip = ROOT / "devices/demo_grid.yaml"
+    assert main(["forecast", str(chip), "--family", "surface", "--serial",
+                 "--samples", str(tmp_path / "s.sqlite"), *argv]) == 2
+    err = capsys.readouterr().err
+    assert message in err and err.count("\n") == 1
+    assert not (tmp_path / "s.sqlite").exists()

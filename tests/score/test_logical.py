@@ -177,24 +177,91 @@ def test_auto_figure_falls_back_only_when_zero_on_every_placement(capsys):
     assert "Ranked by undetected" in out and "no one or two faults" not in out
 
 
-def test_monte_carlo_is_sampled_when_the_lowest_order_is_zero(capsys):
-    # Distance 5: 'undetected' is 0 everywhere, so with --monte-carlo the placements are
-    # ranked by 'kept' and sampled, and decoded logical errors are reported.
+def test_distance_five_is_ranked_by_the_estimate_or_by_sampled_decoded_error(capsys):
+    # Distance 5: 'undetected' is 0 everywhere, so 'auto' ranks by the decoded estimate
+    # (order ceil(5/2) = 3, stated in text and JSON); with --monte-carlo --decode the
+    # listed placements are sampled and ranked by their decoded logical error.
+    import importlib.resources
     import json
     import tempfile
     from pathlib import Path
+
+    import jsonschema
 
     from embedcheck.cli import main
     from embedcheck.model.codes import family_yaml
     with tempfile.TemporaryDirectory() as tmp:
         path = Path(tmp) / "rep5.yaml"
         path.write_text(family_yaml("repetition", distance=5, rounds=3))
+        assert main(["find", str(DEMO_CHIP), str(path), "--top", "2", "--limit", "40"]) == 0
+        text = capsys.readouterr().out
+        assert "Ranked by estimate" in text and "to order 3" in text
+        assert main(["find", str(DEMO_CHIP), str(path), "--top", "2", "--limit", "40",
+                     "--format", "json"]) == 0
+        estimated = json.loads(capsys.readouterr().out)
         assert main(["find", str(DEMO_CHIP), str(path), "--monte-carlo", "500", "--decode",
                      "--top", "2", "--limit", "40", "--format", "json"]) == 0
     data = json.loads(capsys.readouterr().out)
-    assert data["ranked_by"] == "kept" and "sampled" in data["logical_note"]
-    assert all(row["monte_carlo"]["decoded_logical_error"] is not None
-               for row in data["logical"]["top"])
+    schema = json.loads(importlib.resources.files("embedcheck.schemas")
+                        .joinpath("find-report.schema.json").read_text())
+    for report in (estimated, data):                 # the JSON Schema validator on both
+        jsonschema.validate(report, schema)
+    assert estimated["ranked_by"] == "estimate" and estimated["estimate_order"] == 3
+    assert data["ranked_by"] == "decoded" and data["estimate_order"] == 3
+    assert data["logical"]["estimate"] == {"order": 3, "fault_distance": 5, "complete": True}
+    rates = [row["decoded"]["per_shot"] for row in data["logical"]["top"]]
+    assert rates == sorted(rates) and all(row["decoded"]["shots"] > 0
+                                          for row in data["logical"]["top"])
+
+
+def test_estimate_ranks_like_decoded_monte_carlo_at_distance_three():
+    # Every placement of the surface code (d = 3, 3 rounds) on a 7 x 7 grid with seeded
+    # log-normal calibration: the estimate's Spearman rank correlation with sampled decoded
+    # logical error (20000 shots each, seeded). Measured 0.953 with these seeds (seeds 2-4:
+    # 0.975, 0.898, 0.930 at this shot count; MC noise is part of it).
+    from scipy.stats import spearmanr
+
+    from embedcheck import square_grid
+    from embedcheck.io.patchfile import patch_from_family
+    from embedcheck.score.logical import estimate_scores
+    from embedcheck.score.sampling import sample_decoded
+    from helpers import lognormal_calibration
+    patch = patch_from_family("surface", distance=3, rounds=3)
+    device = lognormal_calibration(Device.from_lattice(square_grid(7, 7), name="grid"), seed=1)
+    placements = list(vet_patch(device, patch).ranking.placements)
+    assert len(placements) == 18
+    estimate = [e.value for e in estimate_scores(device, patch, placements)]
+    sampled = [sample_decoded(noisy_circuit(device, patch, p), shots=20_000, seed=100 + i).rate
+               for i, p in enumerate(placements)]
+    assert spearmanr(estimate, sampled).statistic >= 0.9
+
+
+def test_surface_code_matches_stims_own_generator_under_uniform_noise():
+    # Reference: stim's generated rotated surface code with uniform noise, against our
+    # noisy circuit of the same gates (read from stim's noiseless circuit) on a grid chip
+    # whose figures convert to the same channels (two-qubit 4p/5, single-qubit 2p/3,
+    # readout and reset p; no T1/T2, so no idling); both decoded by pymatching.
+    from embedcheck import square_grid
+    from embedcheck.score.sampling import per_round, sample_decoded
+    p, d, rounds, shots = 0.005, 3, 3, 100_000
+    noiseless = stim.Circuit.generated("surface_code:rotated_memory_z", distance=d, rounds=rounds)
+    reference = stim.Circuit.generated("surface_code:rotated_memory_z", distance=d, rounds=rounds,
+                                       after_clifford_depolarization=p,
+                                       before_measure_flip_probability=p,
+                                       after_reset_flip_probability=p)
+    patch = patch_from_stim(noiseless, name="surface3")
+    lat = square_grid(5, 5)
+    device = Device.from_lattice(
+        lat, name="uniform", coupler_calibration={c: CouplerCalibration(p * 4 / 5, 300.0)
+                                                  for c in lat.couplers},
+        qubit_calibration={q: QubitCalibration(readout_error=p, reset_error=p,
+                                               single_qubit_error=p * 2 / 3) for q in lat.qubits})
+    placement = vet_patch(device, patch).ranking.placements[0]
+    ours = sample_decoded(noisy_circuit(device, patch, placement), shots=shots, seed=1)
+    theirs = sample_decoded(reference, shots=shots, seed=2)
+    lo1, hi1 = (per_round(x, rounds) for x in ours.interval())
+    lo2, hi2 = (per_round(x, rounds) for x in theirs.interval())
+    assert ours.errors > 300 and lo1 <= hi2 and lo2 <= hi1, (ours, theirs)
 
 
 def test_the_noisy_circuit_is_the_same_in_every_process(tmp_path):

@@ -13,39 +13,49 @@ from helpers import DEMO_CHIP, DEMO_PATCH, FIXED_PATCH
 
 def _idle_by_hand(device, patch, circuit, placement, again):
     """Idle ns per patch qubit from a plain per-placement as-soon-as-possible schedule,
-    written here independently of the package's one (vectorised) schedule: each operation
-    starts when its qubits are free; a qubit idles from its first operation (from 0 when it
-    already holds state) to the circuit's end whenever it is not busy."""
+    written here independently of the package's one (vectorised) schedule: the whole
+    experiment on one clock, each operation starting when its qubits are free; a qubit
+    idles between two of its operations unless the first was a Z-basis reset or the
+    second is a reset, and the wait belongs to the run holding the second."""
     where = placement.as_dict(patch)
-    free = dict.fromkeys(patch.qubits, 0.0)
-    busy = dict.fromkeys(patch.qubits, 0.0)
-    first = dict.fromkeys(patch.waiting(circuit, again), 0.0)
     cals = [device.coupler_calibration.get(c) for c in device.live_couplers]
     known = [c.duration_ns for c in cals if c is not None and c.duration_ns]
     median = sorted(known)[len(known) // 2] if len(known) % 2 else \
         sum(sorted(known)[len(known) // 2 - 1:len(known) // 2 + 1]) / 2
-    for op in patch.circuits[circuit].operations:
-        qs = op.qubits
-        if op.kind == "barrier":
-            t = max(free[q] for q in qs)
-            for q in qs:
-                free[q] = t
-            continue
-        phys = [where[q] for q in qs]
-        if op.kind == "2q":
-            c = device.coupler_calibration.get(tuple(sorted(phys)))
-            length = (c.duration_ns or 0.0) if device.is_coupled(*phys) and c else median
-        else:
-            cal = device.qubit_calibration[phys[0]]
-            length = (cal.single_qubit_duration_ns if op.kind == "1q"
-                      else cal.measurement_duration_ns) or 0.0
-        start = max(free[q] for q in qs)
-        for q in qs:
-            first.setdefault(q, start)
-            free[q] = start + length
-            busy[q] += length
-    end = max(free.values())
-    return {q: max(end - first[q] - busy[q], 0.0) if q in first else 0.0 for q in patch.qubits}
+    last_end, decays = {}, {}
+    clock = 0.0
+    per_run = []                                   # (circuit, repetition, idle dict)
+    for name, times in patch.experiment():
+        for repetition in range(times):
+            free = dict.fromkeys(patch.qubits, clock)
+            idle = dict.fromkeys(patch.qubits, 0.0)
+            for op in patch.circuits[name].operations:
+                qs = op.qubits
+                if op.kind == "barrier":
+                    t = max(free[q] for q in qs)
+                    for q in qs:
+                        free[q] = t
+                    continue
+                phys = [where[q] for q in qs]
+                if op.kind == "2q":
+                    c = device.coupler_calibration.get(tuple(sorted(phys)))
+                    length = (c.duration_ns or 0.0) if device.is_coupled(*phys) and c else median
+                else:
+                    cal = device.qubit_calibration[phys[0]]
+                    length = (cal.single_qubit_duration_ns if op.kind == "1q"
+                              else cal.measurement_duration_ns) or 0.0
+                start = max(free[q] for q in qs)
+                for q in qs:
+                    if q in last_end and decays[q] and op.kind != "reset":
+                        idle[q] += start - last_end[q]
+                    free[q] = last_end[q] = start + length
+                    decays[q] = not (op.kind == "reset" and op.written not in ("rx", "ry"))
+            clock = max(free.values())
+            per_run.append((name, repetition, idle))
+    runs = [idle for name, repetition, idle in per_run
+            if name == circuit and (repetition > 0) == again]
+    assert all(r == pytest.approx(runs[0]) for r in runs)     # every later run alike
+    return runs[0]
 
 
 def _product_by_hand(device, patch, placement):

@@ -39,17 +39,17 @@ def test_worked_example_by_hand():
                   rounds=2)
     (ranked,) = rank_placements(dev, patch, [Placement((0, 1))]).success
     # Per round: h on a (0..50 ns), cx (50..350), measure b (350..1350): the round ends at
-    # 1350 ns; a is busy 350 ns from its start at 0, so idles 1000 ns; b starts at 50,
-    # is busy 1300 ns. In the first round b is still in |0> before its cx (no decay); in
-    # the second it holds the first round's outcome, so it idles those 50 ns. Readout:
-    # both measured at once, no idling.
+    # 1350 ns; a waits 1000 ns from the end of its cx to its next operation (the next
+    # round's h, or the readout's measurement), a wait counted in the run it ends in. In
+    # the first round b is still in |0> before its cx (no decay); in the second it holds
+    # the first round's outcome, so it idles those 50 ns. Readout: both measured at once.
     p_idle_a = (1 - math.exp(-1.0 / 100)) / 4 + (1 - math.exp(-1.0 / 50)) / 2
     p_idle_b = (1 - math.exp(-0.05 / 100)) / 4 + (1 - math.exp(-0.05 / 100)) / 2
     one_round = (1 - 0.001) * (1 - 0.01) * (1 - 0.05) * (1 - p_idle_a)
     by_hand = one_round ** 2 * (1 - p_idle_b) * (1 - 0.02) * (1 - 0.05)
     assert ranked == pytest.approx(by_hand, rel=1e-12)
     s = schedule_circuit(dev, patch, "round", Placement((0, 1)))
-    assert s.duration_ns == 1350 and s.idle_ns == {"a": 1000.0, "b": 0.0}
+    assert s.duration_ns == 1350 and s.idle_ns == {"a": 0.0, "b": 0.0}
     later = schedule_circuit(dev, patch, "round", Placement((0, 1)), again=True)
     assert later.idle_ns == {"a": 1000.0, "b": 50.0}
 
@@ -274,37 +274,65 @@ def test_sdk_choice_is_swap_free_and_ranked():
     assert naive is None and "no layout" in status
 
 
-def test_who_holds_state_when_a_circuit_starts():
-    # prep touches d; the round resets a first, then uses d and a; readout measures d.
+def _timed(ops_by_circuit, rounds=1, qubits=("d", "a")):
+    """A two-qubit patch on a two-qubit line: 1q gates 100 ns, measure/reset 1000 ns, cx 300."""
+    cal = {q: QubitCalibration(t1_us=50.0, t2_us=40.0, single_qubit_duration_ns=100.0,
+                               measurement_duration_ns=1000.0) for q in (0, 1)}
+    dev = Device.from_lattice(line(2), name="pair", qubit_calibration=cal,
+                              coupler_calibration={(0, 1): CouplerCalibration(0.01, 300.0)})
+    patch = Patch("toy", qubits, {"d": "data", "a": "ancilla"},
+                  {name: Circuit(name, ops) for name, ops in ops_by_circuit.items()},
+                  rounds=rounds)
+    return dev, patch, Placement((0, 1))
+
+
+def test_waits_span_circuits_and_belong_to_the_run_they_end_in():
+    # prep touches d; the round resets a, then cx d, a and measures a; readout measures d.
     prep = (Operation("h", ("d",), "1q"),)
-    round_ops = (Operation("reset", ("a",), "reset"), Operation("cx", ("d", "a"), "2q"),
-                 Operation("measure", ("a",), "measure"))
+    round_ops = (Operation("reset", ("a",), "reset", written="reset"),
+                 Operation("cx", ("d", "a"), "2q"), Operation("measure", ("a",), "measure"))
     readout = (Operation("measure", ("d",), "measure"),)
-    patch = Patch("toy", ("d", "a"), {"d": "data", "a": "ancilla"},
-                  {"prep": Circuit("prep", prep), "round": Circuit("round", round_ops),
-                   "readout": Circuit("readout", readout)}, rounds=3)
+    dev, patch, where = _timed({"prep": prep, "round": round_ops, "readout": readout}, rounds=3)
     assert patch.runs() == [("prep", False, 1), ("round", False, 1), ("round", True, 2),
                             ("readout", False, 1)]
-    assert patch.waiting("prep") == frozenset()
-    assert patch.waiting("round") == {"d"}                  # a is reset first: nothing to lose
-    assert patch.waiting("round", again=True) == {"d"}
-    assert patch.waiting("readout") == {"d"}                 # a is never used again
+    idle = {(name, again): dict(schedule_circuit(dev, patch, name, where, again=again).idle_ns)
+            for name, again, _ in patch.runs()}
+    assert idle[("prep", False)] == {"d": 0.0, "a": 0.0}
+    # d: from the end of its h (100 ns) to its cx at 1000 ns (after a's reset): 1000 ns
+    # reach into the round (0 of prep's 100 ns are left after the h); a was reset: free.
+    assert idle[("round", False)] == {"d": 1000.0, "a": 0.0}
+    # Later rounds: d waits out a's measurement (1000 ns) and the next reset (1000 ns).
+    assert idle[("round", True)] == {"d": 2000.0, "a": 0.0}
+    # Readout: d waits through the last round's measurement of a; a is never used again.
+    assert idle[("readout", False)] == {"d": 1000.0, "a": 0.0}
 
 
-def test_a_qubit_never_used_again_does_not_wait():
-    # f is measured in prep and never touched again: its decay cannot matter later.
-    prep = (Operation("h", ("d",), "1q"), Operation("cx", ("d", "f"), "2q"),
-            Operation("measure", ("f",), "measure"))
-    readout = (Operation("measure", ("d",), "measure"),)
-    patch = Patch("toy", ("d", "f"), {"d": "data", "f": "flag"},
-                  {"prep": Circuit("prep", prep), "readout": Circuit("readout", readout)})
-    assert patch.waiting("readout") == {"d"}
+def test_a_qubit_reset_and_left_waiting_has_no_idle_time():
+    # a is reset at 0 (until 1000) and waits in |0> until its cx at 1300 (d is measured
+    # until then): not counted. d waits at the barrier for a's measurement (1600 to 2700)
+    # and is then reset: the reset erases that wait, so it does not count either.
+    ops = (Operation("reset", ("a",), "reset", written="reset"), Operation("h", ("d",), "1q"),
+           Operation("h", ("d",), "1q"), Operation("h", ("d",), "1q"),
+           Operation("measure", ("d",), "measure"), Operation("cx", ("a", "d"), "2q"),
+           Operation("h", ("a",), "1q"), Operation("measure", ("a",), "measure"),
+           Operation("barrier", ("a", "d"), "barrier"),
+           Operation("reset", ("d",), "reset", written="reset"))
+    dev, patch, where = _timed({"round": ops})
+    s = schedule_circuit(dev, patch, "round", where)
+    assert s.duration_ns == 3700 and s.idle_ns == {"d": 0.0, "a": 0.0}
+    # The same wait after an X-basis reset (|+> dephases) counts.
+    xops = (Operation("reset", ("a",), "reset", written="rx"),) + ops[1:]
+    dev, xpatch, where = _timed({"round": xops})
+    assert dict(schedule_circuit(dev, xpatch, "round", where).idle_ns) == {"d": 0.0, "a": 300.0}
 
 
 def test_a_qubit_reset_at_the_end_of_a_round_is_back_in_zero():
     # h d; cx d, a; measure a; reset a: a starts every round in |0>, as in the first.
     ops = (Operation("h", ("d",), "1q"), Operation("cx", ("d", "a"), "2q"),
-           Operation("measure", ("a",), "measure"), Operation("reset", ("a",), "reset"))
-    patch = Patch("toy", ("d", "a"), {"d": "data", "a": "ancilla"},
-                  {"round": Circuit("round", ops)}, rounds=3)
-    assert patch.waiting("round", again=True) == {"d"}
+           Operation("measure", ("a",), "measure"),
+           Operation("reset", ("a",), "reset", written="reset"))
+    dev, patch, where = _timed({"round": ops}, rounds=3)
+    first = schedule_circuit(dev, patch, "round", where)
+    later = schedule_circuit(dev, patch, "round", where, again=True)
+    # d: cx ends at 400, the round at 2400, next h at 0: 2000 ns, from the second round on.
+    assert first.idle_ns == {"d": 0.0, "a": 0.0} and later.idle_ns == {"d": 2000.0, "a": 0.0}
