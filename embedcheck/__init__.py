@@ -55,6 +55,7 @@ if TYPE_CHECKING:
     from .report.forecast import draw_forecast, forecast_dict
     from .report.notebook import PlacementView, view
     from .report.picture import draw_placement, draw_score_map
+    from .score.best_placements import BestPlacements, find_best_placements
     from .score.calibrated import noisy, noisy_tasks
     from .score.cost import (
         CAUTION,
@@ -117,6 +118,8 @@ _WHERE = {
     "draw_forecast": ("report.forecast", None), "forecast_dict": ("report.forecast", None),
     "draw_placement": ("report.picture", None), "draw_score_map": ("report.picture", None),
     "view": ("report.notebook", None), "PlacementView": ("report.notebook", None),
+    "BestPlacements": ("score.best_placements", None),
+    "find_best_placements": ("score.best_placements", None),
     "noisy": ("score.calibrated", None), "noisy_tasks": ("score.calibrated", None),
     "CAUTION": ("score.cost", None), "Ranking": ("score.cost", None),
     "Sensitivity": ("score.cost", None), "SnapshotRanking": ("score.cost", None),
@@ -149,6 +152,7 @@ __all__ = [
     "rank_by_logical", "rank_placements", "repair_preparation", "repaired_patch", "ring",
     "run_find", "run_forecast", "run_project", "scaled_device", "schedule_circuit", "sensitivity",
     "square_grid", "stim_experiment", "vet_patch", "view",
+    "BestPlacements", "find_best_placements",
 ]
 
 

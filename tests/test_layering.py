@@ -176,9 +176,7 @@ def test_tests_and_benchmarks_use_only_public_names(path):
     assert not list(_private_uses(ROOT / path))
 
 
-# The matcher's internals are being rewritten on another branch; until it lands, only its
-# import lines may change here, so its `__all__` comes with that rewrite.
-NO_ALL_YET = {"embedcheck.__main__", "embedcheck.place.matcher"}
+NO_ALL_YET = {"embedcheck.__main__"}
 
 
 def test_every_module_says_what_it_exports():

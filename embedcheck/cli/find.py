@@ -26,11 +26,20 @@ from .options import (
 
 __all__ = ["add_parser", "run"]
 
+# The same as pipeline.vet.DEFAULT_BUDGET_WORK (a test compares them): written out here so
+# that `--help` imports no scientific library.
+DEFAULT_BUDGET_WORK = 50_000_000
+
 
 def add_parser(sub: Any) -> None:
     find = sub.add_parser("find", help="find, audit and rank every swap-free placement")
     add_common(find)
     add_search_options(find)
+    find.add_argument("--budget-work", type=bounded_int(10**12), default=DEFAULT_BUDGET_WORK,
+                      metavar="UNITS",
+                      help="stop the search after this much work: partial placements tried "
+                           f"(default {DEFAULT_BUDGET_WORK:.0e}, some 20 s); unlike "
+                           "--budget-s it stops identical runs at the same place")
     add_constraint_options(find)
     find.add_argument("--top", type=top_count, default=10,
                       help="placements to list (default 10; 'all' lists every one, e.g. "
@@ -106,7 +115,9 @@ def run(args: argparse.Namespace) -> int:
                           constraints=constraints, processes=args.processes, top=args.top,
                           figure=args.figure, monte_carlo=args.monte_carlo or 0,
                           decode=args.decode, over_snapshots=by,
-                          compare_sdk=args.compare_sdk, progress=progress)
+                          compare_sdk=args.compare_sdk, progress=progress,
+                          budget_work=args.budget_work,
+                          on_effort=getattr(progress, "effort", None))
     finally:
         if progress is not None:
             progress.done()           # type: ignore[attr-defined]

@@ -16,6 +16,7 @@ import json
 import math
 import os
 import sys
+import time
 from collections.abc import Callable
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, NoReturn
@@ -285,16 +286,33 @@ class _Progress:
 
     def __init__(self) -> None:
         self.stage: str | None = None
+        self.maps = 0
+        self.tried = ""                      # the search's effort, shown before any map
+        self.shown = 0.0
 
     def __call__(self, stage: str, count: int) -> None:
         if self.stage is not None and stage != self.stage:
             self.done()
         self.stage = stage
-        print(f"\r  {stage}: {count} {self.words.get(stage, '')} ...", end="", file=sys.stderr,
-              flush=True)
+        if stage == "searching":
+            self.maps = count
+        print(f"\r  {stage}: {count} {self.words.get(stage, '')}{self.tried} ...", end="",
+              file=sys.stderr, flush=True)
+
+    def effort(self, effort: Any) -> None:
+        """The search's effort (`place.enumeration.Effort`): partial maps tried and
+        anchors begun, at most five times a second."""
+        now = time.monotonic()
+        if now - self.shown < 0.2:
+            return
+        self.shown = now
+        self.tried = (f", {effort.work:.3g} partial maps tried, anchors {effort.anchors}"
+                      f"/{effort.anchors_total}")
+        self("searching", self.maps)
 
     def done(self) -> None:
-        print("\r" + " " * 40 + "\r", end="", file=sys.stderr)
+        print("\r" + " " * 100 + "\r", end="", file=sys.stderr)
+        self.tried = ""
 
 
 def kind_of(path: str) -> str:

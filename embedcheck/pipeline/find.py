@@ -37,6 +37,7 @@ from ..errors import InputError
 from ..model.constraints import Constraints
 from ..model.device import Device
 from ..model.patch import Patch, observable_is_detector_parity
+from ..place.enumeration import Effort
 from ..score.cost import Sensitivity, SnapshotRanking, rank_across_snapshots, sensitivity
 from ..score.logical import (
     LogicalRanking,
@@ -48,7 +49,7 @@ from ..score.logical import (
 from ..score.noise import noisy_circuit
 from .requests import require_sound_detectors
 from .sdk import SdkComparison, compare_with_sdk
-from .vet import Vetting, vet_patch
+from .vet import DEFAULT_BUDGET_WORK, Vetting, vet_patch
 
 __all__ = ["FindResult", "LogicalNote", "run_find"]
 
@@ -93,19 +94,26 @@ def run_find(snapshots: Sequence[Device], patch: Patch, *, limit: int | None = 1
              budget_s: float | None = 60.0, constraints: Constraints | None = None,
              processes: int = 1, top: int | None = 10, figure: str = "auto",
              monte_carlo: int = 0, decode: bool = False, over_snapshots: str = "worst",
-             compare_sdk: bool = False, progress: Progress | None = None) -> FindResult:
+             compare_sdk: bool = False, progress: Progress | None = None,
+             budget_work: int | None = DEFAULT_BUDGET_WORK,
+             on_effort: Callable[[Effort], None] | None = None) -> FindResult:
     """Vet `patch` on the newest of `snapshots` and work out the rest of the find report.
 
     `top` is how many placements to list (None: all); `figure` what ranks them ('auto',
     'estimate', 'undetected', 'kept' or 'fidelity_product'); `monte_carlo` shots sample
     the listed placements, `decode` decodes them (with 'auto': ranks them by the sampled
     decoded logical error, on `processes` worker processes); several snapshots are also
-    ranked over (`over_snapshots`: 'worst', 'mean' or 'q<fraction>').
+    ranked over (`over_snapshots`: 'worst', 'mean' or 'q<fraction>'). `budget_work` bounds
+    the searches in work units (identical runs stop at the same place; `budget_s` is the
+    clock's cap on top); when the placements are too many to list, the best `top` (at
+    least 10) by the fidelity product are searched best first (`Vetting.best`).
     """
     device = snapshots[-1]
     vetting = vet_patch(device, patch, limit=limit, budget_s=budget_s,
                         progress=(lambda n: progress("searching", n)) if progress else None,
-                        constraints=constraints, processes=processes)
+                        constraints=constraints, processes=processes,
+                        budget_work=budget_work, on_effort=on_effort,
+                        best_first=max(top or 0, 10))
     placements = vetting.ranking.placements
     shown = top if top is not None else max(1, len(placements))
     sensitive = tuple(sensitivity(device, patch, placements[0], top=5)) if placements else ()

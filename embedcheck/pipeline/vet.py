@@ -21,8 +21,8 @@ for the report:
 from __future__ import annotations
 
 import time
-from collections.abc import Callable
-from dataclasses import dataclass
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -31,11 +31,23 @@ from ..model.constraints import Constraints
 from ..model.device import Device
 from ..model.patch import Patch
 from ..model.placement import Placement, off_coupler_counts, placement_grid
+from ..place.enumeration import Effort
 from ..place.near_misses import NearMiss, near_misses
 from ..place.search import SearchResult, StopReason, find_placements
+from ..score.best_placements import BestPlacements, find_best_placements
 from ..score.cost import Ranking, rank_placements, scores
 
-__all__ = ["CircuitFit", "Vetting", "vet_patch"]
+__all__ = ["DEFAULT_BUDGET_WORK", "CircuitFit", "Vetting", "vet_patch"]
+
+# find's default work budget (work units: see `find_placements`). Measured on the 2-core
+# bench machine: about 2.5e6 units per CPU second of search (the 87-qubit piece on 8319
+# qubits, chipfit d=5 on 2159), about 2e6 while hundreds of thousands of placements are
+# stored; so 5e7 is 20-25 s, and the 60 s clock rarely stops a run before it. The
+# best-first search may use as much again.
+DEFAULT_BUDGET_WORK = 50_000_000
+# The best-first search's own work budget (its units: candidate extensions tried), at most:
+# 1e7 took 2.7 CPU s on chipfit d=5 on a 20x20 grid (10 found, none better left).
+BEST_FIRST_WORK = 20_000_000
 
 _CORE_ORDER = ("round", "readout", "prep")
 
@@ -67,6 +79,8 @@ class Vetting:
     constraints: Constraints | None = None
     near_misses: tuple[NearMiss, ...] = ()
     inconclusive: tuple[str, ...] = ()    # circuits whose checks ran out of time budget
+    best: BestPlacements | None = None    # the best-first search, when the space was too big
+    work: int = 0                         # the searches' work units, every stage summed
 
     @property
     def all_swap_free(self) -> bool:
@@ -93,13 +107,26 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
               budget_s: float | None = 60.0,
               progress: Callable[[int], None] | None = None,
               constraints: Constraints | None = None, processes: int = 1,
-              round_may_route: bool = False) -> Vetting:
+              round_may_route: bool = False, budget_work: int | None = None,
+              on_effort: Callable[[Effort], None] | None = None,
+              best_first: int = 0) -> Vetting:
     """Search, audit and rank `patch` on `device`; see the module docstring.
 
     `constraints` (or, when not given, the patch's own) restrict every search;
     `processes` worker processes share the full search's anchors. A check round that
     cannot fit ranks no layout for the other circuits alone, unless `round_may_route`
     (a CI rule allows the round off-coupler gates, so layouts for the rest are wanted).
+
+    `budget_work` bounds the searches' work (the matcher's work units, see
+    `find_placements`), shared by every stage like `budget_s`; unlike seconds it stops
+    identical runs at the same place. Placements an earlier stage found (a circuit alone,
+    or the circuits joined so far) are kept when the full search runs out of budget.
+    `on_effort` sees every search's effort (progress before a first placement).
+    `best_first` (a count, 0: off): when the full search could not list every placement
+    (limit or budget), also search that many best placements by the fidelity product
+    best first (`find_best_placements`, with up to `budget_work` work units of its own,
+    at most BEST_FIRST_WORK)
+    and rank them with the rest; `Vetting.best` says whether their order is proven.
     """
     rules = constraints if constraints is not None else patch.constraints
     # A patch bigger than the chip is a finding (the search's first reason says so), not a
@@ -109,6 +136,12 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
     def left() -> float | None:              # one budget for every stage, not one each
         return None if deadline is None else max(0.0, deadline - time.monotonic())
 
+    spent = 0                                # work units used by the stages so far
+
+    def work_left() -> int | None:
+        return None if budget_work is None else max(0, budget_work - spent)
+
+    found_for: dict[tuple[str, ...], Sequence[Placement]] = {}   # what earlier stages found
     fits: list[CircuitFit] = []
     inconclusive: list[str] = []
     for name, circuit in patch.circuits.items():
@@ -116,7 +149,9 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
             fits.append(CircuitFit(circuit=name, two_qubit_gates=0, fits_alone=True, reasons=()))
             continue
         alone = find_placements(device, patch, circuits=[name], limit=1, budget_s=left(),
-                                constraints=rules)
+                                constraints=rules, max_work=work_left(), on_effort=on_effort)
+        spent += alone.work
+        found_for[(name,)] = alone.placements
         known = bool(alone.placements) or alone.complete
         fits.append(CircuitFit(circuit=name, two_qubit_gates=len(circuit.two_qubit_gates),
                                fits_alone=bool(alone.placements) if known else None,
@@ -139,15 +174,31 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
             core.append(name)
             continue
         joint = find_placements(device, patch, circuits=core + [name], limit=1,
-                                budget_s=left(), constraints=rules)
+                                budget_s=left(), constraints=rules, max_work=work_left(),
+                                on_effort=on_effort)
+        spent += joint.work
+        found_for[tuple(core + [name])] = joint.placements
         if joint.placements:
             core.append(name)
         elif not joint.complete:
             inconclusive.append(name)
+    best_found: BestPlacements | None = None
     if core or not gated:
+        earlier = found_for.get(tuple(core), ())    # the same interaction graph as the core
         core += [n for n in order if n not in gated]
         search = find_placements(device, patch, circuits=core, limit=limit, budget_s=left(),
-                                 progress=progress, constraints=rules, processes=processes)
+                                 progress=progress, constraints=rules, processes=processes,
+                                 max_work=work_left(), on_effort=on_effort)
+        spent += search.work
+        kept = [p for p in earlier if p not in set(search.placements)]
+        if kept:                             # found before, not found again in what was left
+            search = replace(search, placements=search.placements + tuple(kept))
+        if best_first and not search.complete and not search.reasons:
+            best_found = find_best_placements(
+                device, patch, top=best_first, circuits=core, constraints=rules,
+                budget=BEST_FIRST_WORK if budget_work is None else
+                min(budget_work, BEST_FIRST_WORK))
+            spent += best_found.work
         misses: tuple[NearMiss, ...] = ()
     elif inconclusive:
         search = SearchResult(circuits=tuple(gated), placements=(), raw_maps=0, symmetry_order=1,
@@ -161,7 +212,10 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
         misses = tuple(near_misses(device, patch, gated, constraints=rules,
                                    budget_s=min(5.0, 5.0 if deadline is None else left() or 0.0)))
     excluded = tuple(n for n in patch.circuits if n not in core)
-    ranking = rank_placements(device, patch, _best_of_orbits(device, patch, search))
+    listed = _best_of_orbits(device, patch, search)
+    if best_found is not None:
+        listed += _new_orbits(search, best_found.placements)
+    ranking = rank_placements(device, patch, listed)
     names = list(patch.circuits)
     off = off_coupler_counts(device, patch, ranking.placements, names)
     best = audit_placement(device, patch, ranking.placements[0]) if ranking.placements else None
@@ -170,7 +224,30 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
     return Vetting(device=device, patch=patch, fits=tuple(fits), core=tuple(core),
                    excluded=excluded, search=search, ranking=ranking, off_coupler=off,
                    best_audit=best, unconstrained=unconstrained, constraints=rules,
-                   near_misses=misses, inconclusive=tuple(inconclusive))
+                   near_misses=misses, inconclusive=tuple(inconclusive), best=best_found,
+                   work=spent)
+
+
+def _new_orbits(search: SearchResult,
+                extra: Sequence[Placement]) -> tuple[Placement, ...]:
+    """The placements of `extra` whose orbit under the search's symmetries holds no
+    placement the search listed (a best-first placement is its orbit's cheapest member,
+    the search's its smallest; both stand for the same orbit)."""
+    perms = search.symmetries or ((),)
+
+    def orbit(p: Placement) -> tuple[int, ...]:
+        if not perms[0]:
+            return p.physical
+        return min(tuple(p.physical[i] for i in perm) for perm in perms)
+
+    seen = {orbit(p) for p in search.placements}
+    out = []
+    for p in extra:
+        key = orbit(p)
+        if key not in seen:
+            seen.add(key)
+            out.append(p)
+    return tuple(out)
 
 
 def _best_of_orbits(device: Device, patch: Patch,

@@ -75,6 +75,9 @@ def shortest_cycle_nodes(nodes, edges, max_length: int | None = None, *,
                     depth[v], parent[v] = depth[u] + 1, u
                     queue.append(v)
                 elif parent[u] != v:
+                    length = depth[u] + depth[v] + 1        # at most: the cycle it closes
+                    if best is not None and length >= len(best) and not first:
+                        continue
                     left, right = _path_to_root(parent, u), _path_to_root(parent, v)
                     if set(left[:-1]) & set(right[:-1]):
                         continue            # the two paths meet before the root: not simple

@@ -89,12 +89,20 @@ def necessary_conditions(device: Device, patch: Patch, circuits: Sequence[str],
 
 def _cycle_reasons(patch: Patch, edges: list[tuple[int, int]],
                    couplers: Sequence[Pair]) -> list[str]:
-    cycle = shortest_cycle_nodes(range(patch.num_qubits), edges)
-    if not cycle:
-        return []                        # a forest has neither short nor odd cycles
     chip_nodes = sorted({q for c in couplers for q in c})
+    # A chip cycle of 4 qubits (looked for among a few chip qubits: found at once on a
+    # grid) leaves only a patch triangle to check for: the patch's girth is not needed.
+    few = set(chip_nodes[:64])
+    small = shortest_cycle_nodes(sorted(few), [c for c in couplers if c[0] in few and
+                                                c[1] in few], max_length=4, first=True)
+    if small is not None and len(small) == 4 and \
+            shortest_cycle_nodes(range(patch.num_qubits), edges, max_length=3) is None:
+        cycle = None
+    else:
+        cycle = shortest_cycle_nodes(range(patch.num_qubits), edges)
     out = []
-    if shortest_cycle_nodes(chip_nodes, couplers, max_length=len(cycle), first=True) is None:
+    if cycle and shortest_cycle_nodes(chip_nodes, couplers, max_length=len(cycle),
+                                      first=True) is None:
         names = ", ".join(patch.qubits[i] for i in cycle)
         longer = shortest_cycle_nodes(chip_nodes, couplers, max_length=4 * len(cycle))
         chip_part = (f"has no cycle shorter than {len(longer)}" if longer else

@@ -45,6 +45,8 @@ class SearchResult:
     elapsed_s: float
     symmetries: tuple[tuple[int, ...], ...] = ()   # permutations of patch qubit indices
     notes: tuple[str, ...] = ()                    # caveats on how the result was counted
+    work: int = 0                  # the matcher's work units used (see find_placements)
+    timed_out: bool = False        # the clock stopped it (another run may stop elsewhere)
 
     @property
     def complete(self) -> bool:

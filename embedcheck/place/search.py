@@ -45,7 +45,7 @@ from ..model.device import Device
 from ..model.patch import Patch
 from ..model.placement import Placement
 from .completion import complete_placement
-from .enumeration import raw_maps
+from .enumeration import Effort, raw_maps
 from .reasons import constraint_reasons, necessary_conditions, part_reasons
 from .result import SearchResult, StopReason
 from .symmetry import (
@@ -57,7 +57,7 @@ from .symmetry import (
     symmetry_group,
 )
 
-__all__ = ["SearchResult", "StopReason", "find_placements"]
+__all__ = ["SearchResult", "StopReason", "check_request", "chip_graph", "find_placements"]
 
 
 def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[str] | None = None,
@@ -65,7 +65,9 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
                     progress: Callable[[int], None] | None = None,
                     constraints: Constraints | None = None,
                     clock: Callable[[], float] = time.monotonic,
-                    max_maps: int | None = None, processes: int = 1) -> SearchResult:
+                    max_maps: int | None = None, processes: int = 1,
+                    max_work: int | None = None,
+                    on_effort: Callable[[Effort], None] | None = None) -> SearchResult:
     """All distinct swap-free placements of `patch` for `circuits` (default: all).
 
     `limit` caps the number of distinct placements, `budget_s` the seconds spent (read
@@ -76,8 +78,18 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
     `progress(n)` is called now and then with the number of raw maps seen. With
     `processes > 1` the chip's anchors are split among that many worker processes (the
     result is the same set; workers read the budget from the wall clock, not `clock`).
+
+    `max_work` caps the matcher's work: candidate extensions of partial maps tried (plus
+    the first-map probe's steps). Unlike seconds it stops every run at the same place, so
+    identical calls give identical results; the result's `work` says how much was used.
+    A stop on the clock is noted in the result (another run may stop elsewhere).
+    `on_effort(effort)` is called after every block the matcher hands back, maps or not,
+    with the work done and the anchors begun (progress before a first map).
     """
-    names = _check_request(patch, circuits, limit, budget_s, processes, max_maps)
+    names = check_request(patch, circuits, limit, budget_s, processes, max_maps)
+    if max_work is not None and (not isinstance(max_work, numbers.Integral)
+                                 or isinstance(max_work, bool) or max_work < 0):
+        raise InputError(f"max_work must be a whole number >= 0, not {max_work!r}")
     rules = constraints or Constraints()
     start = clock()
     reasons = necessary_conditions(device, patch, names, rules)
@@ -87,7 +99,7 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
                             elapsed_s=clock() - start)
     directed = rules.forbid_direction_fixes
     pattern, placed = interaction_pattern(patch, names)
-    chip = _chip_graph(device, rules)
+    chip = chip_graph(device, rules)
     # Native directions: search undirected, keep the maps whose directional gates all run
     # the native way (a symmetric gate such as cz has no direction); no symmetry merging.
     arcs = directional_arcs(patch, names, placed) if directed else []
@@ -100,7 +112,7 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
                  "relabelled copies",)
     allowed = rules.allowed_by_role(device, set(patch.roles.values())) if rules.roles else None
     found: list[Placement] = []
-    seen: set[bytes] = set()
+    seen: set[tuple[int, ...]] = set()
     raw, stop = 0, StopReason.COMPLETE
     usable = rules.qubits(device)
     blocked = {i for i in chip.node_indices() if chip[i] not in usable}
@@ -114,15 +126,23 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
                   if x is not None)
     cut_short: str | None = None
     shown = 0
+    everything = limit is None and max_maps is None and budget_s is None and max_work is None
+    effort = Effort()
+    timed_out = False                        # stopped on the clock, not on a count
     for block, why, reported in raw_maps(device, chip, pattern, allowed, blocked, arcs,
                                          None if directed else autos, processes=processes,
-                                         cap=cap, seconds=budget_s):
-        cut_short = cut_short or why
+                                         cap=cap, seconds=budget_s, probe=not everything,
+                                         max_work=max_work, effort=effort):
+        timed_out = timed_out or why == "budget"
+        cut_short = cut_short or ("budget" if why == "work" else why)
+        if on_effort is not None:
+            on_effort(effort)
         if reported and progress is not None and reported * order > shown:
             shown = reported * order              # workers' count while they still run
             progress(shown)
         if processes <= 1 and budget_s is not None and clock() - start > budget_s:
             stop = StopReason.BUDGET                  # checked first: budget_s=0 takes nothing
+            timed_out = True
             break
         if len(block):
             if max_maps is not None:
@@ -142,6 +162,7 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
             break
         if processes > 1 and budget_s is not None and clock() - start > budget_s:
             stop = StopReason.BUDGET                  # workers kept the deadline: keep what came
+            timed_out = True
             break
     if stop is StopReason.COMPLETE and cut_short:
         stop = StopReason(cut_short)   # a worker's part stopped early: the union is incomplete
@@ -157,14 +178,19 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
         if not rules.empty:
             reasons += constraint_reasons(device, patch, names, rules, clock, left,
                                           search=find_placements)
+    if timed_out and stop is StopReason.BUDGET:
+        notes += (f"stopped on the clock after {budget_s:g} s: another "
+                  "run may stop elsewhere and list other placements",)
     return SearchResult(circuits=names, placements=tuple(found), raw_maps=raw,
                         symmetry_order=len(autos), stop_reason=stop, reasons=tuple(reasons),
                         elapsed_s=clock() - start,
                         symmetries=patch_permutations(autos, placed, patch.num_qubits),
-                        notes=notes)
+                        notes=notes, work=effort.work,
+                        timed_out=timed_out and stop is StopReason.BUDGET)
 
 
-def _take(batch: np.ndarray, perms: np.ndarray, seen: set[bytes], found: list[Placement],
+def _take(batch: np.ndarray, perms: np.ndarray, seen: set[tuple[int, ...]],
+          found: list[Placement],
           chip: rx.PyGraph, patch: Patch, placed: Sequence[int], blocked: set[int],
           allowed: Mapping[str, set[int]] | None, limit: int | None) -> int:
     """Canonicalise a batch of raw maps (numpy, no per-map Python loop over the symmetry
@@ -174,16 +200,16 @@ def _take(batch: np.ndarray, perms: np.ndarray, seen: set[bytes], found: list[Pl
     images = np.asarray(batch, dtype=np.int64).reshape(len(batch), len(placed))
     best = canonical_rows(images, perms)
     whole = len(placed) == patch.num_qubits          # every patch qubit interacts
-    physical = np.array(chip.nodes(), dtype=np.int64)[best]
-    for i, row in enumerate(best):
-        key = row.tobytes()
+    rows = (_qubit_numbers(chip)[best] if whole else best).tolist()   # one list, no
+    for i, row in enumerate(rows):                                    # per-row numpy
+        key = tuple(row)
         if key in seen:
             continue
         seen.add(key)
         if whole:
-            placement: Placement | None = Placement(tuple(physical[i].tolist()))
+            placement: Placement | None = Placement(key)
         else:
-            placement = complete_placement(chip, patch, placed, row.tolist(), blocked, allowed)
+            placement = complete_placement(chip, patch, placed, row, blocked, allowed)
         if placement is not None:
             found.append(placement)
         if limit is not None and len(found) >= limit:
@@ -191,7 +217,18 @@ def _take(batch: np.ndarray, perms: np.ndarray, seen: set[bytes], found: list[Pl
     return len(best)
 
 
-def _check_request(patch: Patch, circuits: str | Sequence[str] | None, limit: int | None,
+def _qubit_numbers(chip: rx.PyGraph) -> np.ndarray:
+    """The physical qubit of each chip graph node, as an array of the Python ints
+    themselves (read once per graph; lists made from it share those ints instead of
+    making one per placement and qubit)."""
+    numbers = chip.attrs
+    if not isinstance(numbers, np.ndarray):
+        numbers = np.array(chip.nodes(), dtype=object)
+        chip.attrs = numbers
+    return numbers
+
+
+def check_request(patch: Patch, circuits: str | Sequence[str] | None, limit: int | None,
                    budget_s: float | None, processes: int,
                    max_maps: int | None) -> tuple[str, ...]:
     """The searched circuit names, after refusing what the CLI would refuse."""
@@ -213,7 +250,7 @@ def _check_request(patch: Patch, circuits: str | Sequence[str] | None, limit: in
 
 
 
-def _chip_graph(device: Device, rules: Constraints) -> rx.PyGraph:
+def chip_graph(device: Device, rules: Constraints) -> rx.PyGraph:
     """The usable coupling graph; node i holds physical qubit `device.qubits[i]`.
 
     Couplers outside the constraints are left out (an unused coupler never matters,

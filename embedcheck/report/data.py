@@ -10,6 +10,7 @@ described by `embedcheck/schemas/find-report.schema.json`, `audit-report.schema.
 """
 from __future__ import annotations
 
+import math
 from collections.abc import Sequence
 from typing import Any
 
@@ -22,6 +23,7 @@ from ..pipeline.checks import CheckResult
 from ..pipeline.find import FindResult, LogicalNote
 from ..pipeline.sdk import SdkComparison
 from ..place.graphs import degree_histogram, shortest_cycle
+from ..score.best_placements import BestPlacements
 from ..score.cost import CAUTION, Ranking, Sensitivity, SnapshotRanking
 from ..score.logical import LogicalRanking
 from ..score.sampling import per_round
@@ -30,6 +32,7 @@ from ..version import __version__
 __all__ = ["audit_dict", "calibration_summary", "check_dict", "chip_details", "chip_summary",
            "compare_to_baseline", "find_dict", "logical_dict", "logical_note", "patch_details",
            "patch_summary", "placement_rows", "sdk_dict", "sensitivity_rows", "snapshot_dict"]
+__all__ += ["best_first_dict"]
 
 Json = dict[str, Any]
 
@@ -117,7 +120,8 @@ def find_dict(result: FindResult) -> Json:
                    "raw_maps": s.raw_maps, "symmetry_order": s.symmetry_order,
                    "complete": s.complete, "stop_reason": s.stop_reason.value,
                    "elapsed_s": round(s.elapsed_s, 4), "reasons": list(s.reasons),
-                   "notes": list(s.notes)},
+                   "notes": list(s.notes), "work": s.work, "timed_out": s.timed_out},
+        "best_first": best_first_dict(v.patch, v.best),
         "unconstrained_qubits": list(v.unconstrained),
         "constraints": v.constraints.describe() if v.constraints is not None else [],
         "near_misses": [{"qubits": m.placement.as_dict(v.patch),
@@ -445,3 +449,17 @@ def _logical_method(logical: LogicalRanking, sampled: bool) -> str:
     if sampled:
         method += "; Monte Carlo with Wilson 95% intervals"
     return method
+
+
+def best_first_dict(patch: Patch, best: BestPlacements | None) -> dict[str, Any] | None:
+    """find's best-first section, or None when the placements were few enough to list:
+    how many were asked and found (best first, with the searched log fidelity product),
+    whether that order is proven, else the log-score gap still open (None: unbounded)."""
+    if best is None:
+        return None
+    return {"top": best.top, "found": len(best.placements), "proven": best.proven,
+            "stop_reason": best.stop_reason,
+            "gap_log": float(best.gap) if math.isfinite(best.gap) else None,
+            "work": best.work, "idle_exact": best.idle_exact, "notes": list(best.notes),
+            "placements": [{"qubits": p.as_dict(patch), "log_fidelity": round(float(x), 6)}
+                           for p, x in zip(best.placements, best.log_success, strict=True)]}

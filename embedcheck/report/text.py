@@ -113,13 +113,14 @@ def render_find(d: dict) -> str:
                    f"{s['symmetry_order']}); search complete, {s['elapsed_s']:.2f} s.")
     else:
         stopper = "count limit (--limit)" if s["stop_reason"] == "limit" else \
-            "time budget (--budget-s)"
+            "time budget (--budget-s)" if s.get("timed_out") else "work budget (--budget-work)"
         out.append(f"INCOMPLETE: the {stopper} stopped the search after "
                    f"{s['distinct_placements']} distinct placement(s) swap-free for "
                    f"{', '.join(s['circuits'])} ({s['raw_maps']} maps seen, "
                    f"{s['elapsed_s']:.2f} s).")
         out.append("The ranking covers only these; better placements may exist. Raise the "
                    "limit or the budget for a complete answer.")
+        out += _best_first_lines(d.get("best_first"))
     for note in s.get("notes", ()):
         out.append(f"Note: {note}.")
     if d.get("unconstrained_qubits"):
@@ -393,6 +394,23 @@ def render_repair(d) -> str:
     lines += [f"Wrote {d['wrote']['patch']} and {d['wrote']['circuit']} (your patch file is "
               "unchanged).", d["caution"]]
     return "\n".join(_fold(line) for line in lines)
+
+
+def _best_first_lines(b: dict | None) -> list[str]:
+    """What find's best-first search adds when the placements were too many to list."""
+    if not b:
+        return []
+    head = (f"Too many placements to list, so the best {b['top']} by the fidelity product were "
+            f"searched best first (branch and bound, {b['work']} work units): ")
+    if b["proven"]:
+        head += (f"{b['found']} found, proven: no placement left out scores higher. They are "
+                 "ranked with the rest below.")
+    else:
+        gap = "an unbounded amount" if b["gap_log"] is None else \
+            f"up to {b['gap_log']:.3g} in log fidelity product"
+        head += (f"{b['found']} found, not proven (the work budget ran out): a placement left "
+                 f"out may score {gap} higher. They are ranked with the rest below.")
+    return [head] + [f"Note: {note}." for note in b["notes"]]
 
 
 def _logical_rows(logical: dict[str, Any]) -> list[str]:
