@@ -139,9 +139,9 @@ def render_forecast_text(payload: Json) -> str:
     for s in payload["distances"]:
         if s["best"] is not None:
             region = s["best"]["region"]
-            shown = ",".join(map(str, region)) if len(region) <= 16 else \
-                f"{len(region)} qubits {region[0]}..{region[-1]}"
-            lines.append(f"  best region for d={s['distance']}: chip qubits {shown}")
+            shown = "chip qubits " + ",".join(map(str, region)) if len(region) <= 16 else \
+                f"{len(region)} chip qubits, numbered {region[0]} to {region[-1]}"
+            lines.append(f"  best region for d={s['distance']}: {shown}")
     verdicts = [v for v in payload["suppression"] if v["scale"] == 1.0]
     if verdicts:
         lines += ["", "Does a bigger code pay? Suppression factor Lambda = eps_d / eps_(d+2) per "
