@@ -32,7 +32,9 @@ from ..model.device import Device
 from ..model.patch import Patch
 from ..model.placement import Placement, off_coupler_counts, placement_grid
 from ..place.near_misses import NearMiss, near_misses
+from ..place.reasons import Reason
 from ..place.search import SearchResult, StopReason, find_placements
+from ..place.symmetry import symmetry_order
 from ..score.cost import Ranking, rank_placements, scores
 
 __all__ = ["CircuitFit", "Vetting", "vet_patch"]
@@ -48,6 +50,7 @@ class CircuitFit:
     two_qubit_gates: int
     fits_alone: bool | None          # None: the time budget ran out before an answer
     reasons: tuple[str, ...]
+    culprits: tuple[Reason, ...] = ()   # the reasons with the patch qubits and pairs at fault
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -120,7 +123,7 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
         known = bool(alone.placements) or alone.complete
         fits.append(CircuitFit(circuit=name, two_qubit_gates=len(circuit.two_qubit_gates),
                                fits_alone=bool(alone.placements) if known else None,
-                               reasons=alone.reasons))
+                               reasons=alone.reasons, culprits=alone.culprits))
         if not known:
             inconclusive.append(name)
     # The core: circuits with two-qubit gates that fit together, check round first.
@@ -150,14 +153,18 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
                                  progress=progress, constraints=rules, processes=processes)
         misses: tuple[NearMiss, ...] = ()
     elif inconclusive:
-        search = SearchResult(circuits=tuple(gated), placements=(), raw_maps=0, symmetry_order=1,
+        search = SearchResult(circuits=tuple(gated), placements=(), raw_maps=0,
+                              symmetry_order=symmetry_order(patch, gated),
                               stop_reason=StopReason.BUDGET, reasons=(), elapsed_s=0.0)
         misses = ()
     else:
-        reasons = tuple(dict.fromkeys(r for f in fits for r in f.reasons)) or (
-            "no circuit with two-qubit gates has a swap-free placement",)
-        search = SearchResult(circuits=tuple(gated), placements=(), raw_maps=0, symmetry_order=1,
-                              stop_reason=StopReason.COMPLETE, reasons=reasons, elapsed_s=0.0)
+        culprits = tuple(dict.fromkeys(r for f in fits for r in f.culprits)) or (
+            Reason(text="no circuit with two-qubit gates has a swap-free placement"),)
+        search = SearchResult(circuits=tuple(gated), placements=(), raw_maps=0,
+                              symmetry_order=symmetry_order(patch, gated),
+                              stop_reason=StopReason.COMPLETE,
+                              reasons=tuple(r.text for r in culprits), culprits=culprits,
+                              elapsed_s=0.0)
         misses = tuple(near_misses(device, patch, gated, constraints=rules,
                                    budget_s=min(5.0, 5.0 if deadline is None else left() or 0.0)))
     excluded = tuple(n for n in patch.circuits if n not in core)

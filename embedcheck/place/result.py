@@ -9,6 +9,7 @@ from dataclasses import dataclass
 from enum import Enum
 
 from ..model.placement import Placement
+from .reasons import Reason
 
 __all__ = ["SearchResult", "StopReason"]
 
@@ -33,7 +34,10 @@ class SearchResult:
 
     `stop_reason` says whether every placement was found (`StopReason.COMPLETE`) or the
     count limit or the budget stopped the search. `reasons` explains, in plain words,
-    why there is no placement when a cheap necessary condition already rules it out.
+    why there is no placement when a cheap necessary condition already rules it out;
+    `culprits` holds the same reasons with the patch qubits and pairs each one blames.
+    `symmetry_order` is the order of the patch's symmetry group for the searched circuits
+    (also when a necessary condition ruled the search out; 1 when it is too big to list).
     """
 
     circuits: tuple[str, ...]
@@ -45,6 +49,7 @@ class SearchResult:
     elapsed_s: float
     symmetries: tuple[tuple[int, ...], ...] = ()   # permutations of patch qubit indices
     notes: tuple[str, ...] = ()                    # caveats on how the result was counted
+    culprits: tuple[Reason, ...] = ()              # `reasons`, with what each one blames
 
     @property
     def complete(self) -> bool:

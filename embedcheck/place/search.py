@@ -46,7 +46,7 @@ from ..model.patch import Patch
 from ..model.placement import Placement
 from .completion import complete_placement
 from .enumeration import raw_maps
-from .reasons import constraint_reasons, necessary_conditions, part_reasons
+from .reasons import Reason, constraint_reasons, necessary_conditions, part_reasons
 from .result import SearchResult, StopReason
 from .symmetry import (
     MAX_SYMMETRIES,
@@ -80,13 +80,15 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
     names = _check_request(patch, circuits, limit, budget_s, processes, max_maps)
     rules = constraints or Constraints()
     start = clock()
-    reasons = necessary_conditions(device, patch, names, rules)
-    if reasons:
-        return SearchResult(circuits=names, placements=(), raw_maps=0, symmetry_order=1,
-                            stop_reason=StopReason.COMPLETE, reasons=tuple(reasons),
+    ruled_out = necessary_conditions(device, patch, names, rules)
+    pattern, placed = interaction_pattern(patch, names)
+    if ruled_out:                            # the patch's symmetry group still counts
+        order = 1 if rules.forbid_direction_fixes else len(symmetry_group(pattern)[0])
+        return SearchResult(circuits=names, placements=(), raw_maps=0,
+                            symmetry_order=order, stop_reason=StopReason.COMPLETE,
+                            reasons=tuple(r.text for r in ruled_out), culprits=tuple(ruled_out),
                             elapsed_s=clock() - start)
     directed = rules.forbid_direction_fixes
-    pattern, placed = interaction_pattern(patch, names)
     chip = _chip_graph(device, rules)
     # Native directions: search undirected, keep the maps whose directional gates all run
     # the native way (a symmetric gate such as cz has no direction); no symmetry merging.
@@ -145,12 +147,13 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
             break
     if stop is StopReason.COMPLETE and cut_short:
         stop = StopReason(cut_short)   # a worker's part stopped early: the union is incomplete
+    reasons: list[Reason] = []
     if stop is StopReason.COMPLETE and raw == 0:
         what = "the chip's live coupling graph" + (" under the constraints" if not rules.empty
                                                    else "")
-        reasons = ["no cheap condition rules it out, and an exhaustive search found no "
-                   f"placement: the interaction graph of {', '.join(names)} is not a subgraph of "
-                   f"{what}"]
+        reasons = [Reason(text="no cheap condition rules it out, and an exhaustive search found "
+                               f"no placement: the interaction graph of {', '.join(names)} is "
+                               f"not a subgraph of {what}")]
         left = None if budget_s is None else max(0.0, budget_s - (clock() - start))
         reasons += part_reasons(device, patch, names, rules, clock, left, pattern, placed,
                                 search=find_placements)
@@ -158,7 +161,8 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
             reasons += constraint_reasons(device, patch, names, rules, clock, left,
                                           search=find_placements)
     return SearchResult(circuits=names, placements=tuple(found), raw_maps=raw,
-                        symmetry_order=len(autos), stop_reason=stop, reasons=tuple(reasons),
+                        symmetry_order=len(autos), stop_reason=stop,
+                        reasons=tuple(r.text for r in reasons), culprits=tuple(reasons),
                         elapsed_s=clock() - start,
                         symmetries=patch_permutations(autos, placed, patch.num_qubits),
                         notes=notes)
