@@ -36,6 +36,9 @@ class PatchEntry:
     file: str
     rules: Rules
     line: int | None
+    # The project file's line that sets each rule for this patch (its own override, else
+    # the project's rules; a rule left at its default points at the patch entry).
+    rule_lines: Mapping[str, int | None] = field(default_factory=dict)
 
 
 @dataclass(frozen=True)
@@ -73,7 +76,8 @@ def load_project(path: str | Path) -> Project:
         rules = project_rules
         if isinstance(entry, dict) and "rules" in entry:
             rules = _rules(doc, ("patches", i, "rules"), entry["rules"], _as_raw(project_rules))
-        patches.append(PatchEntry(str(full), rules, doc.line(("patches", i))))
+        patches.append(PatchEntry(str(full), rules, doc.line(("patches", i)),
+                                  _rule_lines(doc, i, entry)))
         own = isinstance(entry, dict) and isinstance(entry.get("rules"), dict) and \
             isinstance(entry["rules"].get("max_off_coupler_gates"), dict)
         rule_lines[str(full)] = ((("patches", i, "rules", "max_off_coupler_gates"),) if own
@@ -106,6 +110,22 @@ def _check_rule_circuits(doc, patches, rule_lines) -> None:
                 raise doc.error(where + (name,),
                                 f"patch {Path(entry.file).name} has no circuit '{name}'"
                                 f"{did_you_mean(name, circuits)}")
+
+
+def _rule_lines(doc: Document, i: int, entry) -> dict[str, int | None]:
+    """Where each rule of patch entry `i` is set: the entry's override, the project's rules
+    key, or (a default) the entry itself."""
+    own = entry.get("rules", {}) if isinstance(entry, dict) else {}
+    shared = doc.data.get("rules", {}) or {}
+    out = {}
+    for rule in DEFAULT_RULES:
+        if isinstance(own, dict) and rule in own:
+            out[rule] = doc.line(("patches", i, "rules", rule))
+        elif isinstance(shared, dict) and rule in shared:
+            out[rule] = doc.line(("rules", rule))
+        else:
+            out[rule] = doc.line(("patches", i))
+    return out
 
 
 def _as_raw(rules: Rules) -> dict:

@@ -22,6 +22,8 @@ from ..pipeline.checks import CheckResult
 from ..pipeline.find import FindResult, LogicalNote
 from ..pipeline.sdk import SdkComparison
 from ..place.graphs import degree_histogram, shortest_cycle
+from ..place.near_misses import NearMiss
+from ..place.reasons import Reason
 from ..score.cost import CAUTION, Ranking, Sensitivity, SnapshotRanking
 from ..score.logical import LogicalRanking
 from ..score.sampling import per_round
@@ -104,6 +106,7 @@ def find_dict(result: FindResult) -> Json:
             "off_coupler_min": int(col.min()) if col is not None else None,
             "off_coupler_max": int(col.max()) if col is not None else None,
             "reasons": list(fit.reasons),
+            "culprits": _culprit_rows(fit.culprits),
         })
     s = v.search
     out = {
@@ -117,14 +120,10 @@ def find_dict(result: FindResult) -> Json:
                    "raw_maps": s.raw_maps, "symmetry_order": s.symmetry_order,
                    "complete": s.complete, "stop_reason": s.stop_reason.value,
                    "elapsed_s": round(s.elapsed_s, 4), "reasons": list(s.reasons),
-                   "notes": list(s.notes)},
+                   "culprits": _culprit_rows(s.culprits), "notes": list(s.notes)},
         "unconstrained_qubits": list(v.unconstrained),
         "constraints": v.constraints.describe() if v.constraints is not None else [],
-        "near_misses": [{"qubits": m.placement.as_dict(v.patch),
-                         "off_coupler_gates": m.off_coupler_gates,
-                         "missing_pairs": [list(p) for p in m.missing_pairs],
-                         "method": "heuristic (greedy pair removal), not exhaustive"}
-                        for m in v.near_misses],
+        "near_misses": _near_miss_rows(v.patch, v.near_misses),
         "figure": v.ranking.figure,
         "placements": placement_rows(v.patch, v.ranking, v.off_coupler, top),
         "best_audit": audit_dict(v.patch, v.best_audit) if v.best_audit else None,
@@ -275,19 +274,28 @@ def _gate_dict(g: OffCouplerGate) -> Json:
             "file": g.file, "line": g.line, "reason": g.reason}
 
 
+def _near_miss_rows(patch: Patch, misses: Sequence[NearMiss]) -> list[Json]:
+    return [{"qubits": m.placement.as_dict(patch), "off_coupler_gates": m.off_coupler_gates,
+             "missing_pairs": [list(p) for p in m.missing_pairs],
+             "method": "heuristic (greedy pair removal), not exhaustive"} for m in misses]
+
+
+def _culprit_rows(reasons: Sequence[Reason]) -> list[Json]:
+    return [{"reason": r.text, "qubits": list(r.qubits), "pairs": [list(p) for p in r.pairs]}
+            for r in reasons]
+
+
 def check_dict(result: CheckResult, baseline: Json | None = None) -> Json:
     """The `check` report: one entry per chip x patch, rules judged, gates named."""
     entries = []
     for pair in result.pairs:
         v = pair.vetting
         chosen = pair.audit
-        score = None
-        if chosen is not None:
-            index = v.ranking.placements.index(chosen.placement)
-            score = float(v.ranking.success[index])
+        fits = {f.circuit: f for f in v.fits}
         circuits = []
         for name in pair.patch.circuits:
             c = next((c for c in chosen.circuits if c.circuit == name), None) if chosen else None
+            fit = fits.get(name)
             circuits.append({
                 "circuit": name,
                 "two_qubit_gates": len(pair.patch.circuits[name].two_qubit_gates),
@@ -297,6 +305,9 @@ def check_dict(result: CheckResult, baseline: Json | None = None) -> Json:
                 "depth": c.depth if c else None,
                 "duration_ns": c.duration_ns if c else None,
                 "gates": [_gate_dict(g) for g in c.off_coupler] if c else [],
+                "fits_alone": fit.fits_alone if fit else None,
+                "reasons": list(fit.reasons) if fit else [],
+                "culprits": _culprit_rows(fit.culprits) if fit else [],
             })
         entries.append({
             "chip": pair.device.name, "chip_file": pair.device.source,
@@ -310,10 +321,15 @@ def check_dict(result: CheckResult, baseline: Json | None = None) -> Json:
                        ("budget" if v.inconclusive else "complete"),
                        "inconclusive_circuits": list(v.inconclusive)},
             "chosen_placement": chosen.placement.as_dict(pair.patch) if chosen else None,
-            "figure": v.ranking.figure, "best_score": score,
+            "chosen_from": pair.chosen_from,
+            "blamed_circuits": list(pair.blamed),
+            "near_misses": _near_miss_rows(pair.patch, v.near_misses),
+            "figure": v.ranking.figure, "best_score": pair.chosen_score,
             "circuits": circuits,
             "outcomes": [{"rule": o.rule, "circuit": o.circuit, "passed": o.passed,
-                          "message": o.message} for o in pair.outcomes],
+                          "message": o.message,
+                          "locations": [{"file": at.file, "line": at.line, "text": at.text}
+                                        for at in o.locations]} for o in pair.outcomes],
         })
     out = {"tool": "embedcheck", "version": __version__, "command": "check",
            "project": {"name": result.project.name, "file": result.project.file},

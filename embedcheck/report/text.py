@@ -320,7 +320,13 @@ def render_check(d: dict) -> str:
         mark = "pass" if e["passed"] else "FAIL"
         out.append(f"[{mark}] {e['patch']} on {e['chip']}")
         if e["chosen_placement"]:
-            out.append(f"  placement: {_placement(e['chosen_placement'])}")
+            label = " (the nearest miss: no placement is swap-free)" if \
+                e.get("chosen_from") == "nearest miss" else ""
+            out.append(f"  placement{label}: {_placement(e['chosen_placement'])}")
+        for m in e.get("near_misses", [])[:1]:
+            pairs = ", ".join(f"{a}-{b}" for a, b in m["missing_pairs"])
+            out.append(f"  nearest miss (a heuristic): {m['off_coupler_gates']} off-coupler "
+                       f"gate(s) over the experiment; pairs without a coupler: {pairs}")
         gates = {c["circuit"]: c["gates"] for c in e["circuits"]}
         for o in e["outcomes"]:
             label = o["rule"] + (f" {o['circuit']}" if o["circuit"] else "")
@@ -333,6 +339,10 @@ def render_check(d: dict) -> str:
                 out.append(f"         {where}: {g['text']}")
                 out.append(f"           needs physical {g['physical_qubits'][0]}-"
                            f"{g['physical_qubits'][1]} ({g['reason']})")
+            if not o["passed"] and not gates.get(o["circuit"]):
+                for at in o.get("locations", [])[:5]:
+                    where = f"{at['file']}:{at['line']}" if at.get("line") else at.get("file")
+                    out.append(f"         at fault: {where}: {at['text']}")
         out.append("")
     base = d.get("baseline")
     if base:
