@@ -341,37 +341,105 @@ def check_dict(result: CheckResult, baseline: Json | None = None) -> Json:
 
 
 def compare_to_baseline(current: Json, baseline: Json) -> Json:
-    """What got worse and what got better since a previous `check` JSON report."""
+    """What got worse and what got better since a previous `check` JSON report.
+
+    Per chip x patch: off-coupler gates per circuit on the chosen placement, placements
+    within the allowances, whether the search was complete, pass or fail, and the best
+    score. A score leaves off-coupler gates out, so scores are compared only between
+    chosen placements with the same off-coupler counts in every circuit; a count of
+    placements rises only against a complete baseline search (a cut-short one is a
+    lower bound); and nothing about a chip x patch is called better while anything about
+    it got worse. What is left out goes to `not_compared`, with why.
+
+        >>> old = {"results": [{"chip": "c", "patch": "p", "passed": True, "figure": "f",
+        ...        "placements_within_allowance": 5, "best_score": 0.47,
+        ...        "search": {"complete": True},
+        ...        "circuits": [{"circuit": "prep", "off_coupler_count": 0}]}]}
+        >>> new = {"results": [{**old["results"][0], "best_score": 0.48,
+        ...        "circuits": [{"circuit": "prep", "off_coupler_count": 1}]}]}
+        >>> diff = compare_to_baseline(new, old)
+        >>> diff["worse"], diff["better"]
+        (['p on c, prep: off-coupler gates 0 -> 1'], [])
+        >>> diff["not_compared"][0].split(":")[1]
+        ' best f 0.4700 -> 0.4800 not compared'
+    """
     old = {(e["chip"], e["patch"]): e for e in baseline.get("results", [])}
-    worse, better = [], []
+    worse: list[str] = []
+    better: list[str] = []
+    skipped: list[str] = []
     for e in current["results"]:
-        key = (e["chip"], e["patch"])
         where = f"{e['patch']} on {e['chip']}"
-        before = old.get(key)
+        before = old.get((e["chip"], e["patch"]))
         if before is None:
             better.append(f"{where}: new in this report") if e["passed"] else \
                 worse.append(f"{where}: new in this report, and it fails")
             continue
-        old_circuits = {c["circuit"]: c for c in before["circuits"]}
-        for c in e["circuits"]:
-            prev = old_circuits.get(c["circuit"], {}).get("off_coupler_count")
-            now = c["off_coupler_count"]
-            if prev is not None and now is not None and now != prev:
-                (worse if now > prev else better).append(
-                    f"{where}, {c['circuit']}: off-coupler gates {prev} -> {now}")
-        p0, p1 = before["placements_within_allowance"], e["placements_within_allowance"]
-        if p1 != p0:
-            (worse if p1 < p0 else better).append(f"{where}: placements within allowance "
-                                                  f"{p0} -> {p1}")
-        s0, s1 = before.get("best_score"), e.get("best_score")
-        if s0 is not None and s1 is not None and abs(s1 - s0) > 1e-9:
-            (worse if s1 < s0 else better).append(
-                f"{where}: best {e['figure']} {s0:.4f} -> {s1:.4f}")
-        if before["passed"] and not e["passed"]:
-            worse.append(f"{where}: passed before, fails now")
-        elif not before["passed"] and e["passed"]:
-            better.append(f"{where}: failed before, passes now")
-    return {"worse": worse, "better": better}
+        w, b, n = _entry_changes(where, before, e)
+        if w and b:
+            n += [f"{line} (not called better: something else about {where} got worse)"
+                  for line in b]
+            b = []
+        worse += w
+        better += b
+        skipped += n
+    return {"worse": worse, "better": better, "not_compared": skipped}
+
+
+def _entry_changes(where: str, before: Json, now: Json) -> tuple[list[str], list[str],
+                                                                  list[str]]:
+    """(worse, better, not compared) for one chip x patch."""
+    worse: list[str] = []
+    better: list[str] = []
+    skipped: list[str] = []
+    complete0 = before.get("search", {}).get("complete", True)
+    complete1 = now.get("search", {}).get("complete", True)
+    if complete0 and not complete1:
+        worse.append(f"{where}: the search was complete, now cut short "
+                     f"({now['search'].get('stop_reason', 'budget')})")
+    elif complete1 and not complete0:
+        better.append(f"{where}: the search is complete now (it was cut short)")
+    old_off = {c["circuit"]: c.get("off_coupler_count") for c in before.get("circuits", [])}
+    new_off = {c["circuit"]: c.get("off_coupler_count") for c in now.get("circuits", [])}
+    for name, count in new_off.items():
+        prev = old_off.get(name)
+        if name not in old_off or prev == count:
+            continue
+        if count is None:
+            worse.append(f"{where}, {name}: off-coupler gates {prev} -> none judged (no "
+                         "placement)")
+        elif prev is None:
+            better.append(f"{where}, {name}: off-coupler gates none judged -> {count}")
+        else:
+            (worse if count > prev else better).append(
+                f"{where}, {name}: off-coupler gates {prev} -> {count}")
+    p0, p1 = before["placements_within_allowance"], now["placements_within_allowance"]
+    if p1 < p0:
+        worse.append(f"{where}: placements within allowance {p0} -> {p1}"
+                     + ("" if complete1 else " (search cut short)"))
+    elif p1 > p0 and complete0:
+        better.append(f"{where}: placements within allowance {p0} -> {p1}")
+    elif p1 > p0:
+        skipped.append(f"{where}: placements within allowance {p0} -> {p1} not compared: the "
+                       "baseline's search was cut short, so its count was a lower bound")
+    s0, s1 = before.get("best_score"), now.get("best_score")
+    if s0 is not None and s1 is not None and abs(s1 - s0) > 1e-9:
+        line = f"{where}: best {now['figure']} {s0:.4f} -> {s1:.4f}"
+        same_off = old_off.keys() == new_off.keys() and old_off == new_off and \
+            before.get("chosen_from", "ranking") == now.get("chosen_from", "ranking")
+        if same_off:
+            (worse if s1 < s0 else better).append(line)
+        else:
+            changed = ", ".join(f"{c} {old_off.get(c)} -> {new_off.get(c)}"
+                                for c in sorted(set(old_off) | set(new_off))
+                                if old_off.get(c) != new_off.get(c))
+            skipped.append(f"{line} not compared: the chosen placements differ in off-coupler "
+                           f"gates ({changed or 'how they were chosen'}), which the score "
+                           "leaves out")
+    if before["passed"] and not now["passed"]:
+        worse.append(f"{where}: passed before, fails now")
+    elif not before["passed"] and now["passed"]:
+        better.append(f"{where}: failed before, passes now")
+    return worse, better, skipped
 
 
 def sensitivity_rows(rows: Sequence[Sensitivity]) -> list[Json]:

@@ -111,6 +111,7 @@ def render_markdown(d: dict, max_gates: int = 20) -> str:
         out += ["", f"### Against the baseline ({base.get('file', 'previous report')})", ""]
         out += [f"- worse: {w}" for w in base["worse"]] or ["- nothing got worse"]
         out += [f"- better: {b}" for b in base["better"]]
+        out += [f"- not compared: {b}" for b in base.get("not_compared", [])]
     if d["internal_errors"]:
         out += ["", "### Internal errors (please report)", ""]
         out += [f"- {e}" for e in d["internal_errors"]]

@@ -349,6 +349,7 @@ def render_check(d: dict) -> str:
         out.append(f"Against the baseline {base.get('file', '')}:")
         out += [f"  worse:  {w}" for w in base["worse"]] or ["  nothing got worse"]
         out += [f"  better: {b}" for b in base["better"]]
+        out += [f"  not compared: {b}" for b in base.get("not_compared", [])]
         out.append("")
     for err in d["internal_errors"]:
         out.append(f"INTERNAL ERROR (exact audit and qiskit disagree): {err}")

@@ -396,3 +396,64 @@ def test_markdown_carries_the_incomplete_mark_the_text_shows(tmp_path, capsys):
     assert "(search incomplete: limit)" in capsys.readouterr().out
     row = next(r for r in md.read_text().splitlines() if r.startswith("| pass"))
     assert "| 1 (INCOMPLETE: limit) |" in row
+
+
+def test_a_prep_gate_moved_off_the_couplers_is_never_called_better(tmp_path, capsys):
+    # Before: "better: best fidelity_product 0.4699 -> 0.4738": the gate moved off the
+    # couplers leaves the score, which then rose. The cat state is unchanged: d3 copies d2.
+    shutil.copy(ROOT / "samples" / "flagged_weight4_round.qasm", tmp_path)
+    original = FIXED_PATCH.read_text()
+    assert original.count("      cx f[1], d[3];\n") == 1
+    (tmp_path / "unit.yaml").write_text(original)
+    project = tmp_path / "project.yaml"
+    project.write_text(f"embedcheck_project: 1\nname: moved-gate\nchips: [{DEMO_CHIP}]\n"
+                       "patches: [unit.yaml]\nrules:\n  max_off_coupler_gates: {prep: 1, "
+                       "default: 0}\n  min_placements: 1\n")
+    base = tmp_path / "base.json"
+    assert main(["check", str(project), "--cross-check-top", "0", "--json", str(base)]) == 0
+    (tmp_path / "unit.yaml").write_text(original.replace("      cx f[1], d[3];\n",
+                                                         "      cx d[2], d[3];\n"))
+    now = tmp_path / "now.json"
+    assert main(["check", str(project), "--cross-check-top", "0", "--json", str(now),
+                 "--baseline", str(base)]) == 0
+    report = json.loads(now.read_text())
+    jsonschema.Draft202012Validator(schema("check-report")).validate(report)
+    old_score = json.loads(base.read_text())["results"][0]["best_score"]
+    assert report["results"][0]["best_score"] > old_score        # the score did rise
+    diff = report["baseline"]
+    assert diff["better"] == []
+    assert any("prep: off-coupler gates 0 -> 1" in w for w in diff["worse"])
+    assert any("best fidelity_product" in n and "prep 0 -> 1" in n
+               for n in diff["not_compared"])
+    capsys.readouterr()
+    assert main(["check", str(project), "--cross-check-top", "0", "--baseline", str(base),
+                 "--fail-on-worse"]) == 1
+    assert "better:" not in capsys.readouterr().out
+
+
+def test_baseline_counts_and_completeness():
+    from embedcheck.report.data import compare_to_baseline
+
+    def entry(placements, complete=True, score=0.5, off=0, passed=True):
+        return {"results": [{"chip": "c", "patch": "p", "passed": passed, "figure": "f",
+                             "placements_within_allowance": placements, "best_score": score,
+                             "search": {"complete": complete, "stop_reason": "budget"},
+                             "circuits": [{"circuit": "round", "off_coupler_count": off}]}]}
+    # A count against a cut-short baseline is a lower bound: more now is not "better".
+    diff = compare_to_baseline(entry(9), entry(5, complete=False))
+    assert diff["worse"] == [] and not any("placements" in b for b in diff["better"])
+    assert any("lower bound" in n for n in diff["not_compared"])
+    assert any("cut short" in b for b in diff["better"])         # complete now: that is better
+    # Completeness lost: a higher score is not called better.
+    diff = compare_to_baseline(entry(5, complete=False, score=0.6), entry(5))
+    assert diff["better"] == [] and any("cut short" in w for w in diff["worse"])
+    assert any("0.5000 -> 0.6000" in n for n in diff["not_compared"])
+    # Same off-coupler counts, same completeness: scores are compared both ways.
+    assert compare_to_baseline(entry(5, score=0.6), entry(5))["better"] == [
+        "p on c: best f 0.5000 -> 0.6000"]
+    assert compare_to_baseline(entry(5, score=0.4), entry(5))["worse"] == [
+        "p on c: best f 0.5000 -> 0.4000"]
+    # Fewer placements and a higher score: the score is not called better.
+    diff = compare_to_baseline(entry(3, score=0.6), entry(5))
+    assert diff["better"] == [] and diff["worse"] == ["p on c: placements within allowance "
+                                                      "5 -> 3"]
