@@ -26,6 +26,7 @@ Otherwise it keeps the fidelity product, and `LogicalNote` says why. The report
 """
 from __future__ import annotations
 
+import time
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from enum import Enum
@@ -37,6 +38,7 @@ from ..errors import InputError
 from ..model.constraints import Constraints
 from ..model.device import Device
 from ..model.patch import Patch, observable_is_detector_parity
+from ..model.placement import Placement, PlacementRows, placement_grid
 from ..score.cost import Sensitivity, SnapshotRanking, rank_across_snapshots, sensitivity
 from ..score.logical import (
     LogicalRanking,
@@ -100,9 +102,13 @@ def run_find(snapshots: Sequence[Device], patch: Patch, *, limit: int | None = 1
     'estimate', 'undetected', 'kept' or 'fidelity_product'); `monte_carlo` shots sample
     the listed placements, `decode` decodes them (with 'auto': ranks them by the sampled
     decoded logical error, on `processes` worker processes); several snapshots are also
-    ranked over (`over_snapshots`: 'worst', 'mean' or 'q<fraction>').
+    ranked over (`over_snapshots`: 'worst', 'mean' or 'q<fraction>'). `budget_s` bounds
+    the whole run: the search and the scoring of what it finds share it, and the logical
+    figures are computed (best placements first) only while it lasts, at least for the
+    `top` listed (`LogicalRanking.unscored` counts the rest).
     """
     device = snapshots[-1]
+    deadline = None if budget_s is None else time.monotonic() + budget_s   # for every stage
     vetting = vet_patch(device, patch, limit=limit, budget_s=budget_s,
                         progress=(lambda n: progress("searching", n)) if progress else None,
                         constraints=constraints, processes=processes)
@@ -111,7 +117,8 @@ def run_find(snapshots: Sequence[Device], patch: Patch, *, limit: int | None = 1
     sensitive = tuple(sensitivity(device, patch, placements[0], top=5)) if placements else ()
     logical, note = _logical_ranking(device, patch, vetting, figure=figure,
                                      monte_carlo=monte_carlo, decode=decode, top=top,
-                                     processes=processes, progress=progress)
+                                     processes=processes, progress=progress,
+                                     deadline=deadline)
     if monte_carlo and logical is None and note is None:
         note = LogicalNote.NOTHING_TO_SAMPLE
     if logical is None and figure in ("estimate", "undetected", "kept"):
@@ -128,7 +135,7 @@ def run_find(snapshots: Sequence[Device], patch: Patch, *, limit: int | None = 1
 
 def _logical_ranking(device: Device, patch: Patch, vetting: Vetting, *, figure: str,
                      monte_carlo: int, decode: bool, top: int | None, processes: int,
-                     progress: Progress | None
+                     progress: Progress | None, deadline: float | None = None
                      ) -> tuple[LogicalRanking | None, LogicalNote | None]:
     """The ranking by a logical figure when asked, or by 'auto' when one applies (see the
     module docstring), else None; and the note on why."""
@@ -138,9 +145,10 @@ def _logical_ranking(device: Device, patch: Patch, vetting: Vetting, *, figure: 
         if figure != "auto" or monte_carlo:
             require_detectors(patch)                # one line: what to declare
         return None, LogicalNote.NO_DETECTORS
-    swap_free = [p for p, off in zip(vetting.ranking.placements, vetting.ranking.unscored_gates,
-                                     strict=True)
-                 if off == 0] if vetting.all_swap_free else []
+    swap_free: Sequence[Placement] = []
+    if vetting.all_swap_free:                 # rows with no off-coupler gate, no Python loop
+        rows = placement_grid(vetting.ranking.placements, patch.num_qubits)
+        swap_free = PlacementRows(rows[vetting.ranking.unscored_gates == 0], copy=False)
     if not swap_free:
         return None, None
     if figure == "auto":
@@ -161,7 +169,8 @@ def _logical_ranking(device: Device, patch: Patch, vetting: Vetting, *, figure: 
         out = rank_by_logical(device, patch, swap_free, figure=figure,
                               monte_carlo_shots=monte_carlo or 0,
                               top=top if top is not None else len(swap_free), decode=decode,
-                              processes=processes, executor=executor, progress=progress)
+                              processes=processes, executor=executor, progress=progress,
+                              deadline=deadline)
     note = None
     if out.figure == "undetected" and out.undetected is not None and not np.any(out.undetected):
         note = LogicalNote.UNDETECTED_ALL_ZERO

@@ -30,12 +30,12 @@ from ..audit.exact import AuditReport, audit_placement
 from ..model.constraints import Constraints
 from ..model.device import Device
 from ..model.patch import Patch
-from ..model.placement import Placement, off_coupler_counts, placement_grid
+from ..model.placement import PlacementRows, off_coupler_counts
 from ..place.near_misses import NearMiss, near_misses
 from ..place.reasons import Reason
 from ..place.search import SearchResult, StopReason, find_placements
 from ..place.symmetry import symmetry_order
-from ..score.cost import Ranking, rank_placements, scores
+from ..score.cost import Ranking, rank_placements, rank_scored, ranked_order, scores
 
 __all__ = ["CircuitFit", "Vetting", "vet_patch"]
 
@@ -147,10 +147,13 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
             core.append(name)
         elif not joint.complete:
             inconclusive.append(name)
+    ranker = _Ranker(device, patch)
     if core or not gated:
         core += [n for n in order if n not in gated]
+        # Found placements are scored while the search runs, so the budget bounds both.
         search = find_placements(device, patch, circuits=core, limit=limit, budget_s=left(),
-                                 progress=progress, constraints=rules, processes=processes)
+                                 progress=progress, constraints=rules, processes=processes,
+                                 on_found=ranker)
         misses: tuple[NearMiss, ...] = ()
     elif inconclusive:
         search = SearchResult(circuits=tuple(gated), placements=(), raw_maps=0,
@@ -168,9 +171,7 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
         misses = tuple(near_misses(device, patch, gated, constraints=rules,
                                    budget_s=min(5.0, 5.0 if deadline is None else left() or 0.0)))
     excluded = tuple(n for n in patch.circuits if n not in core)
-    ranking = rank_placements(device, patch, _best_of_orbits(device, patch, search))
-    names = list(patch.circuits)
-    off = off_coupler_counts(device, patch, ranking.placements, names)
+    ranking, off = ranker.ranking()
     best = audit_placement(device, patch, ranking.placements[0]) if ranking.placements else None
     used = {q for pair in patch.interaction_counts(core or list(patch.circuits)) for q in pair}
     unconstrained = tuple(q for i, q in enumerate(patch.qubits) if i not in used)
@@ -180,22 +181,97 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
                    near_misses=misses, inconclusive=tuple(inconclusive))
 
 
-def _best_of_orbits(device: Device, patch: Patch,
-                    search: SearchResult) -> tuple[Placement, ...]:
-    """Each distinct placement stands for its orbit under the patch's symmetries (of the
+class _Ranker:
+    """Scores placements as the search finds them (`find_placements(on_found=...)`), a
+    piece of about `PIECE` scored rows at a time, so that no per-placement Python work,
+    and no stage outside the search's budget, grows with the number found.
+
+    Each distinct placement stands for its orbit under the patch's symmetries (of the
     searched circuits); the circuits left out of the search, gate order and measurements
-    may still tell the members apart, so keep the best-scoring member of each orbit."""
-    placements = search.placements
-    k = len(search.symmetries)
-    if k <= 1 or not placements or len(placements) * k > 2_000_000:
-        return placements
-    grid = placement_grid(placements, patch.num_qubits)
-    perms = np.array(search.symmetries, dtype=np.int64)
-    members = grid[:, perms].reshape(len(placements) * k, patch.num_qubits)
-    terms, unscored = scores(device, patch, members)
-    total: np.ndarray = sum(terms.values())  # type: ignore[assignment]
-    order = np.lexsort((-total, unscored))
-    orbit = order // k
-    _, first = np.unique(orbit, return_index=True)
-    chosen = order[np.sort(first)]
-    return tuple(Placement(tuple(int(x) for x in members[i])) for i in chosen)
+    may still tell the members apart, so the best-scoring member of each orbit is kept
+    (fewest off-coupler gates, then the highest score; ties to the first member), as
+    long as all the members together number at most `MAX_MEMBERS`. Beyond that, every
+    placement is ranked as found (its canonical member): the first pieces are scored
+    both ways until then, so the choice depends only on how many were found."""
+
+    PIECE = 1 << 16
+    MAX_MEMBERS = 2_000_000
+
+    def __init__(self, device: Device, patch: Patch) -> None:
+        self.device, self.patch = device, patch
+        self.waiting: list[np.ndarray] = []
+        self.rows = 0
+        self.members = 0                      # orbit members scored so far
+        self.perms: np.ndarray | None = None
+        self.found: list[_Scored] = []         # each placement as found
+        self.best: list[_Scored] | None = []   # the best member of each orbit (None: too many)
+
+    def __call__(self, rows: np.ndarray, perms: np.ndarray) -> None:
+        self.waiting.append(rows)
+        self.rows += len(rows)
+        self.perms = perms
+        if self.rows * (len(perms) if self.best is not None else 1) >= self.PIECE:
+            self._score()
+
+    def _score(self) -> None:
+        if not self.waiting:
+            return
+        grid = np.concatenate(self.waiting).astype(np.int64)
+        self.waiting, self.rows = [], 0
+        perms = self.perms if self.perms is not None else np.zeros((1, 0), dtype=np.int64)
+        k = len(perms)
+        if self.best is not None and (k <= 1 or self.members + len(grid) * k
+                                      > self.MAX_MEMBERS):
+            self.best = None                  # one member per orbit only, from now on
+        if self.best is None:
+            self.found.append(self._scored(grid, *scores(self.device, self.patch, grid)))
+            return
+        self.members += len(grid) * k
+        step = max(1, self.PIECE // k)
+        identity = int(np.flatnonzero((perms == np.arange(perms.shape[1])).all(axis=1))[0])
+        for at in range(0, len(grid), step):
+            rows = grid[at:at + step]
+            members = rows[:, perms].reshape(len(rows) * k, -1)
+            terms, unscored = scores(self.device, self.patch, members)
+            total: np.ndarray = sum(terms.values())  # type: ignore[assignment]
+            pick = np.lexsort((-total.reshape(-1, k), unscored.reshape(-1, k)), axis=-1)[:, 0]
+            for chosen, into in ((np.arange(len(rows)) * k + pick, self.best),
+                                 (np.arange(len(rows)) * k + identity, self.found)):
+                into.append(self._scored(members[chosen], {name: value[chosen] for name, value
+                                                           in terms.items()},
+                                         unscored[chosen]))
+
+    def _scored(self, grid: np.ndarray, terms: dict[str, np.ndarray],
+                unscored: np.ndarray) -> _Scored:
+        off = off_coupler_counts(self.device, self.patch, PlacementRows(grid, copy=False),
+                                 list(self.patch.circuits)).astype(np.int32)
+        small = grid.astype(np.int32) if grid.size and grid.max() < 2**31 else grid
+        return small, terms, unscored, off
+
+    def ranking(self) -> tuple[Ranking, np.ndarray]:
+        """The ranking of everything found, and the off-coupler gates (placements in ranked
+        order, circuits in patch order)."""
+        self._score()
+        n, names = self.patch.num_qubits, list(self.patch.circuits)
+        parts = self.best if self.best is not None and self.perms is not None and \
+            len(self.perms) > 1 else self.found
+        self.found, self.best = [], None
+        if not parts:
+            empty = np.zeros((0, n), dtype=np.int64)
+            return (rank_placements(self.device, self.patch, PlacementRows(empty)),
+                    np.zeros((0, len(names)), dtype=np.int32))
+        grid = np.concatenate([p[0] for p in parts])
+        terms = {k: np.concatenate([p[1][k] for p in parts]) for k in parts[0][1]}
+        unscored = np.concatenate([p[2] for p in parts])
+        off = np.concatenate([p[3] for p in parts])
+        del parts
+        total: np.ndarray = sum(terms.values())  # type: ignore[assignment]
+        order = ranked_order(grid, total, unscored)
+        del total
+        for name in list(terms):           # one array at a time: less memory at the peak
+            terms[name] = terms[name][order]
+        return (rank_scored(grid[order], terms, unscored[order], order=np.arange(len(order))),
+                off[order])
+
+
+_Scored = tuple[np.ndarray, dict[str, np.ndarray], np.ndarray, np.ndarray]

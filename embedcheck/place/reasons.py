@@ -22,6 +22,7 @@ dropped, would let the patch fit (these re-run the search, passed in as `search`
 """
 from __future__ import annotations
 
+import functools
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, replace
 from typing import Any
@@ -149,11 +150,11 @@ def _shared_partner_reasons(patch: Patch, edges: list[tuple[int, int]],
                             couplers: Sequence[Pair]) -> list[Reason]:
     """Patch qubits u, v with k common partners need chip qubits with k common neighbours
     (and as many such pairs as the patch has)."""
-    chip = common_neighbours(couplers)
-    if chip is None:                         # too dense to list cheaply: no claim
+    mine = {p: k for p, k in (common_neighbours(edges) or {}).items() if k >= 2}
+    if not mine:                             # no two patch qubits share two partners
         return []
-    mine = common_neighbours(edges) or {}
-    if not mine:
+    chip = _chip_common_neighbours(tuple(couplers))
+    if chip is None:                         # too dense to list cheaply: no claim
         return []
     most = max(chip.values(), default=0)
     if most < 2:                 # a chip with no 4-cycle: the cycle reason names them
@@ -195,6 +196,13 @@ def _shared_partner_reasons(patch: Patch, edges: list[tuple[int, int]],
                                 f"have {k} or more common neighbours", qubits=qubits,
                            pairs=pairs)]
     return []
+
+
+@functools.lru_cache(maxsize=4)
+def _chip_common_neighbours(couplers: tuple[Pair, ...]) -> dict | None:
+    """The chip's common-neighbour counts, kept for the few chips a run searches on (every
+    search of a run asks again)."""
+    return common_neighbours(couplers)
 
 
 def _cycle_reasons(patch: Patch, edges: list[tuple[int, int]],

@@ -5,10 +5,11 @@
 """
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
 from enum import Enum
 
-from ..model.placement import Placement
+from ..model.placement import Placement, PlacementRows
 from .reasons import Reason
 
 __all__ = ["SearchResult", "StopReason"]
@@ -41,7 +42,7 @@ class SearchResult:
     """
 
     circuits: tuple[str, ...]
-    placements: tuple[Placement, ...]
+    placements: Sequence[Placement]          # kept as `PlacementRows` (one int array)
     raw_maps: int
     symmetry_order: int
     stop_reason: StopReason
@@ -50,6 +51,10 @@ class SearchResult:
     symmetries: tuple[tuple[int, ...], ...] = ()   # permutations of patch qubit indices
     notes: tuple[str, ...] = ()                    # caveats on how the result was counted
     culprits: tuple[Reason, ...] = ()              # `reasons`, with what each one blames
+
+    def __post_init__(self) -> None:
+        if not isinstance(self.placements, PlacementRows):
+            object.__setattr__(self, "placements", PlacementRows(self.placements))
 
     @property
     def complete(self) -> bool:

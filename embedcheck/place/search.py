@@ -43,7 +43,7 @@ from ..errors import InputError, did_you_mean
 from ..model.constraints import Constraints
 from ..model.device import Device
 from ..model.patch import Patch
-from ..model.placement import Placement
+from ..model.placement import PlacementRows
 from .completion import complete_placement
 from .enumeration import raw_maps
 from .reasons import Reason, constraint_reasons, necessary_conditions, part_reasons
@@ -65,7 +65,9 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
                     progress: Callable[[int], None] | None = None,
                     constraints: Constraints | None = None,
                     clock: Callable[[], float] = time.monotonic,
-                    max_maps: int | None = None, processes: int = 1) -> SearchResult:
+                    max_maps: int | None = None, processes: int = 1,
+                    on_found: Callable[[np.ndarray, np.ndarray], None] | None = None
+                    ) -> SearchResult:
     """All distinct swap-free placements of `patch` for `circuits` (default: all).
 
     `limit` caps the number of distinct placements, `budget_s` the seconds spent (read
@@ -76,6 +78,14 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
     `progress(n)` is called now and then with the number of raw maps seen. With
     `processes > 1` the chip's anchors are split among that many worker processes (the
     result is the same set; workers read the budget from the wall clock, not `clock`).
+    `on_found(rows, symmetries)` is called with each batch of new placements as they are
+    kept (rows of physical qubits in patch order; the symmetries as rows of patch qubit
+    indices), so a caller can score them while the search runs: its time counts against
+    `budget_s`, which then bounds searching and scoring together.
+
+    Placements are kept as one integer array (`PlacementRows`, 4 bytes per patch qubit
+    each), not as Python objects, and without a set of the ones seen: the matcher yields
+    one map per symmetry orbit, so canonical forms never repeat.
     """
     names = _check_request(patch, circuits, limit, budget_s, processes, max_maps)
     rules = constraints or Constraints()
@@ -101,12 +111,17 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
                  "maps are not merged by symmetry: each placement may appear in several "
                  "relabelled copies",)
     allowed = rules.allowed_by_role(device, set(patch.roles.values())) if rules.roles else None
-    found: list[Placement] = []
-    seen: set[bytes] = set()
+    found: list[np.ndarray] = []
+    count = 0
     raw, stop = 0, StopReason.COMPLETE
     usable = rules.qubits(device)
     blocked = {i for i in chip.node_indices() if chip[i] not in usable}
     perms = np.array(autos, dtype=np.int64).reshape(len(autos), len(placed))
+    symmetries = patch_permutations(autos, placed, patch.num_qubits)
+    whole_perms = np.array(symmetries, dtype=np.int64).reshape(len(autos), patch.num_qubits)
+    numbers = np.array(chip.nodes(), dtype=np.int64)
+    if len(numbers) and numbers.max() < 2**31 and numbers.min() >= 0:
+        numbers = numbers.astype(np.int32)           # 4 bytes per patch qubit and placement
     order = len(autos)                       # raw maps each representative stands for
     # A worker may stop at `cap` representatives only when each one is sure to become a
     # placement (every patch qubit interacts, so none is left to place and fail).
@@ -130,13 +145,18 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
             if max_maps is not None:
                 wanted = (max_maps - raw + order - 1) // order
                 block = block[:wanted]
-            used = _take(block, perms, seen, found, chip, patch, placed, blocked, allowed,
-                         limit)
+            used, rows = _take(block, perms, numbers, chip, patch, placed, blocked, allowed,
+                               None if limit is None else limit - count)
+            if len(rows):
+                found.append(rows)
+                count += len(rows)
+                if on_found is not None:
+                    on_found(rows, whole_perms)
             raw += used * order              # each representative stands for its orbit
             if progress is not None and raw > shown:
                 shown = raw                      # never backwards
                 progress(raw)
-        if limit is not None and len(found) >= limit:
+        if limit is not None and count >= limit:
             stop = StopReason.LIMIT
             break
         if max_maps is not None and raw >= max_maps:
@@ -160,39 +180,36 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
         if not rules.empty:
             reasons += constraint_reasons(device, patch, names, rules, clock, left,
                                           search=find_placements)
-    return SearchResult(circuits=names, placements=tuple(found), raw_maps=raw,
+    rows = np.concatenate(found) if found else np.zeros((0, patch.num_qubits), dtype=np.int64)
+    del found
+    return SearchResult(circuits=names, placements=PlacementRows(rows, copy=False), raw_maps=raw,
                         symmetry_order=len(autos), stop_reason=stop,
                         reasons=tuple(r.text for r in reasons), culprits=tuple(reasons),
-                        elapsed_s=clock() - start,
-                        symmetries=patch_permutations(autos, placed, patch.num_qubits),
-                        notes=notes)
+                        elapsed_s=clock() - start, symmetries=symmetries, notes=notes)
 
 
-def _take(batch: np.ndarray, perms: np.ndarray, seen: set[bytes], found: list[Placement],
-          chip: rx.PyGraph, patch: Patch, placed: Sequence[int], blocked: set[int],
-          allowed: Mapping[str, set[int]] | None, limit: int | None) -> int:
+def _take(batch: np.ndarray, perms: np.ndarray, numbers: np.ndarray, chip: rx.PyGraph,
+          patch: Patch, placed: Sequence[int], blocked: set[int],
+          allowed: Mapping[str, set[int]] | None, room: int | None) -> tuple[int, np.ndarray]:
     """Canonicalise a batch of raw maps (numpy, no per-map Python loop over the symmetry
-    group) and keep the new ones: the canonical form of a map is the lexicographically
-    smallest of its images under the patch's symmetries. Returns how many rows of the
-    batch were looked at (all, unless the limit was reached first)."""
+    group) and return (how many rows of the batch were looked at, the new placements as
+    rows of physical qubits), at most `room` of them. The canonical form of a map is the
+    lexicographically smallest of its images under the patch's symmetries; `numbers` is
+    the physical qubit of each chip graph node."""
     images = np.asarray(batch, dtype=np.int64).reshape(len(batch), len(placed))
     best = canonical_rows(images, perms)
-    whole = len(placed) == patch.num_qubits          # every patch qubit interacts
-    physical = np.array(chip.nodes(), dtype=np.int64)[best]
-    for i, row in enumerate(best):
-        key = row.tobytes()
-        if key in seen:
-            continue
-        seen.add(key)
-        if whole:
-            placement: Placement | None = Placement(tuple(physical[i].tolist()))
-        else:
-            placement = complete_placement(chip, patch, placed, row.tolist(), blocked, allowed)
+    if len(placed) == patch.num_qubits:          # every patch qubit interacts: no loop
+        if room is not None:
+            best = best[:room]
+        return len(best), numbers[best]
+    out: list[tuple[int, ...]] = []              # idle qubits to put near the placed ones
+    for i, row in enumerate(best.tolist()):
+        placement = complete_placement(chip, patch, placed, row, blocked, allowed)
         if placement is not None:
-            found.append(placement)
-        if limit is not None and len(found) >= limit:
-            return i + 1
-    return len(best)
+            out.append(placement.physical)
+        if room is not None and len(out) >= room:
+            return i + 1, np.array(out, dtype=numbers.dtype).reshape(len(out), patch.num_qubits)
+    return len(best), np.array(out, dtype=numbers.dtype).reshape(len(out), patch.num_qubits)
 
 
 def _check_request(patch: Patch, circuits: str | Sequence[str] | None, limit: int | None,

@@ -508,6 +508,8 @@ def logical_dict(patch: Patch, logical: LogicalRanking, top: int = 10,
         rows.append(row)
     out: Json = {"figure": logical.figure, "placements": len(logical.placements), "top": rows,
                  "method": _logical_method(logical, sampled), "rounds": logical.rounds}
+    if logical.unscored:
+        out["unscored_placements"] = logical.unscored
     if logical.estimate_order is not None:
         out["estimate"] = {"order": logical.estimate_order,
                            "fault_distance": logical.estimate_distance,

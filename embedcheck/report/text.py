@@ -409,8 +409,11 @@ def render_repair(d) -> str:
 def _logical_rows(logical: dict[str, Any]) -> list[str]:
     """The ranking by a logical figure: its deterministic figures, then what was sampled."""
     estimate = logical.get("estimate")
+    left_out = logical.get("unscored_placements", 0)
+    cut = (f"; INCOMPLETE: scored best by the cost model first, the time budget ran out "
+           f"before the other {left_out}, which this ranking leaves out") if left_out else ""
     out = [f"Ranked by {logical['figure']} ({logical['method']}; "
-           f"{logical['placements']} swap-free placements):"]
+           f"{logical['placements']} swap-free placements{cut}):"]
     if estimate:
         out.append(f"  (estimate: to order {estimate['order']}, fault sets of up to "
                    f"{estimate['order']} faults; fault distance {estimate['fault_distance']}"

@@ -59,13 +59,14 @@ import numpy as np
 from ..errors import InputError
 from ..model.device import CalibrationArrays, Device
 from ..model.patch import Patch
-from ..model.placement import Placement, check_placements, placement_grid
+from ..model.placement import Placement, PlacementRows, check_placements, placement_grid
 from .idle import idle_channel
 from .schedule import run_idles
 
 __all__ = ["CAUTION", "FIGURE", "TERMS", "Ranking", "Sensitivity", "SnapshotRanking",
-           "experiment_counts", "rank_across_snapshots", "rank_placements", "scores",
-           "sensitivity"]
+           "experiment_counts", "rank_across_snapshots", "rank_placements", "rank_scored",
+           "ranked_order",
+           "scores", "scores_in_chunks", "sensitivity"]
 
 FIGURE = "fidelity_product"
 TERMS = ("two_qubit", "readout", "single_qubit", "reset", "idle")
@@ -75,13 +76,21 @@ CAUTION = ("Scores are model estimates from the calibration you supplied, which 
 
 @dataclass(frozen=True, kw_only=True)
 class Ranking:
-    """Placements sorted best first, with the score and its terms (natural logs)."""
+    """Placements sorted best first, with the score and its terms (natural logs).
+
+    `placements` is kept as `PlacementRows` (one integer array, not an object each)."""
 
     figure: str
-    placements: tuple[Placement, ...]
+    placements: Sequence[Placement]
     log_success: np.ndarray
     terms: Mapping[str, np.ndarray]   # term name -> log contribution array, same order
     unscored_gates: np.ndarray  # off-coupler gates per placement, not in the score
+
+    def __post_init__(self) -> None:
+        if not isinstance(self.placements, PlacementRows):
+            object.__setattr__(self, "placements", PlacementRows(
+                self.placements, num_qubits=len(self.placements[0].physical)
+                if len(self.placements) else 0))
 
     @property
     def success(self) -> np.ndarray:
@@ -158,16 +167,43 @@ def _log_no_idle(waited: np.ndarray, t1: np.ndarray, t2: np.ndarray) -> np.ndarr
     return out
 
 
-def rank_placements(device: Device, patch: Patch, placements: Sequence[Placement]) -> Ranking:
-    """Score every placement with the cost model above and sort best first."""
+def rank_placements(device: Device, patch: Patch, placements: Sequence[Placement], *,
+                    chunk: int = 1 << 16) -> Ranking:
+    """Score every placement with the cost model above and sort best first (scored
+    `chunk` placements at a time, so memory stays bounded for millions)."""
     grid = check_placements(device, patch, placements)
-    terms, unscored = scores(device, patch, grid)
-    total: np.ndarray = sum(terms.values()) if terms else np.zeros(len(placements))  # type: ignore[assignment]
-    # Fewest off-coupler (unscored) gates first, then best score; ties broken by the
-    # placement itself so the order is reproducible.
-    order = np.lexsort(tuple(grid[:, k] for k in range(grid.shape[1] - 1, -1, -1))
-                       + (-total, unscored))
-    return Ranking(figure=FIGURE, placements=tuple(placements[i] for i in order),
+    terms, unscored = scores_in_chunks(device, patch, grid, chunk=chunk)
+    return rank_scored(grid, terms, unscored)
+
+
+def ranked_order(grid: np.ndarray, total: np.ndarray, unscored: np.ndarray) -> np.ndarray:
+    """Fewest off-coupler (unscored) gates first, then the best total log score; ties
+    broken by the placement itself (its row), so the order is reproducible."""
+    return np.lexsort(tuple(grid[:, k] for k in range(grid.shape[1] - 1, -1, -1))
+                      + (-total, unscored))
+
+
+def scores_in_chunks(device: Device, patch: Patch, grid: np.ndarray, *,
+                     chunk: int = 1 << 16) -> tuple[dict[str, np.ndarray], np.ndarray]:
+    """`scores` over `grid`, `chunk` rows at a time (the same figures, less memory)."""
+    if len(grid) <= chunk:
+        return scores(device, patch, grid)
+    parts = [scores(device, patch, grid[i:i + chunk]) for i in range(0, len(grid), chunk)]
+    return ({k: np.concatenate([t[k] for t, _ in parts]) for k in parts[0][0]},
+            np.concatenate([u for _, u in parts]))
+
+
+def rank_scored(grid: np.ndarray, terms: Mapping[str, np.ndarray], unscored: np.ndarray,
+                *, figure: str = FIGURE, order: np.ndarray | None = None) -> Ranking:
+    """The ranking of already scored placements (rows of `grid`) in `ranked_order`
+    (worked out here unless given)."""
+    total: np.ndarray = sum(terms.values()) if terms else np.zeros(len(grid))  # type: ignore[assignment]
+    if order is None:
+        order = ranked_order(grid, total, unscored)
+    elif np.array_equal(order, np.arange(len(grid))):      # already in order: no copies
+        return Ranking(figure=figure, placements=PlacementRows(grid, copy=False),
+                       log_success=total, terms=dict(terms), unscored_gates=unscored)
+    return Ranking(figure=figure, placements=PlacementRows(grid[order], copy=False),
                    log_success=total[order], terms={k: v[order] for k, v in terms.items()},
                    unscored_gates=unscored[order])
 
@@ -184,7 +220,7 @@ class SnapshotRanking:
 
     figure: str
     by: str
-    placements: tuple[Placement, ...]
+    placements: Sequence[Placement]          # PlacementRows
     aggregate: np.ndarray
     per_snapshot: np.ndarray
     timestamps: tuple[str | None, ...]
@@ -232,7 +268,7 @@ def rank_across_snapshots(snapshots: Sequence[Device], patch: Patch,
         ranks.append(int(np.nonzero(own == 0)[0][0]) + 1 if len(placements) else 0)
     stable = float(np.mean([r <= top_k for r in ranks])) if ranks else 0.0
     newest = int(np.lexsort((-logs[-1], worst_off[order]))[0]) + 1 if len(placements) else 0
-    return SnapshotRanking(figure=FIGURE, by=by, placements=tuple(placements[i] for i in order),
+    return SnapshotRanking(figure=FIGURE, by=by, placements=PlacementRows(grid[order]),
                            aggregate=agg[order], per_snapshot=logs,
                            timestamps=tuple(d.calibration_timestamp for d in snapshots),
                            winner_ranks=tuple(ranks), top_k=top_k, stability=stable,
