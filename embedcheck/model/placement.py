@@ -11,7 +11,7 @@ made on demand, so a limit of millions stays within a few hundred MB.
 
     >>> rows = PlacementRows([[0, 1, 2], [1, 0, 2]])
     >>> len(rows), rows[1], rows.index(Placement((1, 0, 2)))
-    (2, Placement(physical=(1, 0, 2)), 1)
+    (2, Placement(1, 0, 2), 1)
 
     >>> from embedcheck.model.device import Device
     >>> from embedcheck.model.lattices import line

@@ -368,6 +368,25 @@ def test_check_blames_the_round_that_cannot_fit_not_the_prep(edited_round, capsy
     assert not cases["round: no added two-qubit gates"].is_passed
 
 
+def test_html_page_and_notebook_show_the_blame_and_the_nearest_misses(edited_round, capsys,
+                                                                     monkeypatch):
+    import html5lib
+
+    from embedcheck import load_device, load_patch, run_find
+    folder, edited = edited_round
+    monkeypatch.chdir(folder)
+    page = folder / "out.html"
+    assert main(["check", "project.yaml", "--cross-check-top", "0", "--html", str(page)]) == 1
+    text = page.read_text()
+    html5lib.HTMLParser(strict=True).parse(text)
+    assert "Circuits that cannot fit: round" in text and "Nearest misses" in text
+    assert "d0-a0, d3-a0" in text or "a0-d0, a0-d3" in text
+    assert all(f"flagged_weight4_round.qasm:{line}" in text for line in edited)
+    found = run_find([load_device(DEMO_CHIP)], load_patch(folder / "unit.yaml"))
+    shown = found.vetting._repr_html_()
+    assert "nearest miss" in shown and "a0 (ancilla) with 4" in shown
+
+
 def test_without_a_nearest_miss_sarif_points_at_the_gates_the_reasons_blame(
         edited_round, capsys, monkeypatch):
     import embedcheck.pipeline.vet as vet
