@@ -104,8 +104,9 @@ def run_find(snapshots: Sequence[Device], patch: Patch, *, limit: int | None = 1
     decoded logical error, on `processes` worker processes); several snapshots are also
     ranked over (`over_snapshots`: 'worst', 'mean' or 'q<fraction>'). `budget_s` bounds
     the whole run: the search and the scoring of what it finds share it, and the logical
-    figures are computed (best placements first) only while it lasts, at least for the
-    `top` listed (`LogicalRanking.unscored` counts the rest).
+    figures and the ranking over several snapshots are computed (best placements first)
+    only while it lasts, at least for the `top` listed (`LogicalRanking.unscored` and
+    `SnapshotRanking.unscored` count the rest).
     """
     device = snapshots[-1]
     deadline = None if budget_s is None else time.monotonic() + budget_s   # for every stage
@@ -126,7 +127,8 @@ def run_find(snapshots: Sequence[Device], patch: Patch, *, limit: int | None = 1
                          "circuit to score; use fidelity_product", key=f"--figure {figure}")
     robust = None
     if len(snapshots) > 1 and placements:
-        robust = rank_across_snapshots(snapshots, patch, placements, by=over_snapshots)
+        robust = rank_across_snapshots(snapshots, patch, placements, by=over_snapshots,
+                                       deadline=deadline)
     sdk = compare_with_sdk(device, patch, vetting) if compare_sdk else None
     return FindResult(vetting=vetting, top=shown, sensitivity=sensitive, logical=logical,
                       logical_note=note, sampled=bool(monte_carlo), decoded=decode,

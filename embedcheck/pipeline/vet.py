@@ -37,7 +37,12 @@ from ..place.search import SearchResult, StopReason, find_placements
 from ..place.symmetry import symmetry_order
 from ..score.cost import Ranking, rank_placements, rank_scored, ranked_order, scores
 
-__all__ = ["CircuitFit", "Vetting", "vet_patch"]
+__all__ = ["SEARCH_SHARE", "CircuitFit", "Vetting", "vet_patch"]
+
+# The full search (with the scoring of what it finds) may use this share of what is left
+# of the budget; the rest is kept for the stages after it (the final sort, the audit, the
+# logical figures, several snapshots, reports), so `budget_s` bounds the whole run.
+SEARCH_SHARE = 0.8
 
 _CORE_ORDER = ("round", "readout", "prep")
 
@@ -150,8 +155,11 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
     ranker = _Ranker(device, patch)
     if core or not gated:
         core += [n for n in order if n not in gated]
-        # Found placements are scored while the search runs, so the budget bounds both.
-        search = find_placements(device, patch, circuits=core, limit=limit, budget_s=left(),
+        # Found placements are scored while the search runs, so the budget bounds both;
+        # the rest of the budget is kept for what follows (ranking, audit, reports).
+        share = left()
+        search = find_placements(device, patch, circuits=core, limit=limit,
+                                 budget_s=None if share is None else share * SEARCH_SHARE,
                                  progress=progress, constraints=rules, processes=processes,
                                  on_found=ranker)
         misses: tuple[NearMiss, ...] = ()

@@ -460,7 +460,8 @@ def snapshot_dict(patch: Patch, robust: SnapshotRanking, top: int = 5) -> Json:
     return {"figure": robust.figure, "by": robust.by, "count": len(robust.timestamps),
             "timestamps": list(robust.timestamps), "top": rows,
             "winner_ranks": list(robust.winner_ranks), "top_k": robust.top_k,
-            "stability": robust.stability, "newest_winner_rank": robust.newest_winner_rank}
+            "stability": robust.stability, "newest_winner_rank": robust.newest_winner_rank,
+            "placements": len(robust.placements), "unscored_placements": robust.unscored}
 
 
 def sdk_dict(patch: Patch, sdk: SdkComparison) -> Json:

@@ -150,6 +150,11 @@ def _find(payload, pictures) -> str:
              "; ".join(c.get("reasons", []))] for c in payload["circuits"]]
     out.append(_table(["circuit", "2q gates", "fits alone", "in the layout", "why not"], rows))
     out += _near_misses(payload.get("near_misses", []))
+    for part, what in (("logical", "logical ranking"), ("snapshots", "ranking over snapshots")):
+        cut = (payload.get(part) or {}).get("unscored_placements", 0)
+        if cut:
+            out.append(f"<p>INCOMPLETE {what}: the time budget ran out before {cut} "
+                       "placement(s) were scored; the best by the cost model came first.</p>")
     best = payload.get("best_audit")
     if best:
         bad = [g for c in best["circuits"] for g in c.get("off_coupler", [])]

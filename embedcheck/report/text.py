@@ -173,8 +173,11 @@ def render_find(d: dict) -> str:
                        f"{r['log_contribution']:>8.4f}  {r['derivative']:>10.4g}")
     snap = d.get("snapshots")
     if snap:
+        cut = snap.get("unscored_placements", 0)
         out += ["", f"Across {snap['count']} calibration snapshots, ranked by the {snap['by']} "
-                    f"{snap['figure']}:"]
+                    f"{snap['figure']}" + (f" (INCOMPLETE: the time budget ran out after the "
+                                           f"best {snap['placements']} by the newest snapshot; "
+                                           f"{cut} more left out)" if cut else "") + ":"]
         for r in snap["top"]:
             each = " ".join(format_score(x) for x in r["per_snapshot_success"])
             out.append(f"  {r['rank']:>4}  per snapshot {each}  {_placement(r['qubits'])}")

@@ -51,6 +51,7 @@ over placements.
 """
 from __future__ import annotations
 
+import time
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 
@@ -228,20 +229,38 @@ class SnapshotRanking:
     top_k: int
     stability: float
     newest_winner_rank: int       # where the newest snapshot's own winner ranks overall
+    unscored: int = 0             # placements left out: the time budget ran out first
 
 
 def rank_across_snapshots(snapshots: Sequence[Device], patch: Patch,
                           placements: Sequence[Placement], *, by: str = "worst",
-                          top_k: int = 5) -> SnapshotRanking:
-    """Rank by the mean, the worst, or a quantile ('q0.25') of the per-snapshot log score."""
-    grid = placement_grid(placements, patch.num_qubits)
-    per_device, off_per_device = [], []
-    for device in snapshots:
-        terms, off = scores(device, patch, grid)
-        per_device.append(sum(terms.values()))
-        off_per_device.append(off)
-    logs = np.array(per_device).reshape(len(snapshots), len(placements))
-    unscored = np.array(off_per_device).reshape(len(snapshots), len(placements))
+                          top_k: int = 5, deadline: float | None = None,
+                          chunk: int = 1 << 15) -> SnapshotRanking:
+    """Rank by the mean, the worst, or a quantile ('q0.25') of the per-snapshot log score.
+
+    The placements are scored `chunk` at a time on every snapshot; with a `deadline`
+    (time.monotonic) only the first ones scored before it passes are ranked (at least one
+    chunk: pass them best first by the newest snapshot), the rest counted in `unscored`."""
+    full = placement_grid(placements, patch.num_qubits)
+    per_device: list[list[np.ndarray]] = [[] for _ in snapshots]
+    off_per_device: list[list[np.ndarray]] = [[] for _ in snapshots]
+    done = 0
+    while done < len(full) or not done:
+        part = full[done:done + chunk]
+        for s, device in enumerate(snapshots):
+            terms, off = scores(device, patch, part)
+            total: np.ndarray = sum(terms.values()) if terms else np.zeros(len(part))  # type: ignore[assignment]
+            per_device[s].append(total)
+            off_per_device[s].append(off)
+        done += len(part)
+        if not len(part) or (deadline is not None and time.monotonic() > deadline):
+            break
+    grid = full[:done]
+    left_out = len(full) - done
+    placements = placements[:done]
+    logs = np.array([np.concatenate(p) for p in per_device]).reshape(len(snapshots), done)
+    unscored = np.array([np.concatenate(p) for p in off_per_device]).reshape(len(snapshots),
+                                                                             done)
     # A placement that needs more off-coupler gates in some snapshot than it does at its
     # best (a coupler or qubit dead that day), or sits on a qubit dead that day, cannot
     # run as planned then: it scores 0 (log -inf) in that snapshot.
@@ -272,7 +291,7 @@ def rank_across_snapshots(snapshots: Sequence[Device], patch: Patch,
                            aggregate=agg[order], per_snapshot=logs,
                            timestamps=tuple(d.calibration_timestamp for d in snapshots),
                            winner_ranks=tuple(ranks), top_k=top_k, stability=stable,
-                           newest_winner_rank=newest)
+                           newest_winner_rank=newest, unscored=left_out)
 
 
 @dataclass(frozen=True, kw_only=True)

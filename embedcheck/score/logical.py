@@ -202,11 +202,12 @@ def _scores_until(device: Device, patch: Patch, placements: Sequence[Placement],
     """The first placements' fast scores, in pieces, until the deadline has passed and at
     least `at_least` are scored."""
     out: list[FastScore] = []
-    piece = 64 * max(1, processes)
+    piece = 16 * max(1, processes)        # small pieces: the deadline is read often
     while len(out) < len(placements):
-        if len(out) >= at_least and time.monotonic() > deadline:
+        late = time.monotonic() > deadline
+        if len(out) >= at_least and late:
             break
-        chunk = placements[len(out):len(out) + piece]
+        chunk = placements[len(out):len(out) + (at_least - len(out) if late else piece)]
         out += fast_scores(device, patch, list(chunk), processes=processes)
         if progress is not None:
             progress(len(out))
