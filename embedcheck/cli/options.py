@@ -21,7 +21,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any, NoReturn
 
 from ..errors import InputError
-from ..io.limits import MAX_QUBIT_NUMBER
+from ..io.limits import MAX_QUBIT_NUMBER, SEARCH_LIMIT
 
 if TYPE_CHECKING:
     from ..model.constraints import Constraints
@@ -51,7 +51,7 @@ def add_common(p: argparse.ArgumentParser) -> None:
 
 
 def add_search_options(p: argparse.ArgumentParser) -> None:
-    p.add_argument("--limit", type=positive_int, default=100_000,
+    p.add_argument("--limit", type=positive_int, default=SEARCH_LIMIT,
                    help="stop after this many distinct placements (default 100000); the "
                         "ranking covers only the placements found")
     p.add_argument("--budget-s", type=positive_float, default=60.0,

@@ -10,6 +10,7 @@ from pathlib import Path
 from typing import Mapping
 
 from ..errors import did_you_mean
+from .limits import SEARCH_LIMIT
 from .yamlfile import Document, read_yaml
 
 __all__ = ["PatchEntry", "Project", "Rules", "load_project"]
@@ -50,7 +51,7 @@ class Project:
     reports: Mapping[str, str]
     cross_check_top: int = 3
     cross_check_seed: int = 11
-    limit: int = 10_000
+    limit: int = SEARCH_LIMIT
     budget_s: float = 60.0
 
 
@@ -91,7 +92,7 @@ def load_project(path: str | Path) -> Project:
     search = data.get("search", {})
     return Project(name=data["name"], file=doc.file, chips=tuple(chips), patches=tuple(patches),
                    reports=reports, cross_check_top=cross.get("top", 3),
-                   cross_check_seed=cross.get("seed", 11), limit=search.get("limit", 10_000),
+                   cross_check_seed=cross.get("seed", 11), limit=search.get("limit", SEARCH_LIMIT),
                    budget_s=search.get("budget_s", 60.0))
 
 

@@ -12,7 +12,9 @@ placement a user would take (the best-ranked one):
 
 With `cross_check_top > 0` the top placements are re-checked through qiskit's
 transpiler; any disagreement with the exact audit is an internal error (exit 3),
-never a rule outcome.
+never a rule outcome. The cross-check shares the pair's `budget_s` with the search: a
+placement is re-checked only while it lasts (`PairResult.cross_check_cut` says when
+the budget cut the top short).
 
 A circuit that cannot be placed without added gates even on its own is the one blamed,
 with its own reasons; when no placement makes the check round swap-free, the rules are
@@ -34,6 +36,7 @@ judged on the nearest miss, so the gates at fault have their lines:
 """
 from __future__ import annotations
 
+import time
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 
@@ -43,6 +46,7 @@ from ..audit.cross_check import cross_check
 from ..audit.exact import AuditReport, OffCouplerGate, audit_placement
 from ..errors import InputError
 from ..io.chipfile import load_device
+from ..io.limits import SEARCH_LIMIT
 from ..io.patchfile import load_patch
 from ..io.projectfile import Project, Rules
 from ..model.device import Device
@@ -104,6 +108,8 @@ class PairResult:
     chosen_from: str | None = None
     chosen_score: float | None = None     # the figure of the chosen ranked placement
     blamed: tuple[str, ...] = ()
+    cross_checked: int = 0                # placements re-checked through qiskit
+    cross_check_cut: bool = False         # the budget ran out before the rest of the top
 
     @property
     def passed(self) -> bool:
@@ -147,7 +153,7 @@ def run_project(project: Project, *, cross_check_top: int | None = None,
     return CheckResult(project=project, pairs=tuple(pairs))
 
 
-def check_pair(device: Device, patch: Patch, rules: Rules, *, limit: int = 10_000,
+def check_pair(device: Device, patch: Patch, rules: Rules, *, limit: int = SEARCH_LIMIT,
                budget_s: float = 60.0, cross_check_top: int = 3, seed: int = 11,
                rule_lines: Mapping[str, int | None] | None = None,
                project_file: str | None = None) -> PairResult:
@@ -159,6 +165,7 @@ def check_pair(device: Device, patch: Patch, rules: Rules, *, limit: int = 10_00
     found (a heuristic), so the gates at fault have their lines. `rule_lines` (rule ->
     line of `project_file`) locate failures that no gate explains.
     """
+    deadline = time.monotonic() + budget_s          # the cross-check shares the budget
     vetting = vet_patch(device, patch, limit=limit, budget_s=budget_s,
                         round_may_route=rules.allowed("round") > 0)
     names = list(patch.circuits)
@@ -215,11 +222,17 @@ def check_pair(device: Device, patch: Patch, rules: Rules, *, limit: int = 10_00
                                         message=f"{figure} {score:.4f} on the chosen placement, "
                                                 f"floor {floor:.4f}",
                                         locations=rule_at("score_floor")))
-    disagreements: tuple[str, ...] = ()
-    if cross_check_top and len(ranked):
-        disagreements = tuple(cross_check(device, patch, ranked[:cross_check_top], seed=seed))
+    disagreements: list[str] = []
+    checked = 0
+    wanted = min(cross_check_top, len(ranked))
+    for placement in ranked[:wanted]:
+        if time.monotonic() > deadline:                  # read before each placement
+            break
+        disagreements += cross_check(device, patch, [placement], seed=seed)
+        checked += 1
     return PairResult(device=device, patch=patch, rules=rules, vetting=vetting, audit=audit,
-                      outcomes=tuple(outcomes), cross_check=disagreements,
+                      outcomes=tuple(outcomes), cross_check=tuple(disagreements),
+                      cross_checked=checked, cross_check_cut=checked < wanted,
                       allowed_placements=allowed, chosen_from=chosen_from, chosen_score=score,
                       blamed=blamed)
 

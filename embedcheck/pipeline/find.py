@@ -35,6 +35,7 @@ import numpy as np
 
 from ..engine import ProcessExecutor, SerialExecutor
 from ..errors import InputError
+from ..io.limits import SEARCH_LIMIT
 from ..model.constraints import Constraints
 from ..model.device import Device
 from ..model.patch import Patch, observable_is_detector_parity
@@ -91,7 +92,7 @@ class FindResult:
         return html_of(self)
 
 
-def run_find(snapshots: Sequence[Device], patch: Patch, *, limit: int | None = 100_000,
+def run_find(snapshots: Sequence[Device], patch: Patch, *, limit: int | None = SEARCH_LIMIT,
              budget_s: float | None = 60.0, constraints: Constraints | None = None,
              processes: int = 1, top: int | None = 10, figure: str = "auto",
              monte_carlo: int = 0, decode: bool = False, over_snapshots: str = "worst",

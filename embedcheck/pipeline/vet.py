@@ -27,6 +27,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..audit.exact import AuditReport, audit_placement
+from ..io.limits import SEARCH_LIMIT
 from ..model.constraints import Constraints
 from ..model.device import Device
 from ..model.patch import Patch
@@ -97,7 +98,7 @@ class Vetting:
         return html_of(self)
 
 
-def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
+def vet_patch(device: Device, patch: Patch, *, limit: int | None = SEARCH_LIMIT,
               budget_s: float | None = 60.0,
               progress: Callable[[int], None] | None = None,
               constraints: Constraints | None = None, processes: int = 1,

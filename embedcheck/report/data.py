@@ -324,6 +324,8 @@ def check_dict(result: CheckResult, baseline: Json | None = None) -> Json:
             "chosen_from": pair.chosen_from,
             "blamed_circuits": list(pair.blamed),
             "near_misses": _near_miss_rows(pair.patch, v.near_misses),
+            "cross_checked": {"placements": pair.cross_checked,
+                              "cut_by_budget": pair.cross_check_cut},
             "figure": v.ranking.figure, "best_score": pair.chosen_score,
             "circuits": circuits,
             "outcomes": [{"rule": o.rule, "circuit": o.circuit, "passed": o.passed,

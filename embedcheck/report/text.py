@@ -330,6 +330,10 @@ def render_check(d: dict) -> str:
             pairs = ", ".join(f"{a}-{b}" for a, b in m["missing_pairs"])
             out.append(f"  nearest miss (a heuristic): {m['off_coupler_gates']} off-coupler "
                        f"gate(s) over the experiment; pairs without a coupler: {pairs}")
+        cross = e.get("cross_checked") or {}
+        if cross.get("cut_by_budget"):
+            out.append(f"  cross-check with qiskit INCOMPLETE: the time budget ran out after "
+                       f"{cross['placements']} of the top placement(s)")
         gates = {c["circuit"]: c["gates"] for c in e["circuits"]}
         for o in e["outcomes"]:
             label = o["rule"] + (f" {o['circuit']}" if o["circuit"] else "")

@@ -93,3 +93,39 @@ def test_a_passed_deadline_leaves_the_snapshot_ranking_to_the_first_chunk():
     d["snapshots"]["unscored_placements"], d["snapshots"]["placements"] = 7, 8
     assert "INCOMPLETE: the time budget ran out after the best 8 by the newest snapshot; " \
            "7 more left out" in " ".join(render_find(d).split())
+
+
+def test_check_cross_checks_only_while_the_budget_lasts(tmp_path, capsys, monkeypatch):
+    import types
+
+    import embedcheck.pipeline.checks as checks
+    from helpers import DEMO_CHIP, FIXED_PATCH
+    project = tmp_path / "project.yaml"
+    project.write_text(f"embedcheck_project: 1\nname: budget\nchips: [{DEMO_CHIP}]\n"
+                       f"patches: [{FIXED_PATCH}]\nrules:\n  min_placements: 1\n"
+                       "cross_check: {top: 3}\n")
+    out = tmp_path / "r.json"
+    assert main(["check", str(project), "--json", str(out)]) == 0
+    whole = json.loads(out.read_text())["results"][0]["cross_checked"]
+    assert whole == {"placements": 3, "cut_by_budget": False}
+    ticks = iter(range(0, 10**9, 1000))         # every reading of the clock: 1000 s later
+    monkeypatch.setattr(checks, "time", types.SimpleNamespace(monotonic=lambda: next(ticks)))
+    out.unlink()
+    assert main(["check", str(project), "--json", str(out)]) == 0
+    report = json.loads(out.read_text())
+    jsonschema.Draft202012Validator(schema("check-report")).validate(report)
+    assert report["results"][0]["cross_checked"] == {"placements": 0, "cut_by_budget": True}
+    assert "cross-check with qiskit INCOMPLETE" in capsys.readouterr().out
+
+
+def test_check_default_limit_is_finds(tmp_path):
+    # Before: check kept 10,000 placements unless told, find 100,000, and nothing said so.
+    from embedcheck.cli.app import build_parser
+    from embedcheck.io.limits import SEARCH_LIMIT
+    from embedcheck.io.projectfile import load_project
+    from helpers import DEMO_CHIP, FIXED_PATCH
+    project = tmp_path / "project.yaml"
+    project.write_text(f"embedcheck_project: 1\nname: defaults\nchips: [{DEMO_CHIP}]\n"
+                       f"patches: [{FIXED_PATCH}]\nrules:\n  min_placements: 1\n")
+    find = build_parser().parse_args(["find", str(DEMO_CHIP), str(FIXED_PATCH)])
+    assert load_project(project).limit == find.limit == SEARCH_LIMIT == 100_000
