@@ -54,6 +54,24 @@ def test_every_command_and_patch_source_exits_0_or_2(sources, capsys, good, bad)
         assert not (sources / "picture.png").exists()
 
 
+@pytest.mark.parametrize("good,bad,verdict", [("patch.yaml", "bad.yaml", 1),
+                                              ("round.qasm", "bad.qasm", 0),
+                                              ("rep.stim", "bad.stim", 0)])
+def test_check_on_every_patch_source_exits_0_1_or_2(sources, capsys, good, bad, verdict):
+    for patch, code in ((good, verdict), (bad, 2)):
+        project = sources / f"project_{patch}.yaml"
+        project.write_text(f"embedcheck_project: 1\nname: codes\nchips: [{DEMO_CHIP}]\n"
+                           f"patches: [{patch}]\nrules:\n  max_off_coupler_gates: 0\n"
+                           f"reports: {{json: report_{patch}.json}}\n")
+        assert main(["check", str(project), "--cross-check-top", "0"]) == code, patch
+        err = capsys.readouterr().err
+        if code == 2:
+            _one_line(err)
+            assert bad in err and not (sources / f"report_{patch}.json").exists()
+        else:
+            assert (sources / f"report_{patch}.json").exists()
+
+
 @pytest.mark.parametrize("option", [["--router-estimate"], ["--write-qasm", "out"]])
 def test_stim_patch_with_openqasm_only_audit_options_is_an_input_problem(sources, capsys,
                                                                            option):
