@@ -34,7 +34,7 @@ __all__ = ["Parser", "add_common", "add_constraint_options", "add_html_option",
            "kind_of", "max_processes", "non_negative_int", "pair_list", "parse_placement",
            "picture_bytes_for", "positive_float", "positive_int", "progress_printer",
            "request_constraints", "require_html_path", "require_picture_path", "seed_value",
-           "top_count"]
+           "stage_printer", "top_count"]
 
 
 class Parser(argparse.ArgumentParser):
@@ -291,6 +291,28 @@ class _Progress:
 
     def done(self) -> None:
         print("\r" + " " * 40 + "\r", end="", file=sys.stderr)
+
+
+def stage_printer(command: str) -> _Stages | None:
+    """On a terminal, a line on stderr naming each stage as it starts ('code: checking 144
+    detectors ...'), for steps that report no count while they run; else None. Call
+    `.done()` (when given) to clear the line."""
+    if not sys.stderr.isatty():
+        return None
+    return _Stages(command)
+
+
+class _Stages:
+    def __init__(self, command: str) -> None:
+        self.command, self.width = command, 0
+
+    def __call__(self, stage: str) -> None:
+        line = f"  {self.command}: {stage} ..."
+        print("\r" + line.ljust(self.width), end="", file=sys.stderr, flush=True)
+        self.width = len(line)
+
+    def done(self) -> None:
+        print("\r" + " " * self.width + "\r", end="", file=sys.stderr, flush=True)
 
 
 def kind_of(path: str) -> str:
