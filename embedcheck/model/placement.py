@@ -100,8 +100,8 @@ class PlacementRows(Sequence[Placement]):
     def __getitem__(self, index: slice) -> PlacementRows: ...
 
     def __getitem__(self, index: int | slice) -> Placement | PlacementRows:
-        if isinstance(index, slice):
-            return PlacementRows(self._rows[index])
+        if isinstance(index, slice):                   # a view of the same rows
+            return PlacementRows(self._rows[index], copy=False)
         return Placement(tuple(self._rows[index].tolist()))
 
     def __iter__(self) -> Iterator[Placement]:

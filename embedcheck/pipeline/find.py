@@ -39,7 +39,7 @@ from ..io.limits import SEARCH_LIMIT
 from ..model.constraints import Constraints
 from ..model.device import Device
 from ..model.patch import Patch, observable_is_detector_parity
-from ..model.placement import Placement, PlacementRows, placement_grid
+from ..model.placement import Placement
 from ..score.cost import Sensitivity, SnapshotRanking, rank_across_snapshots, sensitivity
 from ..score.logical import (
     LogicalRanking,
@@ -149,9 +149,9 @@ def _logical_ranking(device: Device, patch: Patch, vetting: Vetting, *, figure: 
             require_detectors(patch)                # one line: what to declare
         return None, LogicalNote.NO_DETECTORS
     swap_free: Sequence[Placement] = []
-    if vetting.all_swap_free:                 # rows with no off-coupler gate, no Python loop
-        rows = placement_grid(vetting.ranking.placements, patch.num_qubits)
-        swap_free = PlacementRows(rows[vetting.ranking.unscored_gates == 0], copy=False)
+    if vetting.all_swap_free:     # the ranking lists them first (fewest off-coupler gates
+        ranked = vetting.ranking  # first): a slice of the stored rows, no copy
+        swap_free = ranked.placements[:int(np.count_nonzero(ranked.unscored_gates == 0))]
     if not swap_free:
         return None, None
     if figure == "auto":

@@ -23,6 +23,7 @@ from __future__ import annotations
 import time
 from collections.abc import Callable
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
@@ -200,8 +201,9 @@ class _Ranker:
     may still tell the members apart, so the best-scoring member of each orbit is kept
     (fewest off-coupler gates, then the highest score; ties to the first member), as
     long as all the members together number at most `MAX_MEMBERS`. Beyond that, every
-    placement is ranked as found (its canonical member): the first pieces are scored
-    both ways until then, so the choice depends only on how many were found."""
+    placement is ranked as found (its canonical member): until then the canonical rows
+    are kept too (bare int32 rows, scored only if that happens), so the choice depends
+    only on how many were found."""
 
     PIECE = 1 << 16
     MAX_MEMBERS = 2_000_000
@@ -212,7 +214,8 @@ class _Ranker:
         self.rows = 0
         self.members = 0                      # orbit members scored so far
         self.perms: np.ndarray | None = None
-        self.found: list[_Scored] = []         # each placement as found
+        self.found: list[_Scored] = []         # each placement as found, scored
+        self.canonical: list[np.ndarray] = []  # ... unscored, while `best` is kept
         self.best: list[_Scored] | None = []   # the best member of each orbit (None: too many)
 
     def __call__(self, rows: np.ndarray, perms: np.ndarray) -> None:
@@ -232,30 +235,38 @@ class _Ranker:
         if self.best is not None and (k <= 1 or self.members + len(grid) * k
                                       > self.MAX_MEMBERS):
             self.best = None                  # one member per orbit only, from now on
+            for rows in self.canonical:       # the ones kept so far, scored now
+                for at in range(0, len(rows), self.PIECE):
+                    part = rows[at:at + self.PIECE].astype(np.int64)
+                    self.found.append(self._scored(part, *scores(self.device, self.patch,
+                                                                 part)))
+            self.canonical = []
         if self.best is None:
             self.found.append(self._scored(grid, *scores(self.device, self.patch, grid)))
             return
         self.members += len(grid) * k
         step = max(1, self.PIECE // k)
-        identity = int(np.flatnonzero((perms == np.arange(perms.shape[1])).all(axis=1))[0])
+        self.canonical.append(self._small(grid))      # the rows as found are canonical
         for at in range(0, len(grid), step):
             rows = grid[at:at + step]
             members = rows[:, perms].reshape(len(rows) * k, -1)
             terms, unscored = scores(self.device, self.patch, members)
             total: np.ndarray = sum(terms.values())  # type: ignore[assignment]
             pick = np.lexsort((-total.reshape(-1, k), unscored.reshape(-1, k)), axis=-1)[:, 0]
-            for chosen, into in ((np.arange(len(rows)) * k + pick, self.best),
-                                 (np.arange(len(rows)) * k + identity, self.found)):
-                into.append(self._scored(members[chosen], {name: value[chosen] for name, value
-                                                           in terms.items()},
-                                         unscored[chosen]))
+            chosen = np.arange(len(rows)) * k + pick
+            self.best.append(self._scored(members[chosen], {name: value[chosen] for name, value
+                                                            in terms.items()},
+                                          unscored[chosen]))
 
     def _scored(self, grid: np.ndarray, terms: dict[str, np.ndarray],
                 unscored: np.ndarray) -> _Scored:
         off = off_coupler_counts(self.device, self.patch, PlacementRows(grid, copy=False),
                                  list(self.patch.circuits)).astype(np.int32)
-        small = grid.astype(np.int32) if grid.size and grid.max() < 2**31 else grid
-        return small, terms, unscored, off
+        return self._small(grid), terms, unscored, off
+
+    @staticmethod
+    def _small(grid: np.ndarray) -> np.ndarray:
+        return grid.astype(np.int32) if grid.size and grid.max() < 2**31 else grid
 
     def ranking(self) -> tuple[Ranking, np.ndarray]:
         """The ranking of everything found, and the off-coupler gates (placements in ranked
@@ -264,16 +275,18 @@ class _Ranker:
         n, names = self.patch.num_qubits, list(self.patch.circuits)
         parts = self.best if self.best is not None and self.perms is not None and \
             len(self.perms) > 1 else self.found
-        self.found, self.best = [], None
+        self.found, self.best, self.canonical = [], None, []
         if not parts:
             empty = np.zeros((0, n), dtype=np.int64)
             return (rank_placements(self.device, self.patch, PlacementRows(empty)),
                     np.zeros((0, len(names)), dtype=np.int32))
-        grid = np.concatenate([p[0] for p in parts])
-        terms = {k: np.concatenate([p[1][k] for p in parts]) for k in parts[0][1]}
-        unscored = np.concatenate([p[2] for p in parts])
-        off = np.concatenate([p[3] for p in parts])
+        # One field at a time, each piece let go once joined: less memory at the peak.
+        pieces: list[list[Any]] = [[p[0], dict(p[1]), p[2], p[3]] for p in parts]
         del parts
+        grid = _joined(pieces, 0)
+        terms = {name: _joined(pieces, 1, name) for name in list(pieces[0][1])}
+        unscored, off = _joined(pieces, 2), _joined(pieces, 3)
+        del pieces
         total: np.ndarray = sum(terms.values())  # type: ignore[assignment]
         order = ranked_order(grid, total, unscored)
         del total
@@ -284,3 +297,14 @@ class _Ranker:
 
 
 _Scored = tuple[np.ndarray, dict[str, np.ndarray], np.ndarray, np.ndarray]
+
+
+def _joined(pieces: list[list[Any]], field: int, name: str | None = None) -> np.ndarray:
+    """One field (or one term, `name`) of every piece joined, each piece's part let go."""
+    out = np.concatenate([p[field] if name is None else p[field][name] for p in pieces])
+    for p in pieces:
+        if name is None:
+            p[field] = None
+        else:
+            del p[field][name]
+    return out
