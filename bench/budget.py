@@ -7,7 +7,8 @@ memory: 10^5 placements of a 9-qubit patch (the repetition code, distance 5) fou
 against a bare numpy array of the same integers (int64, numpy's default for Python ints)
 and against a tuple of `Placement` objects made from that array (how they were kept
 before, without the set of seen keys the search also kept then).
-peak: a whole `run_find` keeping 10^6 placements, its traced peak per placement.
+peak: a whole `run_find` keeping 10^6 placements (ranked by the cost model), its traced
+peak per placement.
 budget: `run_find` with a huge limit and `budget_s` on the same grid, by the cost model
 and by a logical figure: wall time of the whole call as a ratio of the budget (search,
 ranking, audit, logical figures; the process start-up and the chip file are not in it).
@@ -61,7 +62,7 @@ def main() -> None:
           f"{per[2] / per[0]:.1f}")
     million = 10**6                 # a whole find keeping a million: the peak per placement
     tracemalloc.start()
-    found = run_find([device], patch, limit=million, budget_s=None)
+    found = run_find([device], patch, limit=million, budget_s=None, figure="fidelity_product")
     peak = tracemalloc.get_traced_memory()[1]
     tracemalloc.stop()
     kept = len(found.vetting.ranking.placements)
@@ -69,7 +70,7 @@ def main() -> None:
           f"{peak / kept:.0f} B per placement = {peak / kept / per[1]:.1f} x a bare int64 row "
           "(rows, five score terms, off-coupler counts, sorting)")
     del found
-    for figure in ("fidelity_product", "undetected"):
+    for figure in ("fidelity_product", "auto", "undetected"):
         start = time.perf_counter()
         found = run_find([device], patch, limit=10**12, budget_s=args.budget, figure=figure)
         wall = time.perf_counter() - start
