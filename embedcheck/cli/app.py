@@ -1,7 +1,7 @@
 """The `embedcheck` command line: build the parser, run a command, map errors to exit codes.
 
 Exit codes: 0 answered (findings included); 1 a finding the command was asked to fail on
-(`--strict`, a failed CI rule, a repair that found no rewrite); 2 bad input or usage
+(`--strict`, a failed CI rule; `repair --strict` that found no rewrite); 2 bad input or usage
 (`InputError`: one line on stderr, no traceback, nothing written); 3 a bug of ours
 (`InternalError`, or any other exception: one line, `EMBEDCHECK_TRACEBACK=1` shows the
 traceback). Each command lives in a module of its own (`add_parser` and `run`).

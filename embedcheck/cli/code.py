@@ -7,7 +7,7 @@ from typing import Any
 
 from ..errors import InputError, InternalError
 from ..io.limits import MAX_CODE_DISTANCE, MAX_CODE_ROUNDS
-from .options import bounded_int, emit
+from .options import bounded_int, emit, stage_printer
 
 __all__ = ["add_parser", "run"]
 
@@ -42,12 +42,16 @@ def run(args: argparse.Namespace) -> int:
     outputs = Outputs()
     if args.output:
         outputs.claim(args.output, option="--output", overwrite=False)
+    stages = stage_printer("code")
     try:
         code = build_code(args.family, distance=args.distance, rounds=args.rounds,
-                          basis=args.basis, prep=args.prep)
+                          basis=args.basis, prep=args.prep, progress=stages)
     except InputError as err:      # a limit of the loader: name the options, not a temp file
         raise InputError(f"code {args.family} --distance {args.distance} --rounds "
                          f"{args.rounds}: {err.message}") from None
+    finally:
+        if stages is not None:
+            stages.done()
     if code.problems:                # our own family failing is a bug, never a user error
         raise InternalError(code.problems[0].message)
     patch, text = code.patch, code.text

@@ -22,7 +22,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any, NoReturn
 
 from ..errors import InputError
-from ..io.limits import MAX_QUBIT_NUMBER
+from ..io.limits import MAX_QUBIT_NUMBER, SEARCH_LIMIT
 
 if TYPE_CHECKING:
     from ..model.constraints import Constraints
@@ -35,7 +35,7 @@ __all__ = ["Parser", "add_common", "add_constraint_options", "add_html_option",
            "kind_of", "max_processes", "non_negative_int", "pair_list", "parse_placement",
            "picture_bytes_for", "positive_float", "positive_int", "progress_printer",
            "request_constraints", "require_html_path", "require_picture_path", "seed_value",
-           "top_count"]
+           "stage_printer", "top_count"]
 
 
 class Parser(argparse.ArgumentParser):
@@ -52,7 +52,7 @@ def add_common(p: argparse.ArgumentParser) -> None:
 
 
 def add_search_options(p: argparse.ArgumentParser) -> None:
-    p.add_argument("--limit", type=positive_int, default=100_000,
+    p.add_argument("--limit", type=positive_int, default=SEARCH_LIMIT,
                    help="stop after this many distinct placements (default 100000); the "
                         "ranking covers only the placements found")
     p.add_argument("--budget-s", type=positive_float, default=60.0,
@@ -313,6 +313,28 @@ class _Progress:
     def done(self) -> None:
         print("\r" + " " * 100 + "\r", end="", file=sys.stderr)
         self.tried = ""
+
+
+def stage_printer(command: str) -> _Stages | None:
+    """On a terminal, a line on stderr naming each stage as it starts ('code: checking 144
+    detectors ...'), for steps that report no count while they run; else None. Call
+    `.done()` (when given) to clear the line."""
+    if not sys.stderr.isatty():
+        return None
+    return _Stages(command)
+
+
+class _Stages:
+    def __init__(self, command: str) -> None:
+        self.command, self.width = command, 0
+
+    def __call__(self, stage: str) -> None:
+        line = f"  {self.command}: {stage} ..."
+        print("\r" + line.ljust(self.width), end="", file=sys.stderr, flush=True)
+        self.width = len(line)
+
+    def done(self) -> None:
+        print("\r" + " " * self.width + "\r", end="", file=sys.stderr, flush=True)
 
 
 def kind_of(path: str) -> str:

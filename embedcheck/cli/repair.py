@@ -1,7 +1,8 @@
 """`embedcheck repair CHIP PATCH -o NEW.yaml`: rewrite a preparation onto a placement's
 couplers, with a proof, as a new patch file. A repair that finds no rewrite (none fits
 the placement, every one lowers the fault distance, the rounds project no product state)
-is a finding: it is reported, nothing is written, and the exit code is 1."""
+is a finding: it is reported, nothing is written, and the exit code is 0 (1 with
+`--strict`, for a script that must stop there); bad input exits 2."""
 from __future__ import annotations
 
 import argparse
@@ -40,6 +41,9 @@ def add_parser(sub: Any) -> None:
                      help="the new patch file to write (never the patch itself); the repaired "
                           "circuit goes beside it as <name>_<circuit>.qasm")
     fix.add_argument("--format", choices=("text", "json"), default="text")
+    fix.add_argument("--strict", action="store_true",
+                     help="exit 1 when no rewrite is found (default: 0, the finding is the "
+                          "answer)")
     fix.set_defaults(run=run)
 
 
@@ -123,7 +127,7 @@ def _figures(figures: Any) -> dict[str, Any]:
 
 
 def _finding(args: argparse.Namespace, patch: Patch, placement: Placement, fix: Repair) -> int:
-    """No rewrite: say why (exit 1), write nothing."""
+    """No rewrite: say why, write nothing; a finding, so exit 0 (1 under --strict)."""
     from ..version import __version__
 
     payload = {"tool": "embedcheck", "version": __version__, "command": "repair",
@@ -131,7 +135,7 @@ def _finding(args: argparse.Namespace, patch: Patch, placement: Placement, fix: 
                "finding": fix.finding, "placement": placement.as_dict(patch),
                "rejected_for_fault_distance": list(fix.rejected)}
     emit(args, payload, f"No repair of '{fix.circuit}': {fix.finding}. Nothing written.")
-    return 1
+    return 1 if args.strict else 0
 
 
 def _projection(args: argparse.Namespace, device: Device, patch: Patch, placement: Placement,

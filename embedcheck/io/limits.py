@@ -36,7 +36,7 @@ from ..errors import InputError
 
 __all__ = ["EXPERIMENT_FACTOR", "MAX_ALIAS_VALUES", "MAX_CODE_DISTANCE", "MAX_CODE_ROUNDS",
            "MAX_FILE_MB", "MAX_OPERATIONS", "MAX_QUBITS", "MAX_QUBIT_NUMBER", "MAX_SHOTS",
-           "MAX_YAML_DEPTH", "SNAPSHOT_FACTOR", "check_count", "family_qubits",
+           "MAX_YAML_DEPTH", "SEARCH_LIMIT", "SNAPSHOT_FACTOR", "check_count", "family_qubits",
            "max_experiment_operations", "max_file_bytes", "max_operations", "max_qubits"]
 
 MAX_FILE_MB = 10
@@ -50,6 +50,9 @@ MAX_ALIAS_VALUES = 1_000_000
 MAX_CODE_DISTANCE = 101
 MAX_CODE_ROUNDS = 1_000
 MAX_SHOTS = 10_000_000
+# Distinct placements a search keeps unless told otherwise: `find --limit`, a project's
+# `search: {limit}` for `check`, and the API's `run_find` and `vet_patch` share it.
+SEARCH_LIMIT = 100_000
 
 
 def max_file_bytes() -> int:

@@ -10,6 +10,7 @@ from pathlib import Path
 from typing import Mapping
 
 from ..errors import did_you_mean
+from .limits import SEARCH_LIMIT
 from .yamlfile import Document, read_yaml
 
 __all__ = ["PatchEntry", "Project", "Rules", "load_project"]
@@ -36,6 +37,9 @@ class PatchEntry:
     file: str
     rules: Rules
     line: int | None
+    # The project file's line that sets each rule for this patch (its own override, else
+    # the project's rules; a rule left at its default points at the patch entry).
+    rule_lines: Mapping[str, int | None] = field(default_factory=dict)
 
 
 @dataclass(frozen=True)
@@ -47,7 +51,7 @@ class Project:
     reports: Mapping[str, str]
     cross_check_top: int = 3
     cross_check_seed: int = 11
-    limit: int = 10_000
+    limit: int = SEARCH_LIMIT
     budget_s: float = 60.0
 
 
@@ -73,7 +77,8 @@ def load_project(path: str | Path) -> Project:
         rules = project_rules
         if isinstance(entry, dict) and "rules" in entry:
             rules = _rules(doc, ("patches", i, "rules"), entry["rules"], _as_raw(project_rules))
-        patches.append(PatchEntry(str(full), rules, doc.line(("patches", i))))
+        patches.append(PatchEntry(str(full), rules, doc.line(("patches", i)),
+                                  _rule_lines(doc, i, entry)))
         own = isinstance(entry, dict) and isinstance(entry.get("rules"), dict) and \
             isinstance(entry["rules"].get("max_off_coupler_gates"), dict)
         rule_lines[str(full)] = ((("patches", i, "rules", "max_off_coupler_gates"),) if own
@@ -87,7 +92,7 @@ def load_project(path: str | Path) -> Project:
     search = data.get("search", {})
     return Project(name=data["name"], file=doc.file, chips=tuple(chips), patches=tuple(patches),
                    reports=reports, cross_check_top=cross.get("top", 3),
-                   cross_check_seed=cross.get("seed", 11), limit=search.get("limit", 10_000),
+                   cross_check_seed=cross.get("seed", 11), limit=search.get("limit", SEARCH_LIMIT),
                    budget_s=search.get("budget_s", 60.0))
 
 
@@ -106,6 +111,22 @@ def _check_rule_circuits(doc, patches, rule_lines) -> None:
                 raise doc.error(where + (name,),
                                 f"patch {Path(entry.file).name} has no circuit '{name}'"
                                 f"{did_you_mean(name, circuits)}")
+
+
+def _rule_lines(doc: Document, i: int, entry) -> dict[str, int | None]:
+    """Where each rule of patch entry `i` is set: the entry's override, the project's rules
+    key, or (a default) the entry itself."""
+    own = entry.get("rules", {}) if isinstance(entry, dict) else {}
+    shared = doc.data.get("rules", {}) or {}
+    out = {}
+    for rule in DEFAULT_RULES:
+        if isinstance(own, dict) and rule in own:
+            out[rule] = doc.line(("patches", i, "rules", rule))
+        elif isinstance(shared, dict) and rule in shared:
+            out[rule] = doc.line(("rules", rule))
+        else:
+            out[rule] = doc.line(("patches", i))
+    return out
 
 
 def _as_raw(rules: Rules) -> dict:

@@ -8,6 +8,7 @@ search is too big, stim's graphlike upper bound).
 """
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
 
 from ..errors import InputError
@@ -37,18 +38,28 @@ class BuiltCode:
 
 
 def build_code(family: str, *, distance: int = 3, rounds: int = 2, basis: str = "z",
-               prep: str | None = None) -> BuiltCode:
-    """Write, load and check one instance of a built-in code family."""
+               prep: str | None = None,
+               progress: Callable[[str], None] | None = None) -> BuiltCode:
+    """Write, load and check one instance of a built-in code family.
+
+    `progress(stage)` is told each stage as it starts (a distance-7 surface code spends
+    minutes in stim's fault-distance search, which reports nothing while it runs)."""
+    say = progress or (lambda stage: None)
     _check_size(family, distance=distance, rounds=rounds, basis=basis, prep=prep)
+    say("writing the patch")
     text = family_yaml(family, distance=distance, rounds=rounds, basis=basis, prep=prep)
     patch = patch_from_family(family, distance=distance, rounds=rounds, basis=basis, prep=prep)
+    say(f"checking {len(patch.detectors)} detectors without noise")
     problems = tuple(check_detectors(patch))
     if problems:
         return BuiltCode(text=text, patch=patch, problems=problems, fault_distance=None,
                          fault_distance_at_most=None)
+    say(f"fault distance: stim's exhaustive search over {len(patch.detectors)} detectors "
+        "(the longest step)")
     found = fault_distance(patch)
     bound = None
     if found is None and patch.observable:         # too big for the exhaustive search
+        say("fault distance: a bound from stim's shortest graphlike error")
         bound = fault_distance_at_most(patch)
     return BuiltCode(text=text, patch=patch, problems=(), fault_distance=found,
                      fault_distance_at_most=bound)

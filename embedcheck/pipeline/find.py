@@ -26,6 +26,7 @@ Otherwise it keeps the fidelity product, and `LogicalNote` says why. The report
 """
 from __future__ import annotations
 
+import time
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from enum import Enum
@@ -34,9 +35,11 @@ import numpy as np
 
 from ..engine import ProcessExecutor, SerialExecutor
 from ..errors import InputError
+from ..io.limits import SEARCH_LIMIT
 from ..model.constraints import Constraints
 from ..model.device import Device
 from ..model.patch import Patch, observable_is_detector_parity
+from ..model.placement import Placement
 from ..place.enumeration import Effort
 from ..score.cost import Sensitivity, SnapshotRanking, rank_across_snapshots, sensitivity
 from ..score.logical import (
@@ -90,7 +93,7 @@ class FindResult:
         return html_of(self)
 
 
-def run_find(snapshots: Sequence[Device], patch: Patch, *, limit: int | None = 100_000,
+def run_find(snapshots: Sequence[Device], patch: Patch, *, limit: int | None = SEARCH_LIMIT,
              budget_s: float | None = 60.0, constraints: Constraints | None = None,
              processes: int = 1, top: int | None = 10, figure: str = "auto",
              monte_carlo: int = 0, decode: bool = False, over_snapshots: str = "worst",
@@ -104,11 +107,16 @@ def run_find(snapshots: Sequence[Device], patch: Patch, *, limit: int | None = 1
     the listed placements, `decode` decodes them (with 'auto': ranks them by the sampled
     decoded logical error, on `processes` worker processes); several snapshots are also
     ranked over (`over_snapshots`: 'worst', 'mean' or 'q<fraction>'). `budget_work` bounds
-    the searches in work units (identical runs stop at the same place; `budget_s` is the
-    clock's cap on top); when the placements are too many to list, the best `top` (at
-    least 10) by the fidelity product are searched best first (`Vetting.best`).
+    the searches in work units (identical runs stop at the same place); `budget_s` is the
+    clock's cap on the whole run: the search and the scoring of what it finds share it, and
+    the logical figures and the ranking over several snapshots are computed (best
+    placements first) only while it lasts, at least for the `top` listed
+    (`LogicalRanking.unscored` and `SnapshotRanking.unscored` count the rest). When the
+    placements are too many to list, the best `top` (at least 10) by the fidelity product
+    are searched best first (`Vetting.best`).
     """
     device = snapshots[-1]
+    deadline = None if budget_s is None else time.monotonic() + budget_s   # for every stage
     vetting = vet_patch(device, patch, limit=limit, budget_s=budget_s,
                         progress=(lambda n: progress("searching", n)) if progress else None,
                         constraints=constraints, processes=processes,
@@ -119,7 +127,8 @@ def run_find(snapshots: Sequence[Device], patch: Patch, *, limit: int | None = 1
     sensitive = tuple(sensitivity(device, patch, placements[0], top=5)) if placements else ()
     logical, note = _logical_ranking(device, patch, vetting, figure=figure,
                                      monte_carlo=monte_carlo, decode=decode, top=top,
-                                     processes=processes, progress=progress)
+                                     processes=processes, progress=progress,
+                                     deadline=deadline)
     if monte_carlo and logical is None and note is None:
         note = LogicalNote.NOTHING_TO_SAMPLE
     if logical is None and figure in ("estimate", "undetected", "kept"):
@@ -127,7 +136,8 @@ def run_find(snapshots: Sequence[Device], patch: Patch, *, limit: int | None = 1
                          "circuit to score; use fidelity_product", key=f"--figure {figure}")
     robust = None
     if len(snapshots) > 1 and placements:
-        robust = rank_across_snapshots(snapshots, patch, placements, by=over_snapshots)
+        robust = rank_across_snapshots(snapshots, patch, placements, by=over_snapshots,
+                                       deadline=deadline)
     sdk = compare_with_sdk(device, patch, vetting) if compare_sdk else None
     return FindResult(vetting=vetting, top=shown, sensitivity=sensitive, logical=logical,
                       logical_note=note, sampled=bool(monte_carlo), decoded=decode,
@@ -136,7 +146,7 @@ def run_find(snapshots: Sequence[Device], patch: Patch, *, limit: int | None = 1
 
 def _logical_ranking(device: Device, patch: Patch, vetting: Vetting, *, figure: str,
                      monte_carlo: int, decode: bool, top: int | None, processes: int,
-                     progress: Progress | None
+                     progress: Progress | None, deadline: float | None = None
                      ) -> tuple[LogicalRanking | None, LogicalNote | None]:
     """The ranking by a logical figure when asked, or by 'auto' when one applies (see the
     module docstring), else None; and the note on why."""
@@ -146,9 +156,10 @@ def _logical_ranking(device: Device, patch: Patch, vetting: Vetting, *, figure: 
         if figure != "auto" or monte_carlo:
             require_detectors(patch)                # one line: what to declare
         return None, LogicalNote.NO_DETECTORS
-    swap_free = [p for p, off in zip(vetting.ranking.placements, vetting.ranking.unscored_gates,
-                                     strict=True)
-                 if off == 0] if vetting.all_swap_free else []
+    swap_free: Sequence[Placement] = []
+    if vetting.all_swap_free:     # the ranking lists them first (fewest off-coupler gates
+        ranked = vetting.ranking  # first): a slice of the stored rows, no copy
+        swap_free = ranked.placements[:int(np.count_nonzero(ranked.unscored_gates == 0))]
     if not swap_free:
         return None, None
     if figure == "auto":
@@ -169,7 +180,8 @@ def _logical_ranking(device: Device, patch: Patch, vetting: Vetting, *, figure: 
         out = rank_by_logical(device, patch, swap_free, figure=figure,
                               monte_carlo_shots=monte_carlo or 0,
                               top=top if top is not None else len(swap_free), decode=decode,
-                              processes=processes, executor=executor, progress=progress)
+                              processes=processes, executor=executor, progress=progress,
+                              deadline=deadline)
     note = None
     if out.figure == "undetected" and out.undetected is not None and not np.any(out.undetected):
         note = LogicalNote.UNDETECTED_ALL_ZERO

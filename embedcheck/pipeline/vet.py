@@ -23,22 +23,30 @@ from __future__ import annotations
 import time
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, replace
+from typing import Any
 
 import numpy as np
 
 from ..audit.exact import AuditReport, audit_placement
+from ..io.limits import SEARCH_LIMIT
 from ..model.constraints import Constraints
 from ..model.device import Device
 from ..model.patch import Patch
-from ..model.placement import Placement, off_coupler_counts, placement_grid
+from ..model.placement import Placement, PlacementRows, off_coupler_counts
 from ..place.enumeration import Effort
 from ..place.near_misses import NearMiss, near_misses
+from ..place.reasons import Reason
 from ..place.search import SearchResult, StopReason, find_placements
+from ..place.symmetry import symmetry_order
 from ..score.best_placements import BestPlacements, find_best_placements
-from ..score.cost import Ranking, rank_placements, scores
+from ..score.cost import Ranking, rank_placements, rank_scored, ranked_order, scores
 
-__all__ = ["DEFAULT_BUDGET_WORK", "CircuitFit", "Vetting", "vet_patch"]
+__all__ = ["DEFAULT_BUDGET_WORK", "SEARCH_SHARE", "CircuitFit", "Vetting", "vet_patch"]
 
+# The full search (with the scoring of what it finds) may use this share of what is left
+# of the budget; the rest is kept for the stages after it (the final sort, the audit, the
+# logical figures, several snapshots, reports), so `budget_s` bounds the whole run.
+SEARCH_SHARE = 0.8
 # find's default work budget (work units: see `find_placements`). Measured on the 2-core
 # bench machine: about 2.5e6 units per CPU second of search (the 87-qubit piece on 8319
 # qubits, chipfit d=5 on 2159), about 2e6 while hundreds of thousands of placements are
@@ -60,6 +68,7 @@ class CircuitFit:
     two_qubit_gates: int
     fits_alone: bool | None          # None: the time budget ran out before an answer
     reasons: tuple[str, ...]
+    culprits: tuple[Reason, ...] = ()   # the reasons with the patch qubits and pairs at fault
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -103,7 +112,7 @@ class Vetting:
         return html_of(self)
 
 
-def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
+def vet_patch(device: Device, patch: Patch, *, limit: int | None = SEARCH_LIMIT,
               budget_s: float | None = 60.0,
               progress: Callable[[int], None] | None = None,
               constraints: Constraints | None = None, processes: int = 1,
@@ -155,7 +164,7 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
         known = bool(alone.placements) or alone.complete
         fits.append(CircuitFit(circuit=name, two_qubit_gates=len(circuit.two_qubit_gates),
                                fits_alone=bool(alone.placements) if known else None,
-                               reasons=alone.reasons))
+                               reasons=alone.reasons, culprits=alone.culprits))
         if not known:
             inconclusive.append(name)
     # The core: circuits with two-qubit gates that fit together, check round first.
@@ -183,41 +192,53 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
         elif not joint.complete:
             inconclusive.append(name)
     best_found: BestPlacements | None = None
+    ranker = _Ranker(device, patch)
     if core or not gated:
         earlier = found_for.get(tuple(core), ())    # the same interaction graph as the core
         core += [n for n in order if n not in gated]
-        search = find_placements(device, patch, circuits=core, limit=limit, budget_s=left(),
+        # Found placements are scored while the search runs, so the budget bounds both;
+        # the rest of the budget is kept for what follows (ranking, audit, reports).
+        share = left()
+        search = find_placements(device, patch, circuits=core, limit=limit,
+                                 budget_s=None if share is None else share * SEARCH_SHARE,
                                  progress=progress, constraints=rules, processes=processes,
-                                 max_work=work_left(), on_effort=on_effort)
+                                 max_work=work_left(), on_effort=on_effort, on_found=ranker)
         spent += search.work
-        kept = [p for p in earlier if p not in set(search.placements)]
+        kept = [p for p in earlier if p not in search.placements]     # a few at most
         if kept:                             # found before, not found again in what was left
-            search = replace(search, placements=search.placements + tuple(kept))
+            extra = PlacementRows(kept, patch.num_qubits)
+            ranker(extra.array, ranker.perms_or_none(patch.num_qubits))
+            listed = PlacementRows(search.placements).array
+            search = replace(search, placements=PlacementRows(np.concatenate(
+                [listed.astype(np.int64), extra.array.astype(np.int64)])))
         if best_first and not search.complete and not search.reasons:
             best_found = find_best_placements(
                 device, patch, top=best_first, circuits=core, constraints=rules,
                 budget=BEST_FIRST_WORK if budget_work is None else
                 min(budget_work, BEST_FIRST_WORK))
             spent += best_found.work
+            new = _new_orbits(search, best_found.placements)
+            if new:
+                ranker(PlacementRows(new, patch.num_qubits).array,
+                       ranker.perms_or_none(patch.num_qubits))
         misses: tuple[NearMiss, ...] = ()
     elif inconclusive:
-        search = SearchResult(circuits=tuple(gated), placements=(), raw_maps=0, symmetry_order=1,
+        search = SearchResult(circuits=tuple(gated), placements=(), raw_maps=0,
+                              symmetry_order=symmetry_order(patch, gated),
                               stop_reason=StopReason.BUDGET, reasons=(), elapsed_s=0.0)
         misses = ()
     else:
-        reasons = tuple(dict.fromkeys(r for f in fits for r in f.reasons)) or (
-            "no circuit with two-qubit gates has a swap-free placement",)
-        search = SearchResult(circuits=tuple(gated), placements=(), raw_maps=0, symmetry_order=1,
-                              stop_reason=StopReason.COMPLETE, reasons=reasons, elapsed_s=0.0)
+        culprits = tuple(dict.fromkeys(r for f in fits for r in f.culprits)) or (
+            Reason(text="no circuit with two-qubit gates has a swap-free placement"),)
+        search = SearchResult(circuits=tuple(gated), placements=(), raw_maps=0,
+                              symmetry_order=symmetry_order(patch, gated),
+                              stop_reason=StopReason.COMPLETE,
+                              reasons=tuple(r.text for r in culprits), culprits=culprits,
+                              elapsed_s=0.0)
         misses = tuple(near_misses(device, patch, gated, constraints=rules,
                                    budget_s=min(5.0, 5.0 if deadline is None else left() or 0.0)))
     excluded = tuple(n for n in patch.circuits if n not in core)
-    listed = _best_of_orbits(device, patch, search)
-    if best_found is not None:
-        listed += _new_orbits(search, best_found.placements)
-    ranking = rank_placements(device, patch, listed)
-    names = list(patch.circuits)
-    off = off_coupler_counts(device, patch, ranking.placements, names)
+    ranking, off = ranker.ranking()
     best = audit_placement(device, patch, ranking.placements[0]) if ranking.placements else None
     used = {q for pair in patch.interaction_counts(core or list(patch.circuits)) for q in pair}
     unconstrained = tuple(q for i, q in enumerate(patch.qubits) if i not in used)
@@ -230,42 +251,153 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = 100_000,
 
 def _new_orbits(search: SearchResult,
                 extra: Sequence[Placement]) -> tuple[Placement, ...]:
-    """The placements of `extra` whose orbit under the search's symmetries holds no
-    placement the search listed (a best-first placement is its orbit's cheapest member,
-    the search's its smallest; both stand for the same orbit)."""
-    perms = search.symmetries or ((),)
+    """The placements of `extra` (a few, from the best-first search) whose orbit under the
+    search's symmetries holds no placement the search listed (a best-first placement is
+    its orbit's cheapest member, the search's its smallest; both stand for the same
+    orbit). The search lists one member per orbit, so an orbit is listed when any image
+    of the placement is among the search's rows."""
+    perms = search.symmetries or (tuple(range(len(extra[0].physical))),) if extra else ()
+    rows = PlacementRows(search.placements).array
+    listed = {row.tobytes() for row in rows.astype(np.int64)} if len(extra) * len(perms) > 64 \
+        else None
 
-    def orbit(p: Placement) -> tuple[int, ...]:
-        if not perms[0]:
-            return p.physical
-        return min(tuple(p.physical[i] for i in perm) for perm in perms)
+    def seen(image: tuple[int, ...]) -> bool:
+        if listed is not None:
+            return np.array(image, dtype=np.int64).tobytes() in listed
+        return bool(len(rows)) and bool((rows == np.array(image)).all(axis=1).any())
 
-    seen = {orbit(p) for p in search.placements}
-    out = []
+    out: list[Placement] = []
+    taken: set[tuple[int, ...]] = set()
     for p in extra:
-        key = orbit(p)
-        if key not in seen:
-            seen.add(key)
-            out.append(p)
+        images = {tuple(p.physical[i] for i in perm) for perm in perms}
+        if any(seen(image) for image in images) or images & taken:
+            continue
+        taken |= images
+        out.append(p)
     return tuple(out)
 
 
-def _best_of_orbits(device: Device, patch: Patch,
-                    search: SearchResult) -> tuple[Placement, ...]:
-    """Each distinct placement stands for its orbit under the patch's symmetries (of the
+class _Ranker:
+    """Scores placements as the search finds them (`find_placements(on_found=...)`), a
+    piece of about `PIECE` scored rows at a time, so that no per-placement Python work,
+    and no stage outside the search's budget, grows with the number found.
+
+    Each distinct placement stands for its orbit under the patch's symmetries (of the
     searched circuits); the circuits left out of the search, gate order and measurements
-    may still tell the members apart, so keep the best-scoring member of each orbit."""
-    placements = search.placements
-    k = len(search.symmetries)
-    if k <= 1 or not placements or len(placements) * k > 2_000_000:
-        return placements
-    grid = placement_grid(placements, patch.num_qubits)
-    perms = np.array(search.symmetries, dtype=np.int64)
-    members = grid[:, perms].reshape(len(placements) * k, patch.num_qubits)
-    terms, unscored = scores(device, patch, members)
-    total: np.ndarray = sum(terms.values())  # type: ignore[assignment]
-    order = np.lexsort((-total, unscored))
-    orbit = order // k
-    _, first = np.unique(orbit, return_index=True)
-    chosen = order[np.sort(first)]
-    return tuple(Placement(tuple(int(x) for x in members[i])) for i in chosen)
+    may still tell the members apart, so the best-scoring member of each orbit is kept
+    (fewest off-coupler gates, then the highest score; ties to the first member), as
+    long as all the members together number at most `MAX_MEMBERS`. Beyond that, every
+    placement is ranked as found (its canonical member): until then the canonical rows
+    are kept too (bare int32 rows, scored only if that happens), so the choice depends
+    only on how many were found."""
+
+    PIECE = 1 << 16
+    MAX_MEMBERS = 2_000_000
+
+    def __init__(self, device: Device, patch: Patch) -> None:
+        self.device, self.patch = device, patch
+        self.waiting: list[np.ndarray] = []
+        self.rows = 0
+        self.members = 0                      # orbit members scored so far
+        self.perms: np.ndarray | None = None
+        self.found: list[_Scored] = []         # each placement as found, scored
+        self.canonical: list[np.ndarray] = []  # ... unscored, while `best` is kept
+        self.best: list[_Scored] | None = []   # the best member of each orbit (None: too many)
+
+    def perms_or_none(self, num_qubits: int) -> np.ndarray:
+        """The symmetries the search reported, else the identity (placements added after
+        a search that found none: each stands for itself)."""
+        if self.perms is not None:
+            return self.perms
+        return np.arange(num_qubits, dtype=np.int64).reshape(1, num_qubits)
+
+    def __call__(self, rows: np.ndarray, perms: np.ndarray) -> None:
+        self.waiting.append(rows)
+        self.rows += len(rows)
+        self.perms = perms
+        if self.rows * (len(perms) if self.best is not None else 1) >= self.PIECE:
+            self._score()
+
+    def _score(self) -> None:
+        if not self.waiting:
+            return
+        grid = np.concatenate(self.waiting).astype(np.int64)
+        self.waiting, self.rows = [], 0
+        perms = self.perms if self.perms is not None else np.zeros((1, 0), dtype=np.int64)
+        k = len(perms)
+        if self.best is not None and (k <= 1 or self.members + len(grid) * k
+                                      > self.MAX_MEMBERS):
+            self.best = None                  # one member per orbit only, from now on
+            for rows in self.canonical:       # the ones kept so far, scored now
+                for at in range(0, len(rows), self.PIECE):
+                    part = rows[at:at + self.PIECE].astype(np.int64)
+                    self.found.append(self._scored(part, *scores(self.device, self.patch,
+                                                                 part)))
+            self.canonical = []
+        if self.best is None:
+            self.found.append(self._scored(grid, *scores(self.device, self.patch, grid)))
+            return
+        self.members += len(grid) * k
+        step = max(1, self.PIECE // k)
+        self.canonical.append(self._small(grid))      # the rows as found are canonical
+        for at in range(0, len(grid), step):
+            rows = grid[at:at + step]
+            members = rows[:, perms].reshape(len(rows) * k, -1)
+            terms, unscored = scores(self.device, self.patch, members)
+            total: np.ndarray = sum(terms.values())  # type: ignore[assignment]
+            pick = np.lexsort((-total.reshape(-1, k), unscored.reshape(-1, k)), axis=-1)[:, 0]
+            chosen = np.arange(len(rows)) * k + pick
+            self.best.append(self._scored(members[chosen], {name: value[chosen] for name, value
+                                                            in terms.items()},
+                                          unscored[chosen]))
+
+    def _scored(self, grid: np.ndarray, terms: dict[str, np.ndarray],
+                unscored: np.ndarray) -> _Scored:
+        off = off_coupler_counts(self.device, self.patch, PlacementRows(grid, copy=False),
+                                 list(self.patch.circuits)).astype(np.int32)
+        return self._small(grid), terms, unscored, off
+
+    @staticmethod
+    def _small(grid: np.ndarray) -> np.ndarray:
+        return grid.astype(np.int32) if grid.size and grid.max() < 2**31 else grid
+
+    def ranking(self) -> tuple[Ranking, np.ndarray]:
+        """The ranking of everything found, and the off-coupler gates (placements in ranked
+        order, circuits in patch order)."""
+        self._score()
+        n, names = self.patch.num_qubits, list(self.patch.circuits)
+        parts = self.best if self.best is not None and self.perms is not None and \
+            len(self.perms) > 1 else self.found
+        self.found, self.best, self.canonical = [], None, []
+        if not parts:
+            empty = np.zeros((0, n), dtype=np.int64)
+            return (rank_placements(self.device, self.patch, PlacementRows(empty)),
+                    np.zeros((0, len(names)), dtype=np.int32))
+        # One field at a time, each piece let go once joined: less memory at the peak.
+        pieces: list[list[Any]] = [[p[0], dict(p[1]), p[2], p[3]] for p in parts]
+        del parts
+        grid = _joined(pieces, 0)
+        terms = {name: _joined(pieces, 1, name) for name in list(pieces[0][1])}
+        unscored, off = _joined(pieces, 2), _joined(pieces, 3)
+        del pieces
+        total: np.ndarray = sum(terms.values())  # type: ignore[assignment]
+        order = ranked_order(grid, total, unscored)
+        del total
+        for name in list(terms):           # one array at a time: less memory at the peak
+            terms[name] = terms[name][order]
+        return (rank_scored(grid[order], terms, unscored[order], order=np.arange(len(order))),
+                off[order])
+
+
+_Scored = tuple[np.ndarray, dict[str, np.ndarray], np.ndarray, np.ndarray]
+
+
+def _joined(pieces: list[list[Any]], field: int, name: str | None = None) -> np.ndarray:
+    """One field (or one term, `name`) of every piece joined, each piece's part let go."""
+    out = np.concatenate([p[field] if name is None else p[field][name] for p in pieces])
+    for p in pieces:
+        if name is None:
+            p[field] = None
+        else:
+            del p[field][name]
+    return out

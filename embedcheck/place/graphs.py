@@ -1,15 +1,21 @@
-"""Small graph facts used by reports and reasons: degrees, shortest cycle.
+"""Small graph facts used by reports and reasons: degrees, shortest cycle, short cycles,
+common neighbours.
 
     >>> shortest_cycle(6, [(i, (i + 1) % 6) for i in range(6)])
     6
     >>> shortest_cycle(3, [(0, 1), (1, 2)]) is None
     True
+    >>> short_cycles(4, [(0, 1), (1, 2), (2, 3), (3, 0), (0, 2)], max_length=3)
+    ([[0, 1, 2], [0, 2, 3]], True)
+    >>> common_neighbours([(0, 1), (1, 2), (2, 3), (3, 0)])     # a square: opposite corners
+    {(0, 2): 2, (1, 3): 2}
 """
 from __future__ import annotations
 
 from collections import Counter, deque
 
-__all__ = ["degree_histogram", "odd_cycle_nodes", "shortest_cycle", "shortest_cycle_nodes"]
+__all__ = ["common_neighbours", "degree_histogram", "odd_cycle_nodes", "short_cycles",
+           "shortest_cycle", "shortest_cycle_nodes"]
 
 
 def degree_histogram(nodes, edges) -> dict[int, int]:
@@ -127,3 +133,64 @@ def odd_cycle_nodes(nodes, edges) -> list | None:
                     right = [x for x in right if x not in common]
                     return list(reversed(left)) + right
     return None
+
+
+def short_cycles(nodes, edges, max_length: int, *, cap: int = 10,
+                 steps: int = 200_000) -> tuple[list[list], bool]:
+    """(cycles, every_one): the simple cycles of at most `max_length` nodes, shortest
+    first, each once, written from its smallest node towards its smaller neighbour; at
+    most `cap` of them. `every_one` is False when there are more than `cap`, or when the
+    walk took `steps` steps before it was done (then some may be missing).
+
+    Depth first from each node over larger nodes only, so that each cycle is met from
+    its smallest node (once each way round; kept once), one length at a time.
+    """
+    adj = {n: sorted(set(nbrs)) for n, nbrs in _adjacency(nodes, edges).items()}
+    found: list[list] = []
+    budget = [steps]
+    for length in range(3, max_length + 1):
+        for root in sorted(adj):
+            if not _cycles_through(adj, root, length, found, cap, budget):
+                return found, False
+    return found, True
+
+
+def _cycles_through(adj, root, length: int, found: list, cap: int, budget: list) -> bool:
+    """Add the cycles of exactly `length` nodes whose smallest node is `root`; False when
+    the cap or the step budget stopped it."""
+    path, on_path = [root], {root}
+    stack = [iter([v for v in adj[root] if v > root])]
+    while stack:
+        budget[0] -= 1
+        if budget[0] < 0:
+            return False
+        nxt = next(stack[-1], None)
+        if nxt is None:
+            stack.pop()
+            on_path.discard(path.pop())
+            continue
+        if len(path) + 1 == length:
+            if length >= 3 and path[1] < nxt and root in adj[nxt]:
+                if len(found) >= cap:
+                    return False
+                found.append(path + [nxt])
+            continue
+        path.append(nxt)
+        on_path.add(nxt)
+        stack.append(iter([v for v in adj[nxt] if v > root and v not in on_path]))
+    return True
+
+
+def common_neighbours(edges, *, most: int = 2_000_000) -> dict | None:
+    """{(a, b): how many neighbours a and b share} for every pair sharing at least one
+    (a < b), or None when listing them would take more than `most` steps (a dense graph)."""
+    adj = _adjacency(sorted({q for e in edges for q in e}), edges)
+    if sum(len(v) * (len(v) - 1) // 2 for v in adj.values()) > most:
+        return None
+    shared: Counter = Counter()
+    for nbrs in adj.values():
+        nbrs = sorted(set(nbrs))
+        for i, a in enumerate(nbrs):
+            for b in nbrs[i + 1:]:
+                shared[(a, b)] += 1
+    return dict(sorted(shared.items()))

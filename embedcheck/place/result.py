@@ -5,10 +5,12 @@
 """
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
 from enum import Enum
 
-from ..model.placement import Placement
+from ..model.placement import Placement, PlacementRows
+from .reasons import Reason
 
 __all__ = ["SearchResult", "StopReason"]
 
@@ -33,11 +35,14 @@ class SearchResult:
 
     `stop_reason` says whether every placement was found (`StopReason.COMPLETE`) or the
     count limit or the budget stopped the search. `reasons` explains, in plain words,
-    why there is no placement when a cheap necessary condition already rules it out.
+    why there is no placement when a cheap necessary condition already rules it out;
+    `culprits` holds the same reasons with the patch qubits and pairs each one blames.
+    `symmetry_order` is the order of the patch's symmetry group for the searched circuits
+    (also when a necessary condition ruled the search out; 1 when it is too big to list).
     """
 
     circuits: tuple[str, ...]
-    placements: tuple[Placement, ...]
+    placements: Sequence[Placement]          # kept as `PlacementRows` (one int array)
     raw_maps: int
     symmetry_order: int
     stop_reason: StopReason
@@ -47,6 +52,11 @@ class SearchResult:
     notes: tuple[str, ...] = ()                    # caveats on how the result was counted
     work: int = 0                  # the matcher's work units used (see find_placements)
     timed_out: bool = False        # the clock stopped it (another run may stop elsewhere)
+    culprits: tuple[Reason, ...] = ()              # `reasons`, with what each one blames
+
+    def __post_init__(self) -> None:
+        if not isinstance(self.placements, PlacementRows):
+            object.__setattr__(self, "placements", PlacementRows(self.placements))
 
     @property
     def complete(self) -> bool:

@@ -43,10 +43,10 @@ from ..errors import InputError, did_you_mean
 from ..model.constraints import Constraints
 from ..model.device import Device
 from ..model.patch import Patch
-from ..model.placement import Placement
+from ..model.placement import PlacementRows
 from .completion import complete_placement
 from .enumeration import Effort, raw_maps
-from .reasons import constraint_reasons, necessary_conditions, part_reasons
+from .reasons import Reason, constraint_reasons, necessary_conditions, part_reasons
 from .result import SearchResult, StopReason
 from .symmetry import (
     MAX_SYMMETRIES,
@@ -67,7 +67,9 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
                     clock: Callable[[], float] = time.monotonic,
                     max_maps: int | None = None, processes: int = 1,
                     max_work: int | None = None,
-                    on_effort: Callable[[Effort], None] | None = None) -> SearchResult:
+                    on_effort: Callable[[Effort], None] | None = None,
+                    on_found: Callable[[np.ndarray, np.ndarray], None] | None = None
+                    ) -> SearchResult:
     """All distinct swap-free placements of `patch` for `circuits` (default: all).
 
     `limit` caps the number of distinct placements, `budget_s` the seconds spent (read
@@ -85,6 +87,16 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
     A stop on the clock is noted in the result (another run may stop elsewhere).
     `on_effort(effort)` is called after every block the matcher hands back, maps or not,
     with the work done and the anchors begun (progress before a first map).
+
+    `on_found(rows, symmetries)` is called with each batch of new placements as they are
+    kept (rows of physical qubits in patch order; the symmetries as rows of patch qubit
+    indices), so a caller can score them while the search runs: its time counts against
+    `budget_s`, which then bounds searching and scoring together.
+
+    Placements are kept as one integer array (`PlacementRows`, 4 bytes per patch qubit
+    each), not as Python objects, and without a set of the ones seen: the matcher yields
+    one map per symmetry orbit (the probe's map is not yielded again), so canonical forms
+    never repeat.
     """
     names = check_request(patch, circuits, limit, budget_s, processes, max_maps)
     if max_work is not None and (not isinstance(max_work, numbers.Integral)
@@ -92,13 +104,15 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
         raise InputError(f"max_work must be a whole number >= 0, not {max_work!r}")
     rules = constraints or Constraints()
     start = clock()
-    reasons = necessary_conditions(device, patch, names, rules)
-    if reasons:
-        return SearchResult(circuits=names, placements=(), raw_maps=0, symmetry_order=1,
-                            stop_reason=StopReason.COMPLETE, reasons=tuple(reasons),
+    ruled_out = necessary_conditions(device, patch, names, rules)
+    pattern, placed = interaction_pattern(patch, names)
+    if ruled_out:                            # the patch's symmetry group still counts
+        order = 1 if rules.forbid_direction_fixes else len(symmetry_group(pattern)[0])
+        return SearchResult(circuits=names, placements=(), raw_maps=0,
+                            symmetry_order=order, stop_reason=StopReason.COMPLETE,
+                            reasons=tuple(r.text for r in ruled_out), culprits=tuple(ruled_out),
                             elapsed_s=clock() - start)
     directed = rules.forbid_direction_fixes
-    pattern, placed = interaction_pattern(patch, names)
     chip = chip_graph(device, rules)
     # Native directions: search undirected, keep the maps whose directional gates all run
     # the native way (a symmetric gate such as cz has no direction); no symmetry merging.
@@ -111,12 +125,17 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
                  "maps are not merged by symmetry: each placement may appear in several "
                  "relabelled copies",)
     allowed = rules.allowed_by_role(device, set(patch.roles.values())) if rules.roles else None
-    found: list[Placement] = []
-    seen: set[tuple[int, ...]] = set()
+    found: list[np.ndarray] = []
+    count = 0
     raw, stop = 0, StopReason.COMPLETE
     usable = rules.qubits(device)
     blocked = {i for i in chip.node_indices() if chip[i] not in usable}
     perms = np.array(autos, dtype=np.int64).reshape(len(autos), len(placed))
+    symmetries = patch_permutations(autos, placed, patch.num_qubits)
+    whole_perms = np.array(symmetries, dtype=np.int64).reshape(len(autos), patch.num_qubits)
+    physical = np.array(chip.nodes(), dtype=np.int64)
+    if len(physical) and physical.max() < 2**31 and physical.min() >= 0:
+        physical = physical.astype(np.int32)         # 4 bytes per patch qubit and placement
     order = len(autos)                       # raw maps each representative stands for
     # A worker may stop at `cap` representatives only when each one is sure to become a
     # placement (every patch qubit interacts, so none is left to place and fail).
@@ -148,13 +167,18 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
             if max_maps is not None:
                 wanted = (max_maps - raw + order - 1) // order
                 block = block[:wanted]
-            used = _take(block, perms, seen, found, chip, patch, placed, blocked, allowed,
-                         limit)
+            used, rows = _take(block, perms, physical, chip, patch, placed, blocked, allowed,
+                               None if limit is None else limit - count)
+            if len(rows):
+                found.append(rows)
+                count += len(rows)
+                if on_found is not None:
+                    on_found(rows, whole_perms)
             raw += used * order              # each representative stands for its orbit
             if progress is not None and raw > shown:
                 shown = raw                      # never backwards
                 progress(raw)
-        if limit is not None and len(found) >= limit:
+        if limit is not None and count >= limit:
             stop = StopReason.LIMIT
             break
         if max_maps is not None and raw >= max_maps:
@@ -166,12 +190,13 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
             break
     if stop is StopReason.COMPLETE and cut_short:
         stop = StopReason(cut_short)   # a worker's part stopped early: the union is incomplete
+    reasons: list[Reason] = []
     if stop is StopReason.COMPLETE and raw == 0:
         what = "the chip's live coupling graph" + (" under the constraints" if not rules.empty
                                                    else "")
-        reasons = ["no cheap condition rules it out, and an exhaustive search found no "
-                   f"placement: the interaction graph of {', '.join(names)} is not a subgraph of "
-                   f"{what}"]
+        reasons = [Reason(text="no cheap condition rules it out, and an exhaustive search found "
+                               f"no placement: the interaction graph of {', '.join(names)} is "
+                               f"not a subgraph of {what}")]
         left = None if budget_s is None else max(0.0, budget_s - (clock() - start))
         reasons += part_reasons(device, patch, names, rules, clock, left, pattern, placed,
                                 search=find_placements)
@@ -181,51 +206,37 @@ def find_placements(device: Device, patch: Patch, *, circuits: str | Sequence[st
     if timed_out and stop is StopReason.BUDGET:
         notes += (f"stopped on the clock after {budget_s:g} s: another "
                   "run may stop elsewhere and list other placements",)
-    return SearchResult(circuits=names, placements=tuple(found), raw_maps=raw,
-                        symmetry_order=len(autos), stop_reason=stop, reasons=tuple(reasons),
-                        elapsed_s=clock() - start,
-                        symmetries=patch_permutations(autos, placed, patch.num_qubits),
-                        notes=notes, work=effort.work,
-                        timed_out=timed_out and stop is StopReason.BUDGET)
+    rows = np.concatenate(found) if found else np.zeros((0, patch.num_qubits), dtype=np.int64)
+    del found
+    return SearchResult(circuits=names, placements=PlacementRows(rows, copy=False), raw_maps=raw,
+                        symmetry_order=len(autos), stop_reason=stop,
+                        reasons=tuple(r.text for r in reasons), culprits=tuple(reasons),
+                        elapsed_s=clock() - start, symmetries=symmetries, notes=notes,
+                        work=effort.work, timed_out=timed_out and stop is StopReason.BUDGET)
 
 
-def _take(batch: np.ndarray, perms: np.ndarray, seen: set[tuple[int, ...]],
-          found: list[Placement],
-          chip: rx.PyGraph, patch: Patch, placed: Sequence[int], blocked: set[int],
-          allowed: Mapping[str, set[int]] | None, limit: int | None) -> int:
+def _take(batch: np.ndarray, perms: np.ndarray, numbers: np.ndarray, chip: rx.PyGraph,
+          patch: Patch, placed: Sequence[int], blocked: set[int],
+          allowed: Mapping[str, set[int]] | None, room: int | None) -> tuple[int, np.ndarray]:
     """Canonicalise a batch of raw maps (numpy, no per-map Python loop over the symmetry
-    group) and keep the new ones: the canonical form of a map is the lexicographically
-    smallest of its images under the patch's symmetries. Returns how many rows of the
-    batch were looked at (all, unless the limit was reached first)."""
+    group) and return (how many rows of the batch were looked at, the new placements as
+    rows of physical qubits), at most `room` of them. The canonical form of a map is the
+    lexicographically smallest of its images under the patch's symmetries; `numbers` is
+    the physical qubit of each chip graph node."""
     images = np.asarray(batch, dtype=np.int64).reshape(len(batch), len(placed))
     best = canonical_rows(images, perms)
-    whole = len(placed) == patch.num_qubits          # every patch qubit interacts
-    rows = (_qubit_numbers(chip)[best] if whole else best).tolist()   # one list, no
-    for i, row in enumerate(rows):                                    # per-row numpy
-        key = tuple(row)
-        if key in seen:
-            continue
-        seen.add(key)
-        if whole:
-            placement: Placement | None = Placement(key)
-        else:
-            placement = complete_placement(chip, patch, placed, row, blocked, allowed)
+    if len(placed) == patch.num_qubits:          # every patch qubit interacts: no loop
+        if room is not None:
+            best = best[:room]
+        return len(best), numbers[best]
+    out: list[tuple[int, ...]] = []              # idle qubits to put near the placed ones
+    for i, row in enumerate(best.tolist()):
+        placement = complete_placement(chip, patch, placed, row, blocked, allowed)
         if placement is not None:
-            found.append(placement)
-        if limit is not None and len(found) >= limit:
-            return i + 1
-    return len(best)
-
-
-def _qubit_numbers(chip: rx.PyGraph) -> np.ndarray:
-    """The physical qubit of each chip graph node, as an array of the Python ints
-    themselves (read once per graph; lists made from it share those ints instead of
-    making one per placement and qubit)."""
-    numbers = chip.attrs
-    if not isinstance(numbers, np.ndarray):
-        numbers = np.array(chip.nodes(), dtype=object)
-        chip.attrs = numbers
-    return numbers
+            out.append(placement.physical)
+        if room is not None and len(out) >= room:
+            return i + 1, np.array(out, dtype=numbers.dtype).reshape(len(out), patch.num_qubits)
+    return len(best), np.array(out, dtype=numbers.dtype).reshape(len(out), patch.num_qubits)
 
 
 def check_request(patch: Patch, circuits: str | Sequence[str] | None, limit: int | None,

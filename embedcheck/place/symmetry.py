@@ -25,7 +25,7 @@ import rustworkx as rx
 from ..model.patch import SYMMETRIC_GATES, Patch
 
 __all__ = ["MAX_SYMMETRIES", "automorphisms", "canonical_rows", "directional_arcs",
-           "interaction_pattern", "patch_permutations", "symmetry_group"]
+           "interaction_pattern", "patch_permutations", "symmetry_group", "symmetry_order"]
 
 MAX_SYMMETRIES = 20_000
 
@@ -78,6 +78,11 @@ def symmetry_group(pattern: rx.PyGraph) -> tuple[list[tuple[int, ...]], bool]:
     if len(listed) > MAX_SYMMETRIES:
         return [tuple(range(n))], True
     return listed, False
+
+
+def symmetry_order(patch: Patch, circuits: Sequence[str]) -> int:
+    """The order of the patch's symmetry group for `circuits` (1 when too big to list)."""
+    return len(symmetry_group(interaction_pattern(patch, circuits)[0])[0])
 
 
 def canonical_rows(images: np.ndarray, perms: np.ndarray) -> np.ndarray:

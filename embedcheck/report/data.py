@@ -23,6 +23,8 @@ from ..pipeline.checks import CheckResult
 from ..pipeline.find import FindResult, LogicalNote
 from ..pipeline.sdk import SdkComparison
 from ..place.graphs import degree_histogram, shortest_cycle
+from ..place.near_misses import NearMiss
+from ..place.reasons import Reason
 from ..score.best_placements import BestPlacements
 from ..score.cost import CAUTION, Ranking, Sensitivity, SnapshotRanking
 from ..score.logical import LogicalRanking
@@ -107,6 +109,7 @@ def find_dict(result: FindResult) -> Json:
             "off_coupler_min": int(col.min()) if col is not None else None,
             "off_coupler_max": int(col.max()) if col is not None else None,
             "reasons": list(fit.reasons),
+            "culprits": _culprit_rows(fit.culprits),
         })
     s = v.search
     out = {
@@ -120,15 +123,12 @@ def find_dict(result: FindResult) -> Json:
                    "raw_maps": s.raw_maps, "symmetry_order": s.symmetry_order,
                    "complete": s.complete, "stop_reason": s.stop_reason.value,
                    "elapsed_s": round(s.elapsed_s, 4), "reasons": list(s.reasons),
-                   "notes": list(s.notes), "work": s.work, "timed_out": s.timed_out},
+                   "culprits": _culprit_rows(s.culprits), "notes": list(s.notes),
+                   "work": s.work, "timed_out": s.timed_out},
         "best_first": best_first_dict(v.patch, v.best),
         "unconstrained_qubits": list(v.unconstrained),
         "constraints": v.constraints.describe() if v.constraints is not None else [],
-        "near_misses": [{"qubits": m.placement.as_dict(v.patch),
-                         "off_coupler_gates": m.off_coupler_gates,
-                         "missing_pairs": [list(p) for p in m.missing_pairs],
-                         "method": "heuristic (greedy pair removal), not exhaustive"}
-                        for m in v.near_misses],
+        "near_misses": _near_miss_rows(v.patch, v.near_misses),
         "figure": v.ranking.figure,
         "placements": placement_rows(v.patch, v.ranking, v.off_coupler, top),
         "best_audit": audit_dict(v.patch, v.best_audit) if v.best_audit else None,
@@ -279,19 +279,28 @@ def _gate_dict(g: OffCouplerGate) -> Json:
             "file": g.file, "line": g.line, "reason": g.reason}
 
 
+def _near_miss_rows(patch: Patch, misses: Sequence[NearMiss]) -> list[Json]:
+    return [{"qubits": m.placement.as_dict(patch), "off_coupler_gates": m.off_coupler_gates,
+             "missing_pairs": [list(p) for p in m.missing_pairs],
+             "method": "heuristic (greedy pair removal), not exhaustive"} for m in misses]
+
+
+def _culprit_rows(reasons: Sequence[Reason]) -> list[Json]:
+    return [{"reason": r.text, "qubits": list(r.qubits), "pairs": [list(p) for p in r.pairs]}
+            for r in reasons]
+
+
 def check_dict(result: CheckResult, baseline: Json | None = None) -> Json:
     """The `check` report: one entry per chip x patch, rules judged, gates named."""
     entries = []
     for pair in result.pairs:
         v = pair.vetting
         chosen = pair.audit
-        score = None
-        if chosen is not None:
-            index = v.ranking.placements.index(chosen.placement)
-            score = float(v.ranking.success[index])
+        fits = {f.circuit: f for f in v.fits}
         circuits = []
         for name in pair.patch.circuits:
             c = next((c for c in chosen.circuits if c.circuit == name), None) if chosen else None
+            fit = fits.get(name)
             circuits.append({
                 "circuit": name,
                 "two_qubit_gates": len(pair.patch.circuits[name].two_qubit_gates),
@@ -301,6 +310,9 @@ def check_dict(result: CheckResult, baseline: Json | None = None) -> Json:
                 "depth": c.depth if c else None,
                 "duration_ns": c.duration_ns if c else None,
                 "gates": [_gate_dict(g) for g in c.off_coupler] if c else [],
+                "fits_alone": fit.fits_alone if fit else None,
+                "reasons": list(fit.reasons) if fit else [],
+                "culprits": _culprit_rows(fit.culprits) if fit else [],
             })
         entries.append({
             "chip": pair.device.name, "chip_file": pair.device.source,
@@ -314,10 +326,17 @@ def check_dict(result: CheckResult, baseline: Json | None = None) -> Json:
                        ("budget" if v.inconclusive else "complete"),
                        "inconclusive_circuits": list(v.inconclusive)},
             "chosen_placement": chosen.placement.as_dict(pair.patch) if chosen else None,
-            "figure": v.ranking.figure, "best_score": score,
+            "chosen_from": pair.chosen_from,
+            "blamed_circuits": list(pair.blamed),
+            "near_misses": _near_miss_rows(pair.patch, v.near_misses),
+            "cross_checked": {"placements": pair.cross_checked,
+                              "cut_by_budget": pair.cross_check_cut},
+            "figure": v.ranking.figure, "best_score": pair.chosen_score,
             "circuits": circuits,
             "outcomes": [{"rule": o.rule, "circuit": o.circuit, "passed": o.passed,
-                          "message": o.message} for o in pair.outcomes],
+                          "message": o.message,
+                          "locations": [{"file": at.file, "line": at.line, "text": at.text}
+                                        for at in o.locations]} for o in pair.outcomes],
         })
     out = {"tool": "embedcheck", "version": __version__, "command": "check",
            "project": {"name": result.project.name, "file": result.project.file},
@@ -329,37 +348,105 @@ def check_dict(result: CheckResult, baseline: Json | None = None) -> Json:
 
 
 def compare_to_baseline(current: Json, baseline: Json) -> Json:
-    """What got worse and what got better since a previous `check` JSON report."""
+    """What got worse and what got better since a previous `check` JSON report.
+
+    Per chip x patch: off-coupler gates per circuit on the chosen placement, placements
+    within the allowances, whether the search was complete, pass or fail, and the best
+    score. A score leaves off-coupler gates out, so scores are compared only between
+    chosen placements with the same off-coupler counts in every circuit; a count of
+    placements rises only against a complete baseline search (a cut-short one is a
+    lower bound); and nothing about a chip x patch is called better while anything about
+    it got worse. What is left out goes to `not_compared`, with why.
+
+        >>> old = {"results": [{"chip": "c", "patch": "p", "passed": True, "figure": "f",
+        ...        "placements_within_allowance": 5, "best_score": 0.47,
+        ...        "search": {"complete": True},
+        ...        "circuits": [{"circuit": "prep", "off_coupler_count": 0}]}]}
+        >>> new = {"results": [{**old["results"][0], "best_score": 0.48,
+        ...        "circuits": [{"circuit": "prep", "off_coupler_count": 1}]}]}
+        >>> diff = compare_to_baseline(new, old)
+        >>> diff["worse"], diff["better"]
+        (['p on c, prep: off-coupler gates 0 -> 1'], [])
+        >>> diff["not_compared"][0].split(":")[1]
+        ' best f 0.4700 -> 0.4800 not compared'
+    """
     old = {(e["chip"], e["patch"]): e for e in baseline.get("results", [])}
-    worse, better = [], []
+    worse: list[str] = []
+    better: list[str] = []
+    skipped: list[str] = []
     for e in current["results"]:
-        key = (e["chip"], e["patch"])
         where = f"{e['patch']} on {e['chip']}"
-        before = old.get(key)
+        before = old.get((e["chip"], e["patch"]))
         if before is None:
             better.append(f"{where}: new in this report") if e["passed"] else \
                 worse.append(f"{where}: new in this report, and it fails")
             continue
-        old_circuits = {c["circuit"]: c for c in before["circuits"]}
-        for c in e["circuits"]:
-            prev = old_circuits.get(c["circuit"], {}).get("off_coupler_count")
-            now = c["off_coupler_count"]
-            if prev is not None and now is not None and now != prev:
-                (worse if now > prev else better).append(
-                    f"{where}, {c['circuit']}: off-coupler gates {prev} -> {now}")
-        p0, p1 = before["placements_within_allowance"], e["placements_within_allowance"]
-        if p1 != p0:
-            (worse if p1 < p0 else better).append(f"{where}: placements within allowance "
-                                                  f"{p0} -> {p1}")
-        s0, s1 = before.get("best_score"), e.get("best_score")
-        if s0 is not None and s1 is not None and abs(s1 - s0) > 1e-9:
-            (worse if s1 < s0 else better).append(
-                f"{where}: best {e['figure']} {s0:.4f} -> {s1:.4f}")
-        if before["passed"] and not e["passed"]:
-            worse.append(f"{where}: passed before, fails now")
-        elif not before["passed"] and e["passed"]:
-            better.append(f"{where}: failed before, passes now")
-    return {"worse": worse, "better": better}
+        w, b, n = _entry_changes(where, before, e)
+        if w and b:
+            n += [f"{line} (not called better: something else about {where} got worse)"
+                  for line in b]
+            b = []
+        worse += w
+        better += b
+        skipped += n
+    return {"worse": worse, "better": better, "not_compared": skipped}
+
+
+def _entry_changes(where: str, before: Json, now: Json) -> tuple[list[str], list[str],
+                                                                  list[str]]:
+    """(worse, better, not compared) for one chip x patch."""
+    worse: list[str] = []
+    better: list[str] = []
+    skipped: list[str] = []
+    complete0 = before.get("search", {}).get("complete", True)
+    complete1 = now.get("search", {}).get("complete", True)
+    if complete0 and not complete1:
+        worse.append(f"{where}: the search was complete, now cut short "
+                     f"({now['search'].get('stop_reason', 'budget')})")
+    elif complete1 and not complete0:
+        better.append(f"{where}: the search is complete now (it was cut short)")
+    old_off = {c["circuit"]: c.get("off_coupler_count") for c in before.get("circuits", [])}
+    new_off = {c["circuit"]: c.get("off_coupler_count") for c in now.get("circuits", [])}
+    for name, count in new_off.items():
+        prev = old_off.get(name)
+        if name not in old_off or prev == count:
+            continue
+        if count is None:
+            worse.append(f"{where}, {name}: off-coupler gates {prev} -> none judged (no "
+                         "placement)")
+        elif prev is None:
+            better.append(f"{where}, {name}: off-coupler gates none judged -> {count}")
+        else:
+            (worse if count > prev else better).append(
+                f"{where}, {name}: off-coupler gates {prev} -> {count}")
+    p0, p1 = before["placements_within_allowance"], now["placements_within_allowance"]
+    if p1 < p0:
+        worse.append(f"{where}: placements within allowance {p0} -> {p1}"
+                     + ("" if complete1 else " (search cut short)"))
+    elif p1 > p0 and complete0:
+        better.append(f"{where}: placements within allowance {p0} -> {p1}")
+    elif p1 > p0:
+        skipped.append(f"{where}: placements within allowance {p0} -> {p1} not compared: the "
+                       "baseline's search was cut short, so its count was a lower bound")
+    s0, s1 = before.get("best_score"), now.get("best_score")
+    if s0 is not None and s1 is not None and abs(s1 - s0) > 1e-9:
+        line = f"{where}: best {now['figure']} {s0:.4f} -> {s1:.4f}"
+        same_off = old_off.keys() == new_off.keys() and old_off == new_off and \
+            before.get("chosen_from", "ranking") == now.get("chosen_from", "ranking")
+        if same_off:
+            (worse if s1 < s0 else better).append(line)
+        else:
+            changed = ", ".join(f"{c} {old_off.get(c)} -> {new_off.get(c)}"
+                                for c in sorted(set(old_off) | set(new_off))
+                                if old_off.get(c) != new_off.get(c))
+            skipped.append(f"{line} not compared: the chosen placements differ in off-coupler "
+                           f"gates ({changed or 'how they were chosen'}), which the score "
+                           "leaves out")
+    if before["passed"] and not now["passed"]:
+        worse.append(f"{where}: passed before, fails now")
+    elif not before["passed"] and now["passed"]:
+        better.append(f"{where}: failed before, passes now")
+    return worse, better, skipped
 
 
 def sensitivity_rows(rows: Sequence[Sensitivity]) -> list[Json]:
@@ -380,7 +467,8 @@ def snapshot_dict(patch: Patch, robust: SnapshotRanking, top: int = 5) -> Json:
     return {"figure": robust.figure, "by": robust.by, "count": len(robust.timestamps),
             "timestamps": list(robust.timestamps), "top": rows,
             "winner_ranks": list(robust.winner_ranks), "top_k": robust.top_k,
-            "stability": robust.stability, "newest_winner_rank": robust.newest_winner_rank}
+            "stability": robust.stability, "newest_winner_rank": robust.newest_winner_rank,
+            "placements": len(robust.placements), "unscored_placements": robust.unscored}
 
 
 def sdk_dict(patch: Patch, sdk: SdkComparison) -> Json:
@@ -428,6 +516,8 @@ def logical_dict(patch: Patch, logical: LogicalRanking, top: int = 10,
         rows.append(row)
     out: Json = {"figure": logical.figure, "placements": len(logical.placements), "top": rows,
                  "method": _logical_method(logical, sampled), "rounds": logical.rounds}
+    if logical.unscored:
+        out["unscored_placements"] = logical.unscored
     if logical.estimate_order is not None:
         out["estimate"] = {"order": logical.estimate_order,
                            "fault_distance": logical.estimate_distance,

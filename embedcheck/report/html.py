@@ -92,6 +92,25 @@ def _gates(gates) -> str:
     return _table(["where", "gate", "patch qubits", "chip qubits", "why"], rows)
 
 
+def _locations(locations) -> str:
+    """The file:line places a rule blames (no file text: lines are what a reviewer opens)."""
+    places = [f"{at.get('file') or '?'}:{at['line']}" if at.get("line") else
+              (at.get("file") or "?") for at in locations]
+    return "<td><code>" + escape(" ".join(dict.fromkeys(places))) + "</code></td>"
+
+
+def _near_misses(misses) -> list[str]:
+    """The nearest misses as a table (the patch pairs each leaves without a coupler)."""
+    if not misses:
+        return []
+    rows = [[_num(m["off_coupler_gates"], "{}"),
+             ", ".join("-".join(p) for p in m["missing_pairs"]),
+             " ".join(f"{q}={n}" for q, n in m["qubits"].items())] for m in misses]
+    return [f"<h2>Nearest misses ({escape(misses[0]['method'])})</h2>",
+            _table(["off-coupler gates", "pairs without a coupler",
+                    "placement (patch qubit=chip qubit)"], rows)]
+
+
 def _audit_circuits(circuits) -> str:
     rows = []
     for c in circuits:
@@ -130,6 +149,12 @@ def _find(payload, pictures) -> str:
              "<td>" + ("yes" if c["in_core"] else "no") + "</td>",
              "; ".join(c.get("reasons", []))] for c in payload["circuits"]]
     out.append(_table(["circuit", "2q gates", "fits alone", "in the layout", "why not"], rows))
+    out += _near_misses(payload.get("near_misses", []))
+    for part, what in (("logical", "logical ranking"), ("snapshots", "ranking over snapshots")):
+        cut = (payload.get(part) or {}).get("unscored_placements", 0)
+        if cut:
+            out.append(f"<p>INCOMPLETE {what}: the time budget ran out before {cut} "
+                       "placement(s) were scored; the best by the cost model came first.</p>")
     best = payload.get("best_audit")
     if best:
         bad = [g for c in best["circuits"] for g in c.get("off_coupler", [])]
@@ -154,8 +179,13 @@ def _check(payload, pictures) -> str:
         if name in pictures:
             out.append(_pictures({name: pictures[name]}))
         rows = [[o["rule"], o.get("circuit") or "", f"<td>{_verdict(o['passed'])}</td>",
-                 o["message"]] for o in result["outcomes"]]
-        out.append(_table(["rule", "circuit", "verdict", "why"], rows))
+                 o["message"], _locations(o.get("locations", []))]
+                for o in result["outcomes"]]
+        out.append(_table(["rule", "circuit", "verdict", "why", "where"], rows))
+        if result.get("blamed_circuits"):
+            out.append("<p>Circuits that cannot fit: "
+                       f"{escape(', '.join(result['blamed_circuits']))}</p>")
+        out += _near_misses(result.get("near_misses", []))
         bad = [g for c in result.get("circuits", []) for g in c.get("gates", [])]
         if bad:
             out += ["<p>Gates that need routing on the chosen placement:</p>", _gates(bad)]

@@ -157,9 +157,14 @@ def _vetting(vetting) -> str:
     verdict = "every circuit swap-free" if vetting.all_swap_free else \
         f"needs routing: {', '.join(vetting.excluded) or 'no placement'}"
     incomplete = "" if vetting.complete else " (INCOMPLETE: a budget stopped it)"
+    misses = [[m.off_coupler_gates, ", ".join("-".join(p) for p in m.missing_pairs),
+               " ".join(f"{q}={p}" for q, p in m.placement.as_dict(vetting.patch).items())]
+              for m in vetting.near_misses]
     return (f"<b>{escape(vetting.patch.name)} on {escape(vetting.device.name)}</b>: "
             f"{escape(verdict)}; {len(ranking.placements)} placement(s){incomplete}"
             + _table(["circuit", "2q gates", "fits alone", "in the layout", "why not"], fits)
+            + (_table(["nearest miss: off-coupler gates", "pairs without a coupler",
+                       "placement"], misses) if misses else "")
             + _table(["rank", "score", "off-coupler", "placement"], rows) + picture)
 
 

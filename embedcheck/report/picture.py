@@ -19,8 +19,8 @@ from ..model.device import Device
 from ..model.patch import Patch
 from ..model.placement import Placement
 
-__all__ = ["DEAD", "LABELLED_UP_TO", "ROLE_STYLE", "draw_placement", "draw_score_map",
-           "picture_bytes"]
+__all__ = ["DEAD", "LABELLED_UP_TO", "NUMBERED_UP_TO", "ROLE_STYLE", "draw_placement",
+           "draw_score_map", "number_font_size", "picture_bytes"]
 
 ROLE_STYLE = {"data": ("o", "#0072B2"), "flag": ("D", "#E69F00"), "ancilla": ("s", "#009E73")}
 # (a diamond, not a triangle, for flags: wide enough to hold the name)
@@ -64,18 +64,73 @@ def _positions(device: Device) -> dict:
     return {q: (float(x) * scale, float(y) * scale) for q, (x, y) in pos.items()}
 
 
-LABELLED_UP_TO = 200          # physical qubit numbers are printed on chips this small
+LABELLED_UP_TO = 200          # qubit numbers at full size (5.5 pt) on chips this small
+NUMBERED_UP_TO = 2500         # above: no numbers (a stated reason on the picture instead;
+                              # 2025 numbers add about 5 s to a picture, bench: by hand)
+SMALLEST_NUMBER_PT = 1.5      # numbers that would be smaller are left out, with the reason
+
+
+def number_font_size(device: Device, pos, width_in: float) -> float:
+    """The point size of the qubit numbers: 5.5 up to LABELLED_UP_TO qubits; above, scaled
+    to the room a qubit has in a picture `width_in` inches wide (so they do not overlap)."""
+    if device.num_qubits <= LABELLED_UP_TO:
+        return 5.5
+    xs = [x for x, _ in pos.values()] or [0.0]
+    ys = [y for _, y in pos.values()] or [0.0]
+    across = max(max(xs) - min(xs) + 2, 2.0)
+    per_row = max(1.0, device.num_qubits / max(max(ys) - min(ys) + 1, 1.0))
+    spacing_pt = width_in * 72 / max(across, per_row)   # points between neighbours
+    return min(5.5, 0.128 * spacing_pt)                 # 5.5 pt at 0.6 inch (common practice)
 
 
 def _number_qubits(ax, device: Device, pos):
     """Each qubit's physical number just below it, so a picture can be read against the
-    text report (left out on big chips, where they would overlap)."""
-    if device.num_qubits > LABELLED_UP_TO:
+    text report. Above LABELLED_UP_TO qubits the numbers shrink with the room each qubit
+    has (zoom into an SVG to read them); when they would be unreadable, or past
+    NUMBERED_UP_TO qubits, the picture says why they are left out."""
+    size = number_font_size(device, pos, ax.figure.get_figwidth())
+    why = None
+    if device.num_qubits > NUMBERED_UP_TO:
+        why = f"{device.num_qubits} qubits, above {NUMBERED_UP_TO}"
+    elif size < SMALLEST_NUMBER_PT:
+        why = f"they would be {size:.1f} pt, below {SMALLEST_NUMBER_PT} pt"
+    if why:
+        ax.text(0.5, 1.0, f"qubit numbers left out ({why}); the text report names the qubits",
+                transform=ax.transAxes, ha="center", va="bottom", fontsize=7,
+                color="#333333", gid="qubit numbers note")
         return
+    if device.num_qubits <= LABELLED_UP_TO:
+        for q in device.qubits:
+            x, y = pos[q]
+            ax.annotate(str(q), (x, y), textcoords="offset points", xytext=(0, -12.5),
+                        ha="center", fontsize=size, color="#333333", zorder=4,
+                        gid="qubit numbers")
+        return
+    # Many numbers: plain texts (an annotation each costs several times as much), set
+    # below each qubit by the same share of the spacing (the y axis points down).
+    below = 0.29 * size / 5.5
     for q in device.qubits:
         x, y = pos[q]
-        ax.annotate(str(q), (x, y), textcoords="offset points", xytext=(0, -12.5), ha="center",
-                    fontsize=5.5, color="#333333", zorder=4, gid="qubit numbers")
+        ax.text(x, y + below, str(q), ha="center", va="center", fontsize=size,
+                color="#333333", zorder=4, gid="qubit numbers")
+
+
+def _colour_bar(fig, mappable, ax, label: str, values) -> None:
+    """A colour bar with plain tick labels (no '1e-10+1e-2' offset); on uniform data one
+    tick at the value, and the label says every one has it."""
+    from matplotlib.ticker import ScalarFormatter
+
+    values = [float(v) for v in values]
+    bar = fig.colorbar(mappable, ax=ax, shrink=0.7, pad=0.02, label=label)
+    if values and max(values) == min(values):
+        bar.set_ticks([values[0]])
+        bar.set_ticklabels([f"{values[0]:.3g}"])
+        bar.set_label(f"{label}: {values[0]:.3g} on every one")
+        return
+    formatter = ScalarFormatter(useOffset=False)
+    formatter.set_powerlimits((-3, 4))
+    bar.formatter = formatter
+    bar.update_ticks()
 
 
 def _draw_couplers(ax, device: Device, pos, highlight=frozenset(), plain=False):
@@ -87,7 +142,8 @@ def _draw_couplers(ax, device: Device, pos, highlight=frozenset(), plain=False):
     errors = [e for c in device.live_couplers if c in device.coupler_calibration
               and (e := device.coupler_calibration[c].two_qubit_error) is not None]
     lo, hi = (min(errors), max(errors)) if errors else (0.0, 1.0)
-    norm = mpl.colors.Normalize(vmin=lo, vmax=hi if hi > lo else lo + 1e-9)
+    pad = max(abs(lo) * 0.05, 1e-6) if hi <= lo else 0.0       # uniform: a band around it
+    norm = mpl.colors.Normalize(vmin=lo - pad, vmax=hi + pad)
     cmap = mpl.colormaps["cividis_r"]
     live, colours, widths = [], [], []
     for c in device.live_couplers:
@@ -102,8 +158,7 @@ def _draw_couplers(ax, device: Device, pos, highlight=frozenset(), plain=False):
     if dead:
         ax.add_collection(LineCollection(dead, colors=DEAD, linewidths=1.5, linestyles="dotted",
                                          zorder=1, gid="dead couplers"))
-    sm = mpl.cm.ScalarMappable(norm=norm, cmap=cmap)
-    return sm
+    return mpl.cm.ScalarMappable(norm=norm, cmap=cmap), errors or [lo]
 
 
 def draw_placement(device: Device, path: str | Path | None = None, *, patch: Patch | None = None,
@@ -120,7 +175,7 @@ def draw_placement(device: Device, path: str | Path | None = None, *, patch: Pat
         for (a, b) in patch.interaction_counts():
             p, q = where[patch.qubits[a]], where[patch.qubits[b]]
             edges.add((min(p, q), max(p, q)))
-    sm = _draw_couplers(ax, device, pos, frozenset(edges))
+    sm, shown = _draw_couplers(ax, device, pos, frozenset(edges))
     used = set(where.values())
     live = [q for q in device.live_qubits if q not in used]
     ax.scatter([pos[q][0] for q in live], [pos[q][1] for q in live], s=30, c="#BBBBBB",
@@ -145,7 +200,7 @@ def draw_placement(device: Device, path: str | Path | None = None, *, patch: Pat
                                 va="center", fontsize=6 if len(name) <= 3 else 4.5, color=ink,
                                 zorder=4, gid="patch qubit names")
     _number_qubits(ax, device, pos)
-    fig.colorbar(sm, ax=ax, shrink=0.7, pad=0.02, label="two-qubit error (light: low)")
+    _colour_bar(fig, sm, ax, "two-qubit error (light: low)", shown)
     ax.legend(loc="upper center", bbox_to_anchor=(0.5, 0.0), ncol=6, fontsize=8, frameon=False,
               markerscale=0.7)
     ax.set_title(title or f"{device.name}" + (f" with {patch.name}" if patch else ""), fontsize=10)
@@ -176,7 +231,10 @@ def draw_score_map(device: Device, patch: Patch, placements, success, path=None,
         points = ax.scatter([pos[q][0] for q in shaded], [pos[q][1] for q in shaded], s=90,
                             c=values, cmap=mpl.colormaps["cividis"], edgecolors="black",
                             linewidths=0.5, zorder=3, gid="scored")
-        fig.colorbar(points, ax=ax, shrink=0.7, pad=0.02, label=label)
+        if max(values) == min(values):           # one colour: a band around the value
+            pad = max(abs(values[0]) * 0.05, 1e-6)
+            points.set_clim(values[0] - pad, values[0] + pad)
+        _colour_bar(fig, points, ax, label, values)
     dead = sorted(device.dead_qubits)
     if dead:
         ax.scatter([pos[q][0] for q in dead], [pos[q][1] for q in dead], s=60, marker="x",

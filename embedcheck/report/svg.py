@@ -24,6 +24,7 @@ ROLE_FILL = {"data": "#0072B2", "flag": "#E69F00", "ancilla": "#009E73"}
 DEAD = "#D55E00"
 _SCALE = 40.0
 _R = 7.0
+NUMBERED_UP_TO = 2500      # qubit numbers printed up to this many qubits (as in picture.py)
 
 
 def chip_svg(device, *, placement: Mapping[str, int] | None = None,
@@ -60,6 +61,11 @@ def chip_svg(device, *, placement: Mapping[str, int] | None = None,
            'font-family="sans-serif">']
     if title:
         out.append(f'<text x="8" y="14" font-size="12">{escape(title)}</text>')
+    numbered = device.num_qubits <= NUMBERED_UP_TO
+    if not numbered:
+        out.append(f'<text x="8" y="{top + 14}" font-size="12" class="numbers-note">qubit '
+                   f'numbers left out ({device.num_qubits} qubits, above {NUMBERED_UP_TO}); '
+                   'hover a qubit for its number</text>')
     out.append('<g class="couplers">')
     for a, b in device.couplers:
         (xa, ya), (xb, yb) = at(a), at(b)
@@ -99,7 +105,7 @@ def chip_svg(device, *, placement: Mapping[str, int] | None = None,
             shape = f'<circle cx="{x:.1f}" cy="{y:.1f}" r="{_R if role else _R - 2}"'
         out.append(f'<g class="qubit">{shape} fill="{fill}" stroke="{stroke}" '
                    f'stroke-width="1"/><title>{escape(tip)}</title>')
-        if device.num_qubits <= 200:
+        if numbered:          # above 200 qubits the page shrinks them: zoom in to read
             out.append(f'<text x="{x:.1f}" y="{y + _R + 9:.1f}" font-size="7" '
                        f'text-anchor="middle" fill="#333">{q}</text>')
         if name:

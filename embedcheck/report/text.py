@@ -174,8 +174,11 @@ def render_find(d: dict) -> str:
                        f"{r['log_contribution']:>8.4f}  {r['derivative']:>10.4g}")
     snap = d.get("snapshots")
     if snap:
+        cut = snap.get("unscored_placements", 0)
         out += ["", f"Across {snap['count']} calibration snapshots, ranked by the {snap['by']} "
-                    f"{snap['figure']}:"]
+                    f"{snap['figure']}" + (f" (INCOMPLETE: the time budget ran out after the "
+                                           f"best {snap['placements']} by the newest snapshot; "
+                                           f"{cut} more left out)" if cut else "") + ":"]
         for r in snap["top"]:
             each = " ".join(format_score(x) for x in r["per_snapshot_success"])
             out.append(f"  {r['rank']:>4}  per snapshot {each}  {_placement(r['qubits'])}")
@@ -321,7 +324,17 @@ def render_check(d: dict) -> str:
         mark = "pass" if e["passed"] else "FAIL"
         out.append(f"[{mark}] {e['patch']} on {e['chip']}")
         if e["chosen_placement"]:
-            out.append(f"  placement: {_placement(e['chosen_placement'])}")
+            label = " (the nearest miss: no placement is swap-free)" if \
+                e.get("chosen_from") == "nearest miss" else ""
+            out.append(f"  placement{label}: {_placement(e['chosen_placement'])}")
+        for m in e.get("near_misses", [])[:1]:
+            pairs = ", ".join(f"{a}-{b}" for a, b in m["missing_pairs"])
+            out.append(f"  nearest miss (a heuristic): {m['off_coupler_gates']} off-coupler "
+                       f"gate(s) over the experiment; pairs without a coupler: {pairs}")
+        cross = e.get("cross_checked") or {}
+        if cross.get("cut_by_budget"):
+            out.append(f"  cross-check with qiskit INCOMPLETE: the time budget ran out after "
+                       f"{cross['placements']} of the top placement(s)")
         gates = {c["circuit"]: c["gates"] for c in e["circuits"]}
         for o in e["outcomes"]:
             label = o["rule"] + (f" {o['circuit']}" if o["circuit"] else "")
@@ -334,12 +347,17 @@ def render_check(d: dict) -> str:
                 out.append(f"         {where}: {g['text']}")
                 out.append(f"           needs physical {g['physical_qubits'][0]}-"
                            f"{g['physical_qubits'][1]} ({g['reason']})")
+            if not o["passed"] and not gates.get(o["circuit"]):
+                for at in o.get("locations", [])[:5]:
+                    where = f"{at['file']}:{at['line']}" if at.get("line") else at.get("file")
+                    out.append(f"         at fault: {where}: {at['text']}")
         out.append("")
     base = d.get("baseline")
     if base:
         out.append(f"Against the baseline {base.get('file', '')}:")
         out += [f"  worse:  {w}" for w in base["worse"]] or ["  nothing got worse"]
         out += [f"  better: {b}" for b in base["better"]]
+        out += [f"  not compared: {b}" for b in base.get("not_compared", [])]
         out.append("")
     for err in d["internal_errors"]:
         out.append(f"INTERNAL ERROR (exact audit and qiskit disagree): {err}")
@@ -416,8 +434,11 @@ def _best_first_lines(b: dict | None) -> list[str]:
 def _logical_rows(logical: dict[str, Any]) -> list[str]:
     """The ranking by a logical figure: its deterministic figures, then what was sampled."""
     estimate = logical.get("estimate")
+    left_out = logical.get("unscored_placements", 0)
+    cut = (f"; INCOMPLETE: scored best by the cost model first, the time budget ran out "
+           f"before the other {left_out}, which this ranking leaves out") if left_out else ""
     out = [f"Ranked by {logical['figure']} ({logical['method']}; "
-           f"{logical['placements']} swap-free placements):"]
+           f"{logical['placements']} swap-free placements{cut}):"]
     if estimate:
         out.append(f"  (estimate: to order {estimate['order']}, fault sets of up to "
                    f"{estimate['order']} faults; fault distance {estimate['fault_distance']}"

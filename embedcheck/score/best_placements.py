@@ -96,7 +96,7 @@ def find_best_placements(device: Device, patch: Patch, *, top: int = 10,
         return BestPlacements(circuits=names, top=top, placements=(), log_success=empty,
                               full_log_success=empty, proven=True, stop_reason="complete",
                               gap=0.0, work=0, idle_exact=True, symmetry_order=1,
-                              reasons=tuple(reasons))
+                              reasons=tuple(r.text for r in reasons))
     pattern, placed = interaction_pattern(patch, names)
     chip = chip_graph(device, rules)
     host = Host.from_edges(chip.num_nodes(), chip.edge_list())

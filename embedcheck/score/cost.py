@@ -51,6 +51,7 @@ over placements.
 """
 from __future__ import annotations
 
+import time
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 
@@ -59,13 +60,14 @@ import numpy as np
 from ..errors import InputError
 from ..model.device import CalibrationArrays, Device
 from ..model.patch import Patch
-from ..model.placement import Placement, check_placements, placement_grid
+from ..model.placement import Placement, PlacementRows, check_placements, placement_grid
 from .idle import idle_channel
 from .schedule import run_idles
 
 __all__ = ["CAUTION", "FIGURE", "TERMS", "Ranking", "Sensitivity", "SnapshotRanking",
-           "experiment_counts", "rank_across_snapshots", "rank_placements", "scores",
-           "sensitivity"]
+           "experiment_counts", "rank_across_snapshots", "rank_placements", "rank_scored",
+           "ranked_order",
+           "scores", "scores_in_chunks", "sensitivity"]
 
 FIGURE = "fidelity_product"
 TERMS = ("two_qubit", "readout", "single_qubit", "reset", "idle")
@@ -75,13 +77,21 @@ CAUTION = ("Scores are model estimates from the calibration you supplied, which 
 
 @dataclass(frozen=True, kw_only=True)
 class Ranking:
-    """Placements sorted best first, with the score and its terms (natural logs)."""
+    """Placements sorted best first, with the score and its terms (natural logs).
+
+    `placements` is kept as `PlacementRows` (one integer array, not an object each)."""
 
     figure: str
-    placements: tuple[Placement, ...]
+    placements: Sequence[Placement]
     log_success: np.ndarray
     terms: Mapping[str, np.ndarray]   # term name -> log contribution array, same order
     unscored_gates: np.ndarray  # off-coupler gates per placement, not in the score
+
+    def __post_init__(self) -> None:
+        if not isinstance(self.placements, PlacementRows):
+            object.__setattr__(self, "placements", PlacementRows(
+                self.placements, num_qubits=len(self.placements[0].physical)
+                if len(self.placements) else 0))
 
     @property
     def success(self) -> np.ndarray:
@@ -158,16 +168,43 @@ def _log_no_idle(waited: np.ndarray, t1: np.ndarray, t2: np.ndarray) -> np.ndarr
     return out
 
 
-def rank_placements(device: Device, patch: Patch, placements: Sequence[Placement]) -> Ranking:
-    """Score every placement with the cost model above and sort best first."""
+def rank_placements(device: Device, patch: Patch, placements: Sequence[Placement], *,
+                    chunk: int = 1 << 16) -> Ranking:
+    """Score every placement with the cost model above and sort best first (scored
+    `chunk` placements at a time, so memory stays bounded for millions)."""
     grid = check_placements(device, patch, placements)
-    terms, unscored = scores(device, patch, grid)
-    total: np.ndarray = sum(terms.values()) if terms else np.zeros(len(placements))  # type: ignore[assignment]
-    # Fewest off-coupler (unscored) gates first, then best score; ties broken by the
-    # placement itself so the order is reproducible.
-    order = np.lexsort(tuple(grid[:, k] for k in range(grid.shape[1] - 1, -1, -1))
-                       + (-total, unscored))
-    return Ranking(figure=FIGURE, placements=tuple(placements[i] for i in order),
+    terms, unscored = scores_in_chunks(device, patch, grid, chunk=chunk)
+    return rank_scored(grid, terms, unscored)
+
+
+def ranked_order(grid: np.ndarray, total: np.ndarray, unscored: np.ndarray) -> np.ndarray:
+    """Fewest off-coupler (unscored) gates first, then the best total log score; ties
+    broken by the placement itself (its row), so the order is reproducible."""
+    return np.lexsort(tuple(grid[:, k] for k in range(grid.shape[1] - 1, -1, -1))
+                      + (-total, unscored))
+
+
+def scores_in_chunks(device: Device, patch: Patch, grid: np.ndarray, *,
+                     chunk: int = 1 << 16) -> tuple[dict[str, np.ndarray], np.ndarray]:
+    """`scores` over `grid`, `chunk` rows at a time (the same figures, less memory)."""
+    if len(grid) <= chunk:
+        return scores(device, patch, grid)
+    parts = [scores(device, patch, grid[i:i + chunk]) for i in range(0, len(grid), chunk)]
+    return ({k: np.concatenate([t[k] for t, _ in parts]) for k in parts[0][0]},
+            np.concatenate([u for _, u in parts]))
+
+
+def rank_scored(grid: np.ndarray, terms: Mapping[str, np.ndarray], unscored: np.ndarray,
+                *, figure: str = FIGURE, order: np.ndarray | None = None) -> Ranking:
+    """The ranking of already scored placements (rows of `grid`) in `ranked_order`
+    (worked out here unless given)."""
+    total: np.ndarray = sum(terms.values()) if terms else np.zeros(len(grid))  # type: ignore[assignment]
+    if order is None:
+        order = ranked_order(grid, total, unscored)
+    elif np.array_equal(order, np.arange(len(grid))):      # already in order: no copies
+        return Ranking(figure=figure, placements=PlacementRows(grid, copy=False),
+                       log_success=total, terms=dict(terms), unscored_gates=unscored)
+    return Ranking(figure=figure, placements=PlacementRows(grid[order], copy=False),
                    log_success=total[order], terms={k: v[order] for k, v in terms.items()},
                    unscored_gates=unscored[order])
 
@@ -184,7 +221,7 @@ class SnapshotRanking:
 
     figure: str
     by: str
-    placements: tuple[Placement, ...]
+    placements: Sequence[Placement]          # PlacementRows
     aggregate: np.ndarray
     per_snapshot: np.ndarray
     timestamps: tuple[str | None, ...]
@@ -192,20 +229,38 @@ class SnapshotRanking:
     top_k: int
     stability: float
     newest_winner_rank: int       # where the newest snapshot's own winner ranks overall
+    unscored: int = 0             # placements left out: the time budget ran out first
 
 
 def rank_across_snapshots(snapshots: Sequence[Device], patch: Patch,
                           placements: Sequence[Placement], *, by: str = "worst",
-                          top_k: int = 5) -> SnapshotRanking:
-    """Rank by the mean, the worst, or a quantile ('q0.25') of the per-snapshot log score."""
-    grid = placement_grid(placements, patch.num_qubits)
-    per_device, off_per_device = [], []
-    for device in snapshots:
-        terms, off = scores(device, patch, grid)
-        per_device.append(sum(terms.values()))
-        off_per_device.append(off)
-    logs = np.array(per_device).reshape(len(snapshots), len(placements))
-    unscored = np.array(off_per_device).reshape(len(snapshots), len(placements))
+                          top_k: int = 5, deadline: float | None = None,
+                          chunk: int = 1 << 15) -> SnapshotRanking:
+    """Rank by the mean, the worst, or a quantile ('q0.25') of the per-snapshot log score.
+
+    The placements are scored `chunk` at a time on every snapshot; with a `deadline`
+    (time.monotonic) only the first ones scored before it passes are ranked (at least one
+    chunk: pass them best first by the newest snapshot), the rest counted in `unscored`."""
+    full = placement_grid(placements, patch.num_qubits)
+    per_device: list[list[np.ndarray]] = [[] for _ in snapshots]
+    off_per_device: list[list[np.ndarray]] = [[] for _ in snapshots]
+    done = 0
+    while done < len(full) or not done:
+        part = full[done:done + chunk]
+        for s, device in enumerate(snapshots):
+            terms, off = scores(device, patch, part)
+            total: np.ndarray = sum(terms.values()) if terms else np.zeros(len(part))  # type: ignore[assignment]
+            per_device[s].append(total)
+            off_per_device[s].append(off)
+        done += len(part)
+        if not len(part) or (deadline is not None and time.monotonic() > deadline):
+            break
+    grid = full[:done]
+    left_out = len(full) - done
+    placements = placements[:done]
+    logs = np.array([np.concatenate(p) for p in per_device]).reshape(len(snapshots), done)
+    unscored = np.array([np.concatenate(p) for p in off_per_device]).reshape(len(snapshots),
+                                                                             done)
     # A placement that needs more off-coupler gates in some snapshot than it does at its
     # best (a coupler or qubit dead that day), or sits on a qubit dead that day, cannot
     # run as planned then: it scores 0 (log -inf) in that snapshot.
@@ -232,11 +287,11 @@ def rank_across_snapshots(snapshots: Sequence[Device], patch: Patch,
         ranks.append(int(np.nonzero(own == 0)[0][0]) + 1 if len(placements) else 0)
     stable = float(np.mean([r <= top_k for r in ranks])) if ranks else 0.0
     newest = int(np.lexsort((-logs[-1], worst_off[order]))[0]) + 1 if len(placements) else 0
-    return SnapshotRanking(figure=FIGURE, by=by, placements=tuple(placements[i] for i in order),
+    return SnapshotRanking(figure=FIGURE, by=by, placements=PlacementRows(grid[order]),
                            aggregate=agg[order], per_snapshot=logs,
                            timestamps=tuple(d.calibration_timestamp for d in snapshots),
                            winner_ranks=tuple(ranks), top_k=top_k, stability=stable,
-                           newest_winner_rank=newest)
+                           newest_winner_rank=newest, unscored=left_out)
 
 
 @dataclass(frozen=True, kw_only=True)

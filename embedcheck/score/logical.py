@@ -38,6 +38,7 @@ These are model estimates from user-supplied calibration, like every score here.
 from __future__ import annotations
 
 import math
+import time
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from typing import Any
@@ -168,9 +169,15 @@ def undetected_zero_everywhere(patch: Patch, noise: float = 1e-3) -> bool:
 
 def fast_scores(device: Device, patch: Patch, placements: Sequence[Placement], *,
                 processes: int = 1,
-                progress: Callable[[int], None] | None = None) -> list[FastScore]:
-    """`fast_score` for every placement, split over `processes` worker processes."""
+                progress: Callable[[int], None] | None = None,
+                deadline: float | None = None, at_least: int = 0) -> list[FastScore]:
+    """`fast_score` for every placement, split over `processes` worker processes; with a
+    `deadline` (time.monotonic), only the first placements scored before it passes (at
+    least `at_least` of them: the ones a report lists)."""
     require_detectors(patch)
+    if deadline is not None:
+        return _scores_until(device, patch, placements, processes, progress, deadline,
+                             at_least)
     if processes > 1 and len(placements) > 64:
         from concurrent.futures import ProcessPoolExecutor
         chunks = [list(placements[i::processes]) for i in range(processes)]
@@ -186,6 +193,24 @@ def fast_scores(device: Device, patch: Patch, placements: Sequence[Placement], *
         out.append(fast_score(device, patch, p))
         if progress is not None and (k + 1) % 50 == 0:
             progress(k + 1)
+    return out
+
+
+def _scores_until(device: Device, patch: Patch, placements: Sequence[Placement],
+                  processes: int, progress: Callable[[int], None] | None, deadline: float,
+                  at_least: int) -> list[FastScore]:
+    """The first placements' fast scores, in pieces, until the deadline has passed and at
+    least `at_least` are scored."""
+    out: list[FastScore] = []
+    piece = 16 * max(1, processes)        # small pieces: the deadline is read often
+    while len(out) < len(placements):
+        late = time.monotonic() > deadline
+        if len(out) >= at_least and late:
+            break
+        chunk = placements[len(out):len(out) + (at_least - len(out) if late else piece)]
+        out += fast_scores(device, patch, list(chunk), processes=processes)
+        if progress is not None:
+            progress(len(out))
     return out
 
 
@@ -277,7 +302,7 @@ class LogicalRanking:
     post-selected; `decoded`: adaptive decoded sampling, for figure 'decoded')."""
 
     figure: str
-    placements: tuple[Placement, ...]
+    placements: Sequence[Placement]
     undetected: np.ndarray | None
     kept: np.ndarray | None
     monte_carlo: tuple[MonteCarlo | None, ...]
@@ -287,6 +312,7 @@ class LogicalRanking:
     estimate_complete: bool = True              # no enumeration budget cut it short
     decoded: tuple[DecodedStats | None, ...] = ()
     rounds: int = 1
+    unscored: int = 0        # placements left out: the time budget ran out before them
 
     @property
     def preselected_by(self) -> str:
@@ -298,12 +324,17 @@ def rank_by_logical(device: Device, patch: Patch, placements: Sequence[Placement
                     figure: str = "undetected", monte_carlo_shots: int = 0, top: int = 10,
                     decode: bool = False, seed: int = 7, processes: int = 1,
                     executor: Any = None,
-                    progress: Callable[[str, int], None] | None = None) -> LogicalRanking:
+                    progress: Callable[[str, int], None] | None = None,
+                    deadline: float | None = None) -> LogicalRanking:
     """Rank swap-free placements by a logical figure: 'undetected' or 'estimate'
     (ascending), 'kept' (descending), or 'decoded': the `top` placements by 'estimate'
     sampled adaptively on `executor` (up to `monte_carlo_shots` each) and sorted by their
     decoded logical error. Otherwise `monte_carlo_shots` samples the `top` placements
-    (raw and post-selected; `decode` adds matching). `progress(stage, count)`."""
+    (raw and post-selected; `decode` adds matching). `progress(stage, count)`.
+
+    With a `deadline` (time.monotonic), the placements are scored in the order given
+    (pass them best first by another figure) until it passes, at least `top` of them;
+    the rest are left out of the ranking and counted in `unscored`."""
     if figure not in LOGICAL_FIGURES:
         raise InputError(f"figure must be one of {', '.join(LOGICAL_FIGURES)}, not {figure!r}")
     require_detectors(patch)
@@ -312,20 +343,25 @@ def rank_by_logical(device: Device, patch: Patch, placements: Sequence[Placement
                          "SHOTS", key="--decode")
     tick = (lambda n: progress("scoring", n)) if progress else None
     und = kept = est = None
+    total = len(placements)
     order_info: tuple[int | None, int | None, bool] = (None, None, True)
     if figure in ("undetected", "kept"):
-        fast = fast_scores(device, patch, placements, processes=processes, progress=tick)
+        fast = fast_scores(device, patch, placements, processes=processes, progress=tick,
+                           deadline=deadline, at_least=top)
+        placements = placements[:len(fast)]
         und = np.array([f.undetected for f in fast])
         kept = np.array([f.kept for f in fast])
         order = np.lexsort((-kept, und)) if figure == "undetected" else np.lexsort((und, -kept))
     else:
-        estimates = estimate_scores(device, patch, placements, executor=executor, progress=tick)
+        estimates = _estimates_until(device, patch, placements, executor, tick, deadline, top)
+        placements = placements[:len(estimates)]
         est = np.array([e.value for e in estimates])
         order = np.argsort(est, kind="stable")
         if estimates:
             worst = max(estimates, key=lambda e: e.order)
             order_info = (worst.order, max(worst.distance or 0, worst.circuit_distance or 0)
                           or None, all(e.complete for e in estimates))
+    left_out = total - len(placements)
     ranked = [placements[i] for i in order]
     pick = lambda a: None if a is None else a[order]          # noqa: E731
     und, kept, est = pick(und), pick(kept), pick(est)
@@ -350,4 +386,25 @@ def rank_by_logical(device: Device, patch: Patch, placements: Sequence[Placement
     return LogicalRanking(figure=figure, placements=tuple(ranked), undetected=und, kept=kept,
                           monte_carlo=tuple(mc), estimate=est, estimate_order=order_info[0],
                           estimate_distance=order_info[1], estimate_complete=order_info[2],
-                          decoded=tuple(decoded), rounds=max(1, patch.rounds))
+                          decoded=tuple(decoded), rounds=max(1, patch.rounds),
+                          unscored=left_out)
+
+
+def _estimates_until(device: Device, patch: Patch, placements: Sequence[Placement],
+                     executor: Any, progress: Callable[[int], None] | None,
+                     deadline: float | None, at_least: int) -> list[DecodedEstimate]:
+    """`estimate_scores` of the first placements, in pieces, until `deadline` has passed
+    and at least `at_least` are scored (all of them without a deadline)."""
+    if deadline is None:
+        return estimate_scores(device, patch, placements, executor=executor, progress=progress)
+    out: list[DecodedEstimate] = []
+    piece = 16 * max(1, getattr(executor, "processes", 1))
+    while len(out) < len(placements):
+        late = time.monotonic() > deadline
+        if len(out) >= at_least and late:
+            break
+        part = placements[len(out):len(out) + (at_least - len(out) if late else piece)]
+        out += estimate_scores(device, patch, list(part), executor=executor)
+        if progress is not None:
+            progress(len(out))
+    return out

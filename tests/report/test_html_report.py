@@ -96,3 +96,19 @@ def test_page_renders_in_headless_chromium_without_console_errors(capsys, tmp_pa
     bad.write_text("<!DOCTYPE html><title>x</title><script>console.error('broken')</script>")
     assert any("broken" in line for line in
                _render(browser, bad, tmp_path / "bad.png", tmp_path / "profile2"))
+
+
+def test_chip_svg_numbers_big_chips_or_says_why(monkeypatch):
+    # Before: above 200 qubits the page's chip carried no numbers and nothing said so.
+    import embedcheck.report.svg as svg
+    from embedcheck import Device
+    from embedcheck.model.lattices import square_grid
+    device = Device.from_lattice(square_grid(16, 16), name="g16")          # 256 qubits
+    drawn = svg.chip_svg(device)
+    numbers = re.findall(r'fill="#333">(\d+)</text>', drawn)
+    assert sorted(map(int, numbers)) == sorted(device.qubits)
+    monkeypatch.setattr(svg, "NUMBERED_UP_TO", 200)
+    drawn = svg.chip_svg(device)
+    assert not re.findall(r'fill="#333">(\d+)</text>', drawn)
+    assert "qubit numbers left out (256 qubits, above 200)" in drawn
+    html5lib.HTMLParser(strict=True).parse(f"<!DOCTYPE html><title>t</title>{drawn}")

@@ -336,3 +336,57 @@ def test_a_qubit_reset_at_the_end_of_a_round_is_back_in_zero():
     later = schedule_circuit(dev, patch, "round", where, again=True)
     # d: cx ends at 400, the round at 2400, next h at 0: 2000 ns, from the second round on.
     assert first.idle_ns == {"d": 0.0, "a": 0.0} and later.idle_ns == {"d": 2000.0, "a": 0.0}
+
+
+def _bar_text(fig):
+    """The colour bar's tick labels, offset text and label, as drawn."""
+    fig.canvas.draw()
+    bar = fig.axes[-1]
+    return ([t.get_text() for t in bar.get_yticklabels()],
+            bar.yaxis.get_offset_text().get_text(), bar.get_ylabel())
+
+
+def test_a_colour_bar_on_uniform_data_reads_the_value(tmp_path):
+    # Before: a chip whose couplers all have the same error read '1e-10+1e-2' on the bar.
+    from embedcheck.model.lattices import square_grid
+    lattice = square_grid(3, 3)
+    dev = Device.from_lattice(lattice, name="uniform", coupler_calibration={
+        c: CouplerCalibration(0.01, 300.0) for c in lattice.couplers})
+    ticks, offset, label = _bar_text(draw_placement(dev, tmp_path / "u.png"))
+    assert ticks == ["0.01"] and offset == "" and "0.01 on every one" in label
+    patch = load_patch(FIXED_PATCH)
+    chip = load_device(DEMO_CHIP)
+    placements = vet_patch(chip, patch).ranking.placements[:3]
+    fig = draw_score_map(chip, patch, placements, [0.42] * len(placements), tmp_path / "m.png")
+    ticks, offset, label = _bar_text(fig)
+    assert ticks == ["0.42"] and offset == "" and "0.42 on every one" in label
+    varied = random_calibration_device(lattice)                  # varied data: no offset
+    ticks, offset, _ = _bar_text(draw_placement(varied, tmp_path / "v.png"))
+    assert offset == "" and len(ticks) > 1 and not any("+" in t for t in ticks)
+
+
+def random_calibration_device(lattice):
+    rng = random.Random(5)
+    return Device.from_lattice(lattice, name="varied", coupler_calibration={
+        c: CouplerCalibration(rng.uniform(0.010, 0.0101), 300.0) for c in lattice.couplers})
+
+
+def test_pictures_of_big_chips_carry_small_numbers_or_say_why(tmp_path):
+    # Before: above 200 qubits the qubits had no numbers and nothing said so.
+    import embedcheck.report.picture as picture
+    from embedcheck.model.lattices import square_grid
+    dev = Device.from_lattice(square_grid(16, 16), name="g16")          # 256 qubits
+    fig = draw_placement(dev, tmp_path / "g16.png")
+    numbers = [t for t in fig.axes[0].texts if t.get_gid() == "qubit numbers"]
+    assert sorted(int(t.get_text()) for t in numbers) == sorted(dev.qubits)
+    assert all(picture.SMALLEST_NUMBER_PT <= t.get_fontsize() <= 5.5 for t in numbers)
+    # Far too many to number: the picture says why they are left out.
+    original = picture.NUMBERED_UP_TO
+    try:
+        picture.NUMBERED_UP_TO = 200
+        fig = draw_placement(dev, tmp_path / "g16b.png")
+    finally:
+        picture.NUMBERED_UP_TO = original
+    texts = {t.get_gid(): t.get_text() for t in fig.axes[0].texts}
+    assert "qubit numbers" not in texts
+    assert "qubit numbers left out (256 qubits, above 200)" in texts["qubit numbers note"]
