@@ -125,7 +125,7 @@ def run(args: argparse.Namespace) -> int:
     vetting, logical = result.vetting, result.logical
     pictures: dict[str | Path, str | bytes] = {}
     if args.draw and vetting.ranking.placements:
-        best = logical.placements[0] if logical is not None else vetting.ranking.placements[0]
+        best = result.best or vetting.ranking.placements[0]
         pictures[args.draw] = picture_bytes_for(args.draw, draw_placement(
             device, None, patch=patch, placement=best,
             title=f"{patch.name} on {device.name}: best placement"))
@@ -161,10 +161,9 @@ def run(args: argparse.Namespace) -> int:
         from ..report.svg import placement_svg
         svgs = {}
         if vetting.ranking.placements:
-            best = logical.placements[0] if logical is not None else \
-                vetting.ranking.placements[0]
+            best = result.best or vetting.ranking.placements[0]
             gates = [g for c in (payload.get("best_audit") or {}).get("circuits", [])
-                     for g in c["off_coupler"]] if logical is None else []
+                     for g in c["off_coupler"]]
             svgs["best placement"] = placement_svg(device, patch, best.as_dict(patch), gates,
                                                    title=f"{patch.name} on {device.name}")
         else:

@@ -33,6 +33,7 @@ from enum import Enum
 
 import numpy as np
 
+from ..audit.exact import AuditReport, audit_placement
 from ..engine import ProcessExecutor, SerialExecutor
 from ..errors import InputError
 from ..io.limits import SEARCH_LIMIT
@@ -83,6 +84,17 @@ class FindResult:
     decoded: bool = False                       # the sampled shots were decoded
     snapshots: SnapshotRanking | None = None
     sdk: SdkComparison | None = None
+    # The audit of the placement the report leads with: the logical ranking's first when
+    # there is one (it may differ from the fidelity product's first), else the vetting's.
+    best_audit: AuditReport | None = None
+
+    @property
+    def best(self) -> Placement | None:
+        """The placement the report leads with (the logical ranking's first, if any)."""
+        if self.logical is not None and self.logical.placements:
+            return self.logical.placements[0]
+        placements = self.vetting.ranking.placements
+        return placements[0] if placements else None
 
     def __repr__(self) -> str:
         by = self.logical.figure if self.logical is not None else self.vetting.ranking.figure
@@ -124,7 +136,6 @@ def run_find(snapshots: Sequence[Device], patch: Patch, *, limit: int | None = S
                         best_first=max(top or 0, 10))
     placements = vetting.ranking.placements
     shown = top if top is not None else max(1, len(placements))
-    sensitive = tuple(sensitivity(device, patch, placements[0], top=5)) if placements else ()
     logical, note = _logical_ranking(device, patch, vetting, figure=figure,
                                      monte_carlo=monte_carlo, decode=decode, top=top,
                                      processes=processes, progress=progress,
@@ -139,9 +150,15 @@ def run_find(snapshots: Sequence[Device], patch: Patch, *, limit: int | None = S
         robust = rank_across_snapshots(snapshots, patch, placements, by=over_snapshots,
                                        deadline=deadline)
     sdk = compare_with_sdk(device, patch, vetting) if compare_sdk else None
+    leader = logical.placements[0] if logical is not None and logical.placements else \
+        (placements[0] if placements else None)
+    audit = vetting.best_audit
+    if leader is not None and placements and leader != placements[0]:
+        audit = audit_placement(device, patch, leader)
+    sensitive = tuple(sensitivity(device, patch, leader, top=5)) if leader is not None else ()
     return FindResult(vetting=vetting, top=shown, sensitivity=sensitive, logical=logical,
                       logical_note=note, sampled=bool(monte_carlo), decoded=decode,
-                      snapshots=robust, sdk=sdk)
+                      snapshots=robust, sdk=sdk, best_audit=audit)
 
 
 def _logical_ranking(device: Device, patch: Patch, vetting: Vetting, *, figure: str,

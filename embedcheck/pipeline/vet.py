@@ -215,7 +215,9 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = SEARCH_LIMIT,
             best_found = find_best_placements(
                 device, patch, top=best_first, circuits=core, constraints=rules,
                 budget=BEST_FIRST_WORK if budget_work is None else
-                min(budget_work, BEST_FIRST_WORK))
+                min(budget_work, BEST_FIRST_WORK),
+                deadline=None if deadline is None else
+                time.monotonic() + (left() or 0.0) * SEARCH_SHARE)
             spent += best_found.work
             new = _new_orbits(search, best_found.placements)
             if new:

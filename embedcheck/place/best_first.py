@@ -44,6 +44,7 @@ from __future__ import annotations
 
 import heapq
 import itertools
+import time
 from collections.abc import Sequence
 from dataclasses import dataclass
 
@@ -83,14 +84,16 @@ def best_first(host: Host, k: int, edges: Sequence[tuple[int, int]], *,
                node_cost: np.ndarray, edge_cost: np.ndarray,
                candidates: Sequence[np.ndarray] | None = None,
                symmetries: Sequence[Sequence[int]] | None = None,
-               top: int = 10, budget: int | None = None) -> BestMaps:
+               top: int = 10, budget: int | None = None,
+               deadline: float | None = None) -> BestMaps:
     """The `top` cheapest monomorphisms of the pattern (k nodes, `edges`) into `host`.
 
     `node_cost` has shape (k, host.n); `edge_cost` (len(edges), number of host arcs),
     row e giving the cost of pattern edge e = (a, b) on each arc f(a) -> f(b). Costs must
     not be NaN (use inf to forbid). `candidates[j]`, an optional boolean mask over host
     nodes, restricts pattern node j; `symmetries` are the pattern's automorphisms (one
-    map per orbit comes back). `budget` caps the work (candidates tried)."""
+    map per orbit comes back). `budget` caps the work (candidates tried); `deadline` (a
+    `time.monotonic()` reading) stops it on the clock as well, as a budget stop."""
     edges = [(int(a), int(b)) for a, b in edges]
     node_cost = np.asarray(node_cost, dtype=float)
     edge_cost = np.asarray(edge_cost, dtype=float).reshape(len(edges), -1)
@@ -109,7 +112,7 @@ def best_first(host: Host, k: int, edges: Sequence[tuple[int, int]], *,
     search = _Search(prep, edges, node_cost, edge_cost)
     search.invariant = invariant
     perms = np.array(group, dtype=np.int64).reshape(-1, k) if merge else None
-    return search.run(top, budget, perms, orbits_merged=merge or not group)
+    return search.run(top, budget, perms, orbits_merged=merge or not group, deadline=deadline)
 
 
 def _invariant(host, edges, node_cost, edge_cost, group) -> bool:
@@ -275,7 +278,7 @@ class _Search:
         self.rest[anchors] = rest
 
     # the search ---------------------------------------------------------------------
-    def run(self, top, budget, perms, *, orbits_merged) -> BestMaps:
+    def run(self, top, budget, perms, *, orbits_merged, deadline=None) -> BestMaps:
         prep, engine, k = self.prep, self.engine, self.k
         if k == 0:
             return BestMaps(maps=np.zeros((1, 0), dtype=np.int64), costs=np.zeros(1),
@@ -316,7 +319,8 @@ class _Search:
                 if not dive:
                     break                            # nothing left can beat the threshold
                 continue
-            if budget is not None and work >= budget:
+            if (budget is not None and work >= budget) or \
+                    (deadline is not None and time.monotonic() > deadline):
                 heapq.heappush(heap, (bound, next(count), rows, g, s))
                 stop = "budget"
                 break

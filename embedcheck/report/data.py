@@ -131,7 +131,7 @@ def find_dict(result: FindResult) -> Json:
         "near_misses": _near_miss_rows(v.patch, v.near_misses),
         "figure": v.ranking.figure,
         "placements": placement_rows(v.patch, v.ranking, v.off_coupler, top),
-        "best_audit": audit_dict(v.patch, v.best_audit) if v.best_audit else None,
+        "best_audit": audit_dict(v.patch, result.best_audit) if result.best_audit else None,
         "sensitivity": sensitivity_rows(result.sensitivity),
         "caution": CAUTION,
         "circuit_order": names,

@@ -160,6 +160,15 @@ def _find(payload, pictures) -> str:
         bad = [g for c in best["circuits"] for g in c.get("off_coupler", [])]
         if bad:
             out += ["<h2>Gates that need routing on the best placement</h2>", _gates(bad)]
+    logical = payload.get("logical")
+    if logical and logical.get("top"):
+        out.append(f"<h2>Ranking by {escape(logical['figure'])} (what this report leads "
+                   "with)</h2>")
+        out.append(_table(["rank", logical["figure"], "placement (patch qubit=chip qubit)"],
+                          [[_num(r["rank"], "{}"),
+                            _num(_logical_value(r, logical["figure"]), "{:.3g}"),
+                            " ".join(f"{q}={n}" for q, n in r["qubits"].items())]
+                           for r in logical["top"]]))
     if payload.get("placements"):
         out.append(f"<h2>Ranking ({escape(payload['figure'])})</h2>")
         rows = [[_num(p["rank"], "{}"), _num(p["success"]), _num(p["unscored_gates"], "{}"),
@@ -168,6 +177,14 @@ def _find(payload, pictures) -> str:
         out.append(_table(["rank", "score", "off-coupler", "placement (patch qubit=chip qubit)"],
                           rows))
     return "\n".join(out)
+
+
+def _logical_value(row: Mapping[str, Any], figure: str) -> Any:
+    """A logical ranking row's figure: the sampled decoded error per round, the estimate,
+    or the deterministic detection figures."""
+    if figure == "decoded" and row.get("decoded"):
+        return row["decoded"]["per_round"]
+    return row.get(figure, row.get("estimate"))
 
 
 def _check(payload, pictures) -> str:

@@ -167,8 +167,9 @@ def render_find(d: dict) -> str:
     if logical:
         out += [""] + _logical_rows(logical)
     if d.get("sensitivity"):
-        out += ["", "What moves the best placement's score most (log contribution; d log S / d "
-                    "figure):"]
+        lead = f" (the first by {logical['figure']})" if logical else ""
+        out += ["", f"What moves the best placement's{lead} fidelity product most (log "
+                    "contribution; d log S / d figure):"]
         for r in d["sensitivity"]:
             out.append(f"  {r['item']:<14} {r['figure']:<19} {r['value']:>9.4g}  "
                        f"{r['log_contribution']:>8.4f}  {r['derivative']:>10.4g}")

@@ -83,10 +83,12 @@ class BestPlacements:
 def find_best_placements(device: Device, patch: Patch, *, top: int = 10,
                          circuits: Sequence[str] | None = None,
                          constraints: Constraints | None = None,
-                         budget: int | None = None) -> BestPlacements:
+                         budget: int | None = None,
+                         deadline: float | None = None) -> BestPlacements:
     """The `top` swap-free placements with the highest fidelity product (see the module
     doc), one per symmetry orbit, searched best first. `budget` caps the work (candidate
-    extensions tried: identical runs stop at the same place); `constraints` as in
+    extensions tried: identical runs stop at the same place); `deadline` (a
+    `time.monotonic()` reading) is the clock's cap; `constraints` as in
     `find_placements`."""
     names = check_request(patch, circuits, top, None, 1, budget)
     rules = constraints or Constraints()
@@ -131,7 +133,8 @@ def find_best_placements(device: Device, patch: Patch, *, top: int = 10,
                      "placement: the search takes them from a schedule with median "
                      "durations; full_log_success has the exact figure")
     found = best_first(host, len(placed), edges, node_cost=node_cost, edge_cost=edge_cost,
-                       candidates=masks, symmetries=group, top=top, budget=budget)
+                       candidates=masks, symmetries=group, top=top, budget=budget,
+                       deadline=deadline)
     placements, logs = [], []
     for row, cost in zip(found.maps.tolist(), found.costs.tolist(), strict=True):
         done: Placement | None

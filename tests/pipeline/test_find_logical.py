@@ -10,6 +10,9 @@ from embedcheck import Device, InputError, load_device, load_patch, square_grid
 from embedcheck.io.patchfile import patch_from_family
 from embedcheck.model.device import CouplerCalibration, QubitCalibration
 from embedcheck.pipeline.find import LogicalNote, run_find
+from embedcheck.report.data import find_dict
+from embedcheck.report.html import render_html
+from embedcheck.score.cost import sensitivity
 from embedcheck.score.logical import fast_scores
 from helpers import DEMO_CHIP, FIXED_PATCH, lognormal_calibration
 
@@ -29,6 +32,17 @@ def test_decode_ranks_by_the_sampled_decoded_error_not_by_kept():
     # The listed ones were chosen by the estimate: the six lowest of all 18 placements.
     assert logical.estimate is not None and len(logical.estimate) == 18
     assert max(logical.estimate[:6]) <= min(logical.estimate[6:])
+    # The report leads with the decoded first: its audit, its sensitivities, its picture
+    # and page follow it, not the fidelity product's first (a new user's trial found the
+    # audit and the sensitivities still on the fidelity product's first).
+    assert result.best == listed[0] != result.vetting.ranking.placements[0]
+    assert result.best_audit is not None and result.best_audit.placement == listed[0]
+    assert result.sensitivity and result.sensitivity != tuple(
+        sensitivity(device, patch, result.vetting.ranking.placements[0], top=5))
+    payload = find_dict(result)
+    assert payload["best_audit"]["placement"] == listed[0].as_dict(patch)
+    page = render_html(payload, pictures={})
+    assert "Ranking by decoded (what this report leads with)" in page
 
 
 def test_noiseless_calibration_gives_estimate_zero_and_sampled_zero():
