@@ -143,9 +143,11 @@ class DaskExecutor(Executor):
                                       f"{_one_line(exc)}") from None
         else:
             if cluster is None:
-                cluster = self._own_cluster = LocalCluster(
-                    n_workers=workers or os.cpu_count() or 1, threads_per_worker=1,
-                    processes=True, dashboard_address=None, silence_logs=logging.ERROR)
+                import dask
+                with dask.config.set(_LOCAL_CONFIG):
+                    cluster = self._own_cluster = LocalCluster(
+                        n_workers=workers or os.cpu_count() or 1, threads_per_worker=1,
+                        processes=True, dashboard_address=None, silence_logs=logging.ERROR)
             self.client = Client(cluster)
         self.retries = retries
 
@@ -187,6 +189,20 @@ class DaskExecutor(Executor):
                 tasks_of[new.key] = more
                 stream.add(new)
             yield done
+
+
+# The embedded cluster's settings (measured with bench/sweep.py, see DEVELOPERS.md):
+# - Dask's nanny sets MALLOC_TRIM_THRESHOLD_=65536 in every worker to hand memory back to
+#   the system; glibc then stops adapting its mmap threshold, so every numpy array above
+#   128 kB is mapped and unmapped afresh: the sweep's tasks took about 25% more CPU time in
+#   a worker than in this process. None unsets it (the BLAS thread limits of 1 stay).
+# - Scheduler-side queuing (worker-saturation 1.1) hands a worker its next task only when
+#   one finishes: a round trip through this process per task, slow on a loaded machine.
+#   Our tasks are small, independent and cheap to ship, so each worker keeps a queue.
+_LOCAL_CONFIG = {
+    "distributed.nanny.pre-spawn-environ.MALLOC_TRIM_THRESHOLD_": None,
+    "distributed.scheduler.worker-saturation": float("inf"),
+}
 
 
 def executor(kind: str = "serial", *, processes: int | None = None,
