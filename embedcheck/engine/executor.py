@@ -202,12 +202,12 @@ class DaskExecutor(Executor):
                 piece = batch[start:start + size]
                 future = self.client.submit(_call_many, piece, pure=False, retries=self.retries,
                                             key=f"embedcheck-{tag}-{piece[0].key}")
-                batches_of[future.key] = piece
+                batches_of[str(future.key)] = piece
                 stream.add(future)
 
         submit(tasks)
         for future in stream:
-            piece = batches_of.pop(future.key)
+            piece = batches_of.pop(str(future.key))
             try:
                 finished = future.result()
             except BaseException as exc:            # KilledWorker, lost connection, ...
