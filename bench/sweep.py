@@ -15,8 +15,9 @@ of the `cpu_seconds` they store), of the worker processes as a whole and of this
 (scheduler, client, database), and the load average when the figure was taken. The
 machine may be shared: wall times measure the load as well as the work, CPU times the
 work; the CPU time of the busiest worker bounds the wall time on free cores, so its
-ratio between 1 and 2 workers is the speed-up the work allows. `--untuned` adds Dask's defaults as a reference (a plain LocalCluster, every task
-sent alone, no warm-up): what the executor did before its settings were measured.
+ratio between 1 and 2 workers is the speed-up the work allows. `--untuned` adds Dask's
+defaults as a reference (a plain LocalCluster, every task sent alone, no warm-up): what
+the executor did before its settings were measured.
 """
 import argparse
 import logging
