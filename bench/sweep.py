@@ -14,10 +14,12 @@ before the first task), the sweep's wall time after that, the CPU time of the ta
 of the `cpu_seconds` they store), of the worker processes as a whole and of this process
 (scheduler, client, database), and the load average when the figure was taken. The
 machine may be shared: wall times measure the load as well as the work, CPU times the
-work; the CPU time of the busiest worker bounds the wall time on free cores, so its
-ratio between 1 and 2 workers is the speed-up the work allows. `--untuned` adds Dask's
-defaults as a reference (a plain LocalCluster, every task sent alone, no warm-up): what
-the executor did before its settings were measured.
+work. Where the kernel shares the CPU between sessions (autogroup, printed first), all
+the workers of one sweep share one session's part of a busy machine; the CPU time of the
+busiest worker bounds the wall time on free cores, so its ratio between 1 and 2 workers
+is the speed-up the work allows. `--untuned` adds Dask's defaults as a reference (a plain
+LocalCluster, every task sent alone, no warm-up): what the executor did before its
+settings were measured.
 """
 import argparse
 import logging
@@ -59,6 +61,19 @@ def _cpu() -> float:
 
 def _load() -> str:
     return "load {:.1f} {:.1f} {:.1f}".format(*os.getloadavg())
+
+
+def _sharing() -> str:
+    """Whether the kernel shares the CPU between sessions rather than processes."""
+    try:
+        grouped = Path("/proc/sys/kernel/sched_autogroup_enabled").read_text().strip() == "1"
+    except OSError:
+        return "CPU sharing between sessions unknown"
+    if not grouped:
+        return "the kernel shares the CPU between processes"
+    return ("the kernel shares the CPU between sessions (autogroup): while another session "
+            "keeps the cores busy, a second worker of ours gets no more CPU, only the "
+            "busiest-worker ratio shows what 2 workers can do")
 
 
 def _task_cpu(database: Path) -> tuple[int, float]:
@@ -128,7 +143,7 @@ def main() -> None:
     kinds = ["serial", "1 worker", "2 workers"]
     if args.untuned:
         kinds += ["1 worker untuned", "2 workers untuned"]
-    print(f"before: {_load()}", flush=True)
+    print(f"before: {_load()}; {_sharing()}", flush=True)
     with tempfile.TemporaryDirectory() as tmp:
         folder = Path(tmp)
         sweep = load_sweep(_sweep_file(folder, args.shots))
