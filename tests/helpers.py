@@ -1,6 +1,7 @@
 """Small builders shared by the tests and benchmarks (not part of the package)."""
 import random
 import shutil
+import sqlite3
 from dataclasses import replace
 from pathlib import Path
 
@@ -11,6 +12,8 @@ DEMO_CHIP = ROOT / "devices" / "demo_heavy_hex.yaml"
 DEMO_PATCH = ROOT / "samples" / "flagged_weight4.yaml"
 FIXED_PATCH = ROOT / "samples" / "flagged_weight4_coupler_prep.yaml"
 TEST_DATA = ROOT / "tests" / "data"
+FLEET = ROOT / "devices" / "fleet"
+FLEET_SWEEP_TASKS = 12     # tests/sweep: 2 chips x 2 snapshots: 4 rankings + 4 x 2 samplings
 
 
 def patch_from_edges(edges, name="graph", role="data"):
@@ -89,3 +92,13 @@ def lognormal_calibration(device, seed):
             single_qubit_error=float(min(rng.lognormal(np.log(5e-4), 0.5), 0.01)),
             t1_us=t1, t2_us=t2, single_qubit_duration_ns=36.0, measurement_duration_ns=900.0)
     return replace(device, coupler_calibration=couplers, qubit_calibration=qubits)
+
+
+def stored_results(database):
+    """A sweep database's results and units, without timings: what must be identical
+    between runs of the same sweep on any executor."""
+    db = sqlite3.connect(database)
+    results = db.execute("SELECT * FROM results ORDER BY unit, rank, figure").fetchall()
+    units = db.execute("SELECT * FROM units ORDER BY unit").fetchall()
+    db.close()
+    return results, units

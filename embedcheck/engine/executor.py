@@ -125,15 +125,34 @@ class DaskExecutor(Executor):
     cluster object (e.g. `dask.distributed.LocalCluster`), not closed here; neither: a
     `LocalCluster` of `workers` processes (default: the machine's cores), one thread each,
     made here and closed on exit. `retries`: times a task that raised is run again.
+
+    Start-up is paid once, before the first task: every worker (and any worker that joins
+    later, e.g. one restarted after a crash) imports `preload` (default: the modules every
+    embedcheck task needs: numpy, rustworkx, stim, pymatching, the search, the ranking and
+    the sampler). `startup_seconds` is how long making the executor took.
+
+    `batch`: at most this many tasks travel as one Dask task. Tasks submitted together
+    (the first list, or what `follow` returns for one finished piece) are cut into pieces
+    of up to `batch`; while fewer than two pieces per worker are queued, into at least four
+    pieces per worker, so no worker waits. Each task's `Done` still comes back on its own,
+    and `follow` sees every `Done` of a piece before any is yielded. Dask's cost per task
+    (a scheduler round trip: about 14 ms of this process's CPU time on the development
+    machine, 4.3 s for the 240 tasks of bench/sweep.py sent alone, 1.3 s for 31 pieces)
+    is then paid per piece; 1 sends every task alone.
     """
 
     name = "dask"
 
     def __init__(self, *, scheduler: str | None = None, workers: int | None = None,
-                 cluster: Any = None, retries: int = 1) -> None:
+                 cluster: Any = None, retries: int = 1, batch: int = 8,
+                 preload: tuple[str, ...] | None = None) -> None:
         import logging
+        import time
 
         from dask.distributed import Client, LocalCluster
+        started = time.perf_counter()
+        if batch < 1:
+            raise ValueError(f"batch must be at least 1, not {batch}")
         self._own_cluster = None
         if scheduler is not None:
             try:
@@ -143,11 +162,22 @@ class DaskExecutor(Executor):
                                       f"{_one_line(exc)}") from None
         else:
             if cluster is None:
-                cluster = self._own_cluster = LocalCluster(
-                    n_workers=workers or os.cpu_count() or 1, threads_per_worker=1,
-                    processes=True, dashboard_address=None, silence_logs=logging.ERROR)
+                import dask
+                with dask.config.set(_LOCAL_CONFIG):
+                    cluster = self._own_cluster = LocalCluster(
+                        n_workers=workers or os.cpu_count() or 1, threads_per_worker=1,
+                        processes=True, dashboard_address=None, silence_logs=logging.ERROR)
             self.client = Client(cluster)
         self.retries = retries
+        self.batch = batch
+        from .preload import PRELOAD, Preload
+        try:
+            self.client.register_plugin(Preload(PRELOAD if preload is None else preload),
+                                        name="embedcheck-preload")
+        except BaseException:                       # no cluster left running behind
+            self.close()
+            raise
+        self.startup_seconds = time.perf_counter() - started
 
     @property
     def worker_pids(self) -> dict[str, int]:
@@ -164,29 +194,49 @@ class DaskExecutor(Executor):
 
         from dask.distributed import as_completed
         tag = uuid.uuid4().hex[:8]                   # keys unique on a shared cluster
-
-        def submit(task):
-            return self.client.submit(_call, task, key=f"embedcheck-{tag}-{task.key}",
-                                      pure=False, retries=self.retries)
-
-        tasks_of = {}
+        workers = max(1, len(self.client.scheduler_info(n_workers=-1).get("workers", {})))
+        batches_of: dict[str, list[Task]] = {}
         stream = as_completed()
-        for task in tasks:
-            future = submit(task)
-            tasks_of[future.key] = task
-            stream.add(future)
+
+        def submit(batch: list[Task]) -> None:
+            if len(batches_of) >= 2 * workers:       # enough queued: pack tightly
+                size = self.batch
+            else:                                    # few left: spread over the workers
+                size = max(1, min(self.batch, -(-len(batch) // (4 * workers))))
+            for start in range(0, len(batch), size):
+                piece = batch[start:start + size]
+                future = self.client.submit(_call_many, piece, pure=False, retries=self.retries,
+                                            key=f"embedcheck-{tag}-{piece[0].key}")
+                batches_of[str(future.key)] = piece
+                stream.add(future)
+
+        submit(tasks)
         for future in stream:
-            task = tasks_of.pop(future.key)
+            piece = batches_of.pop(str(future.key))
             try:
-                done = future.result()
+                finished = future.result()
             except BaseException as exc:            # KilledWorker, lost connection, ...
-                done = Done(key=task.key, error=_one_line(exc))
+                finished = [Done(key=task.key, error=_one_line(exc)) for task in piece]
             future.release()
-            for more in follow(done):
-                new = submit(more)
-                tasks_of[new.key] = more
-                stream.add(new)
-            yield done
+            more = [task for done in finished for task in follow(done)]
+            if more:
+                submit(more)
+            yield from finished
+
+
+# The embedded cluster's settings (measured with bench/sweep.py, see DEVELOPERS.md):
+# - Dask's nanny sets MALLOC_TRIM_THRESHOLD_=65536 in every worker to hand memory back to
+#   the system; glibc then stops adapting its mmap threshold (mallopt(3)), so every numpy
+#   array above 128 kB is mapped and unmapped afresh: the sweep's tasks took about 25%
+#   more CPU time in a worker than in this process. None unsets it (the BLAS thread
+#   limits of 1 stay).
+# - Scheduler-side queuing (worker-saturation 1.1) hands a worker its next task only when
+#   one finishes: a round trip through this process per task, slow on a loaded machine.
+#   Our tasks are small, independent and cheap to ship, so each worker keeps a queue.
+_LOCAL_CONFIG = {
+    "distributed.nanny.pre-spawn-environ.MALLOC_TRIM_THRESHOLD_": None,
+    "distributed.scheduler.worker-saturation": float("inf"),
+}
 
 
 def executor(kind: str = "serial", *, processes: int | None = None,
@@ -199,6 +249,10 @@ def executor(kind: str = "serial", *, processes: int | None = None,
     if kind == "dask":
         return DaskExecutor(scheduler=scheduler, workers=processes)
     raise ValueError(f"executor kind must be serial, processes or dask, not {kind!r}")
+
+
+def _call_many(tasks: list[Task]) -> list[Done]:
+    return [_call(task) for task in tasks]
 
 
 def _call(task: Task) -> Done:

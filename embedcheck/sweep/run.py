@@ -206,14 +206,15 @@ def _recording(store: ResultStore, by_key: dict, follow):
             error = done.error and f"internal error: {done.error}" or value.get("error")
             if error:
                 store.record_failure(unit, task=done.key, error=error,
-                                     seconds=value.get("seconds", 0.0))
+                                     seconds=value.get("seconds", 0.0),
+                                     cpu_seconds=value.get("cpu_seconds"))
                 return []
             rows = [ResultRow(**row) for row in value["rows"]]
             ranked_by = "undetected" if any(r.figure == "undetected" for r in rows) \
                 else "fidelity_product"
             store.record_unit(unit, task=done.key, rows=rows, placements=value["placements"],
                               complete=value["complete"], seconds=value["seconds"],
-                              ranked_by=ranked_by)
+                              ranked_by=ranked_by, cpu_seconds=value.get("cpu_seconds"))
         else:
             unit_key, rank_text, _ = rest.rsplit(":", 2)
             value = done.value or {}
@@ -227,7 +228,8 @@ def _recording(store: ResultStore, by_key: dict, follow):
                                 errors=value["errors"], per_round=value["per_round"],
                                 placement=physical, off_coupler=off)
             store.record_sample(unit_key, task=done.key, row=row,
-                                seconds=value.get("seconds", 0.0), error=error)
+                                seconds=value.get("seconds", 0.0), error=error,
+                                cpu_seconds=value.get("cpu_seconds"))
         return follow(done)
 
     return record

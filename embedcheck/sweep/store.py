@@ -9,7 +9,9 @@ Tables (one row per ...):
   shots and errors, the placement (JSON: patch qubit -> chip qubit) and its off-coupler
   gate count.
 - `tasks`: every finished task (its key includes the parameters it ran with), so a rerun
-  skips what is stored: that is the resume.
+  skips what is stored: that is the resume. `seconds` is the task's wall time on its
+  worker, `cpu_seconds` the CPU time its process spent on it (on a shared machine the
+  wall time also measures the load; older databases get the column empty).
 
 Every task's rows are written in one transaction together with its `tasks` row: an
 interrupted sweep leaves whole tasks or nothing, and a resumed one computes each missing
@@ -37,7 +39,7 @@ CREATE TABLE IF NOT EXISTS meta (key TEXT PRIMARY KEY, value TEXT NOT NULL);
 CREATE TABLE IF NOT EXISTS tasks (
     task TEXT PRIMARY KEY, kind TEXT NOT NULL, unit TEXT NOT NULL,
     status TEXT NOT NULL CHECK (status IN ('done', 'failed')),
-    error TEXT, seconds REAL, finished_at TEXT NOT NULL);
+    error TEXT, seconds REAL, finished_at TEXT NOT NULL, cpu_seconds REAL);
 CREATE TABLE IF NOT EXISTS units (
     unit TEXT PRIMARY KEY, chip TEXT NOT NULL, chip_file TEXT NOT NULL, snapshot TEXT NOT NULL,
     taken_at TEXT, patch TEXT NOT NULL, distance INTEGER, rounds INTEGER,
@@ -92,6 +94,9 @@ class ResultStore:
             self.db.execute("PRAGMA journal_mode=WAL")
         self.db.execute("PRAGMA synchronous=NORMAL")
         self.db.executescript(_SCHEMA)
+        columns = {row[1] for row in self.db.execute("PRAGMA table_info(tasks)")}
+        if "cpu_seconds" not in columns:          # a database written before the column
+            self.db.execute("ALTER TABLE tasks ADD COLUMN cpu_seconds REAL")
         found = self.db.execute("SELECT value FROM meta WHERE key='version'").fetchone()
         if found is None:
             self.db.execute("INSERT INTO meta VALUES ('version', ?)", (_VERSION,))
@@ -106,29 +111,32 @@ class ResultStore:
         return {row[0] for row in self.db.execute("SELECT task FROM tasks")}
 
     def record_unit(self, unit: Unit, *, task: str, rows: Iterable[ResultRow], placements: int,
-                    complete: bool, seconds: float, ranked_by: str | None = None) -> None:
+                    complete: bool, seconds: float, ranked_by: str | None = None,
+                    cpu_seconds: float | None = None) -> None:
         """A unit's ranking: its placements' rows replace any older ones, in one transaction."""
         with _transaction(self.db):
             self._put_unit(unit, "done", None, placements, complete, ranked_by)
             self.db.execute("DELETE FROM results WHERE unit = ?", (unit.key,))
             self._put_rows(unit.key, rows)
-            self._put_task(task, "rank", unit.key, "done", None, seconds)
+            self._put_task(task, "rank", unit.key, "done", None, seconds, cpu_seconds)
 
-    def record_failure(self, unit: Unit, *, task: str, error: str, seconds: float = 0.0) -> None:
+    def record_failure(self, unit: Unit, *, task: str, error: str, seconds: float = 0.0,
+                       cpu_seconds: float | None = None) -> None:
         """A unit that failed (bad chip or patch, or our bug): its one-line error is kept."""
         with _transaction(self.db):
             self._put_unit(unit, "failed", error, None, None, None)
             self.db.execute("DELETE FROM results WHERE unit = ?", (unit.key,))
-            self._put_task(task, "rank", unit.key, "failed", error, seconds)
+            self._put_task(task, "rank", unit.key, "failed", error, seconds, cpu_seconds)
 
     def record_sample(self, unit_key: str, *, task: str, row: ResultRow | None,
-                      seconds: float, error: str | None = None) -> None:
+                      seconds: float, error: str | None = None,
+                      cpu_seconds: float | None = None) -> None:
         """One placement's sampled figure (or the error that stopped it)."""
         with _transaction(self.db):
             if row is not None:
                 self._put_rows(unit_key, [row])
             self._put_task(task, "sample", unit_key, "failed" if error else "done", error,
-                           seconds)
+                           seconds, cpu_seconds)
 
     def placements(self, unit_key: str) -> list[tuple[int, dict, int]]:
         """(rank, placement, off-coupler gates) of a unit's stored placements, best first."""
@@ -165,10 +173,11 @@ class ResultStore:
               r.per_round, json.dumps(r.placement, sort_keys=True), r.off_coupler)
              for r in rows])
 
-    def _put_task(self, task, kind, unit_key, status, error, seconds) -> None:
+    def _put_task(self, task, kind, unit_key, status, error, seconds, cpu_seconds) -> None:
         now = dt.datetime.now(dt.timezone.utc).isoformat(timespec="seconds")
-        self.db.execute("INSERT OR REPLACE INTO tasks VALUES (?, ?, ?, ?, ?, ?, ?)",
-                        (task, kind, unit_key, status, error, seconds, now))
+        self.db.execute("INSERT OR REPLACE INTO tasks (task, kind, unit, status, error, seconds, "
+                        "finished_at, cpu_seconds) VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
+                        (task, kind, unit_key, status, error, seconds, now, cpu_seconds))
 
 
 class _transaction:

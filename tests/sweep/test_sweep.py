@@ -7,9 +7,7 @@ unit's two best placements: 4 ranking tasks and 8 sampling tasks.
 """
 import json
 import os
-import shutil
 import signal
-import sqlite3
 
 import jsonschema
 import pytest
@@ -19,33 +17,8 @@ from embedcheck.engine import DaskExecutor, SerialExecutor
 from embedcheck.io.sweepfile import load_sweep
 from embedcheck.io.yamlfile import schema
 from embedcheck.sweep import ResultStore, run_sweep, summarise
-from helpers import ROOT
-
-FLEET = ROOT / "devices" / "fleet"
-TASKS = 12                      # 2 chips x 2 snapshots: 4 rankings + 4 x 2 samplings
-
-
-@pytest.fixture()
-def sweep_file(tmp_path):
-    for chip in ("fleet-hex-a", "fleet-hex-b"):
-        (tmp_path / chip).mkdir()
-        for day in ("2026-11-23", "2026-11-24"):
-            shutil.copy(FLEET / chip / f"{day}.yaml", tmp_path / chip / f"{day}.yaml")
-    path = tmp_path / "sweep.yaml"
-    path.write_text("embedcheck_sweep: 1\nname: test\nchips: [fleet-hex-a, fleet-hex-b]\n"
-                    "patches: [{family: repetition, distances: [3], rounds: 2}]\n"
-                    "figures: [fidelity_product, decoded]\ntop: 2\n"
-                    "sampling: {shots: 3000, max_errors: 1000, seed: 5}\n")
-    return path
-
-
-def _stored(database) -> tuple[list, list]:
-    """Results and units, without timings: what must be identical between runs."""
-    db = sqlite3.connect(database)
-    results = db.execute("SELECT * FROM results ORDER BY unit, rank, figure").fetchall()
-    units = db.execute("SELECT * FROM units ORDER BY unit").fetchall()
-    db.close()
-    return results, units
+from helpers import FLEET_SWEEP_TASKS as TASKS
+from helpers import stored_results
 
 
 def test_serial_local_default_and_explicit_local_cluster_store_identical_results(sweep_file,
@@ -60,10 +33,10 @@ def test_serial_local_default_and_explicit_local_cluster_store_identical_results
                       dashboard_address=None) as cluster, DaskExecutor(cluster=cluster) as run:
         explicit = run_sweep(sweep, executor=run, database=str(tmp_path / "explicit.sqlite"))
     assert serial.computed == default.computed == explicit.computed == TASKS
-    reference = _stored(tmp_path / "serial.sqlite")
+    reference = stored_results(tmp_path / "serial.sqlite")
     assert len(reference[0]) == 4 * 2 + 4 * 2          # fidelity rows + decoded rows
-    assert _stored(tmp_path / "default.sqlite") == reference
-    assert _stored(tmp_path / "explicit.sqlite") == reference
+    assert stored_results(tmp_path / "default.sqlite") == reference
+    assert stored_results(tmp_path / "explicit.sqlite") == reference
 
 
 def test_a_worker_killed_mid_sweep_and_every_row_present_once(sweep_file, tmp_path):
@@ -82,7 +55,8 @@ def test_a_worker_killed_mid_sweep_and_every_row_present_once(sweep_file, tmp_pa
                             progress=kill_one)
         assert pids[0] not in run.worker_pids.values()      # the worker really died
     assert killed and outcome.ok and outcome.computed == TASKS
-    assert _stored(tmp_path / "killed.sqlite") == _stored(tmp_path / "reference.sqlite")
+    assert stored_results(tmp_path / "killed.sqlite") == stored_results(
+        tmp_path / "reference.sqlite")
 
 
 def test_interrupted_sweep_resumes_without_computing_anything_twice(sweep_file, tmp_path):
@@ -103,7 +77,7 @@ def test_interrupted_sweep_resumes_without_computing_anything_twice(sweep_file, 
     assert again.computed == 0 and again.skipped == TASKS
     with SerialExecutor() as run:
         run_sweep(sweep, executor=run, database=str(tmp_path / "whole.sqlite"))
-    assert _stored(database) == _stored(tmp_path / "whole.sqlite")
+    assert stored_results(database) == stored_results(tmp_path / "whole.sqlite")
 
 
 def test_a_malformed_chip_fails_its_own_units_and_the_rest_complete(sweep_file, tmp_path,
