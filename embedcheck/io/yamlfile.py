@@ -282,7 +282,12 @@ def plain_yaml(text: str, file: str) -> tuple[Any, dict]:
                 break
     except yaml.YAMLError as exc:
         mark = getattr(exc, "problem_mark", None)
-        raise InputError(f"YAML syntax error: {_yaml_problem(exc)}", file=file,
+        problem = _yaml_problem(exc)
+        if "nesting depth" in problem:       # newer PyYAML parsers stop deep nesting first
+            raise InputError(f"lists and mappings nested more than {MAX_YAML_DEPTH} deep; "
+                             "refusing to read further", file=file,
+                             line=mark.line + 1 if mark else None) from None
+        raise InputError(f"YAML syntax error: {problem}", file=file,
                          line=mark.line + 1 if mark else None) from None
     finally:
         loader.dispose()
