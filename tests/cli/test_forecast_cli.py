@@ -42,7 +42,8 @@ def test_table_json_picture_and_resume(capsys, chip, tmp_path):
     report, picture = out_dir / "forecast.json", out_dir / "forecast.svg"
     code, out, err = run(capsys, "forecast", chip, *FAST, "--json", report, "--picture",
                          picture, "--format", "json")
-    assert code == 0 and err == ""
+    assert code == 0 and err.splitlines() == [f"wrote {report}: the forecast as JSON",
+                                              f"wrote {picture}: the forecast drawn"]
     data = json.loads(out)
     jsonschema.validate(data, schema("forecast-report"))
     assert json.loads(report.read_text()) == data

@@ -105,7 +105,9 @@ def test_cli_report_files_and_bad_sweep_files(sweep_file, tmp_path, capsys):
     picture = tmp_path / "best.svg"
     assert main(["sweep", str(sweep_file), "--serial", "--markdown", str(out),
                  "--picture", str(picture)]) == 0
-    text = capsys.readouterr().out
+    text, err = capsys.readouterr()
+    assert [line for line in err.splitlines() if line.startswith("wrote ")] == [
+        f"wrote {out}: the sweep report as Markdown", f"wrote {picture}: the sweep drawn"]
     assert "repetition d=3: ranked by decoded logical error" in text
     assert out.read_text().startswith("## embedcheck sweep: test")
     assert picture.read_text().lstrip().startswith("<?xml")
