@@ -143,7 +143,9 @@ def find_dict(result: FindResult) -> Json:
         if result.logical.estimate_order is not None:
             out["estimate_order"] = result.logical.estimate_order
     if result.logical_note is not None:
-        out["logical_note"] = logical_note(result.logical_note, decoded=result.decoded)
+        out["logical_note"] = logical_note(result.logical_note, decoded=result.decoded,
+                                           skipped_sampling=result.sampled
+                                           and result.logical is None)
     if result.snapshots is not None:
         out["snapshots"] = snapshot_dict(v.patch, result.snapshots, top=min(top, 5))
     if result.sdk is not None:
@@ -177,9 +179,28 @@ _NOTES = {
 }
 
 
-def logical_note(note: LogicalNote, *, decoded: bool = False) -> str:
-    """The words for a `LogicalNote`."""
-    return _NOTES[note]
+# Said when --monte-carlo was asked for but not run, for the notes that mean it cannot say
+# anything (the others already say what happened to the shots).
+_SAMPLING_SKIPPED = {
+    LogicalNote.OBSERVABLE_IS_DETECTOR_PARITY:
+        "The --monte-carlo sampling asked for was not run: with the observable a parity of "
+        "detectors, no fault can flip it unseen, so every shot would count 0 logical errors",
+}
+
+
+def logical_note(note: LogicalNote, *, decoded: bool = False,
+                 skipped_sampling: bool = False) -> str:
+    """The words for a `LogicalNote`; with `skipped_sampling` (Monte Carlo shots were asked
+    for and none was sampled) also the sentence that says so and why.
+
+    >>> logical_note(LogicalNote.OBSERVABLE_IS_DETECTOR_PARITY,
+    ...              skipped_sampling=True).split(". ")[-1][:42]
+    'The --monte-carlo sampling asked for was n'
+    """
+    words = _NOTES[note]
+    if skipped_sampling and note in _SAMPLING_SKIPPED:
+        words += ". " + _SAMPLING_SKIPPED[note]
+    return words
 
 
 _WORST_IS_LOW = {"t1_us", "t2_us"}

@@ -384,3 +384,19 @@ def test_find_and_repair_give_the_same_answer_under_any_hash_seed(tmp_path):
     repair = [run(seed, "repair", DEMO_CHIP, DEMO_PATCH, "-o", tmp_path / f"r{seed}.yaml",
                   "--format", "json") for seed in (1, 2)]
     assert repair[0] == repair[1]
+
+
+def test_find_says_when_asked_for_monte_carlo_was_not_run(capsys):
+    # The observable of the fixed patch is a detector parity: no fault flips it unseen, so
+    # sampling cannot say anything; the report must say it skipped the shots and why.
+    code, out, _ = run(capsys, "find", DEMO_CHIP, FIXED_PATCH, "--monte-carlo", "5000",
+                       "--format", "json")
+    data = json.loads(out)
+    assert code == 0 and "logical" not in data
+    assert "--monte-carlo sampling asked for was not run" in data["logical_note"]
+    assert "parity of detectors" in data["logical_note"]
+    code, out, _ = run(capsys, "find", DEMO_CHIP, FIXED_PATCH, "--monte-carlo", "5000")
+    assert "sampling asked for was not run" in " ".join(out.split())
+    # Without --monte-carlo nothing was asked for, so nothing is said about it.
+    code, out, _ = run(capsys, "find", DEMO_CHIP, FIXED_PATCH, "--format", "json")
+    assert "monte-carlo" not in json.loads(out)["logical_note"]
