@@ -224,6 +224,7 @@ class Forecast:
     chip: str
     calibration_timestamp: str | None
     family: str
+    placeholder_calibration: bool = False     # the chip file says so: rankings mean nothing
     basis: str
     ranking: str
     scales: tuple[float, ...]
@@ -329,6 +330,7 @@ def run_forecast(device: Device, family: str, *, distances: Sequence[int] | None
     kept = [s.distance for s in searches if s.skipped is None]
     return Forecast(
         chip=device.name, calibration_timestamp=device.calibration_timestamp, family=family,
+        placeholder_calibration=device.placeholder_calibration,
         basis=basis, ranking=ranking_name, scales=scale_list, searches=searches,
         points=tuple(points), suppression=_suppression(points, kept, scale_list),
         crossings=_crossings(points, kept, scale_list, median_error),

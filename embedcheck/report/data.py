@@ -31,8 +31,9 @@ from ..score.logical import LogicalRanking
 from ..score.sampling import per_round
 from ..version import __version__
 
-__all__ = ["audit_dict", "calibration_summary", "check_dict", "chip_details", "chip_summary",
-           "compare_to_baseline", "find_dict", "logical_dict", "logical_note", "patch_details",
+__all__ = ["PLACEHOLDER_WARNING", "audit_dict", "calibration_summary", "check_dict",
+           "chip_details", "chip_summary", "compare_to_baseline", "find_dict",
+           "logical_dict", "logical_note", "patch_details",
            "patch_summary", "placement_rows", "sdk_dict", "sensitivity_rows", "snapshot_dict"]
 __all__ += ["best_first_dict"]
 
@@ -44,7 +45,13 @@ def chip_summary(device: Device) -> Json:
             "couplers": len(device.couplers), "live_couplers": len(device.live_couplers),
             "dead_qubits": sorted(device.dead_qubits),
             "dead_couplers": [list(c) for c in sorted(device.dead_couplers)],
-            "calibration_timestamp": device.calibration_timestamp}
+            "calibration_timestamp": device.calibration_timestamp,
+            "placeholder_calibration": device.placeholder_calibration}
+
+
+# One line for the text reports of find, check and forecast on a placeholder chip.
+PLACEHOLDER_WARNING = ("Warning: PLACEHOLDER calibration (the same figures everywhere): the "
+                       "ranking carries no information on this chip")
 
 
 def patch_summary(patch: Patch) -> Json:
@@ -337,6 +344,7 @@ def check_dict(result: CheckResult, baseline: Json | None = None) -> Json:
             })
         entries.append({
             "chip": pair.device.name, "chip_file": pair.device.source,
+            "placeholder_calibration": pair.device.placeholder_calibration,
             "patch": pair.patch.name, "patch_file": pair.patch.source,
             "passed": pair.passed,
             "placements_within_allowance": pair.allowed_placements,

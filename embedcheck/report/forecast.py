@@ -19,6 +19,7 @@ from typing import Any
 from ..pipeline.forecast import Forecast, ForecastPoint
 from ..score.cost import CAUTION
 from ..version import __version__
+from .data import PLACEHOLDER_WARNING
 
 __all__ = ["draw_forecast", "forecast_dict", "render_forecast_text"]
 
@@ -48,7 +49,8 @@ def forecast_dict(forecast: Forecast, *, chip_file: str | None = None,
         "tool": "embedcheck", "version": __version__, "command": "forecast",
         "chip": {"name": forecast.chip, "file": chip_file,
                  "calibration_timestamp": forecast.calibration_timestamp,
-                 "median_two_qubit_error": _num(forecast.median_two_qubit_error)},
+                 "median_two_qubit_error": _num(forecast.median_two_qubit_error),
+                 "placeholder_calibration": forecast.placeholder_calibration},
         "family": forecast.family, "basis": forecast.basis, "ranking": forecast.ranking,
         "scales": list(forecast.scales),
         "sampling": {"shots": forecast.shots, "max_errors": forecast.max_errors,
@@ -121,6 +123,7 @@ def render_forecast_text(payload: Json) -> str:
              f"{sampling['shots']} shots or {sampling['max_errors']} logical errors per point; "
              f"{sampling['new_shots']} shots sampled now, {sampling['reused_shots']} reused"
              + (f" from {sampling['samples_file']}" if sampling["samples_file"] else ""),
+             *([PLACEHOLDER_WARNING + "."] if chip.get("placeholder_calibration") else []),
              "", "Logical error per round at today's calibration (decoded by matching; 95% "
              "interval):",
              f"  {'d':>2} {'rounds':>6} {'qubits':>6} {'placements':>10}  "
