@@ -31,7 +31,7 @@ from ..score.logical import LogicalRanking
 from ..score.sampling import per_round
 from ..version import __version__
 
-__all__ = ["PLACEHOLDER_WARNING", "audit_dict", "calibration_summary", "check_dict",
+__all__ = ["PLACEHOLDER_WARNING", "audit_dict", "family_hint", "calibration_summary", "check_dict",
            "chip_details", "chip_summary", "compare_to_baseline", "find_dict",
            "logical_dict", "logical_note", "patch_details",
            "patch_summary", "placement_rows", "sdk_dict", "sensitivity_rows", "snapshot_dict"]
@@ -47,6 +47,17 @@ def chip_summary(device: Device) -> Json:
             "dead_couplers": [list(c) for c in sorted(device.dead_couplers)],
             "calibration_timestamp": device.calibration_timestamp,
             "placeholder_calibration": device.placeholder_calibration}
+
+
+def family_hint(family: str, *, how: str) -> str:
+    """One line: the chip's qubits have too few couplers for the patch; try `family`.
+
+    >>> family_hint("heavy-hex-chipfit", how="--family heavy-hex-chipfit")[:31]
+    'hint: this chip has at most 3 c'
+    """
+    return (f"hint: this chip has at most 3 couplers per qubit and the patch needs 4 (as the "
+            f"surface code does); the built-in family {family} is made for such chips "
+            f"(try '{how}')")
 
 
 # One line for the text reports of find, check and forecast on a placeholder chip.
@@ -153,6 +164,10 @@ def find_dict(result: FindResult) -> Json:
         out["logical_note"] = logical_note(result.logical_note, decoded=result.decoded,
                                            skipped_sampling=result.sampled
                                            and result.logical is None)
+    if result.fitting_family is not None:
+        out["fitting_family"] = result.fitting_family
+        out["hint"] = family_hint(result.fitting_family, how=f"embedcheck code "
+                                  f"{result.fitting_family}")
     if result.snapshots is not None:
         out["snapshots"] = snapshot_dict(v.patch, result.snapshots, top=min(top, 5))
     if result.sdk is not None:

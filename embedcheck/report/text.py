@@ -99,6 +99,8 @@ def render_find(d: dict) -> str:
                        "chip.")
         for reason in s["reasons"]:
             out.append(f"  why: {reason}")
+        if d.get("hint"):
+            out.append(f"  {d['hint']}")
         if d.get("near_misses"):
             out += ["", "Nearest misses (a heuristic: greedy removal of interacting pairs; fewer "
                         "added gates may be possible):"]
