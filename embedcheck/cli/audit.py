@@ -11,6 +11,7 @@ from .options import (
     add_common,
     add_html_option,
     add_search_options,
+    announce_written,
     emit,
     parse_placement,
     positive_int,
@@ -118,6 +119,8 @@ def run(args: argparse.Namespace) -> int:
             device, patch, placement.as_dict(patch), gates,
             title=f"{patch.name} on {device.name}")})
     outputs.commit(files)
+    announce_written({path: "the HTML report" if path == args.html else
+                      "a circuit placed on the chip's qubits (OpenQASM)" for path in files})
     emit(args, payload, render_audit(payload))
     if disagreements:
         raise InternalError("the exact audit and qiskit's transpiler disagree: "

@@ -7,9 +7,12 @@ import sys
 from typing import Any
 
 from ..errors import InputError, InternalError
-from .options import emit, finite, non_negative_int
+from .options import announce_written, emit, finite, non_negative_int
 
 __all__ = ["add_parser", "run"]
+
+_REPORT_NAMES = {"json": "JSON", "markdown": "Markdown", "junit": "JUnit XML",
+                 "sarif": "SARIF", "html": "HTML"}
 
 
 def add_parser(sub: Any) -> None:
@@ -73,6 +76,8 @@ def run(args: argparse.Namespace) -> int:
                "sarif": lambda: json.dumps(render_sarif(payload), indent=2) + "\n",
                "html": lambda: _html(result, payload)}
     outputs.commit({target: writers[kind]() for kind, target in targets.items()})
+    announce_written({target: f"the {_REPORT_NAMES[kind]} report"
+                      for kind, target in targets.items()})
     emit(args, payload, render_check(payload))
     if result.internal_errors:
         raise InternalError("the exact audit and qiskit's transpiler disagree (see the report); "

@@ -13,6 +13,7 @@ from .options import (
     add_constraint_options,
     add_html_option,
     add_search_options,
+    announce_written,
     bounded_int,
     emit,
     max_processes,
@@ -171,5 +172,9 @@ def run(args: argparse.Namespace) -> int:
                                                             title=device.name)
         pictures[args.html] = render_html(payload, pictures=svgs)
     outputs.commit(pictures)
+    labels = {args.draw: "the best placement drawn on the chip",
+              args.score_map: "every qubit shaded by its best score",
+              args.html: "the HTML report"}
+    announce_written({path: labels[path] for path in pictures})
     emit(args, payload, render_find(payload))
     return 1 if args.strict and not vetting.all_swap_free else 0

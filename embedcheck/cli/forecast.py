@@ -96,7 +96,7 @@ def run(args: argparse.Namespace) -> int:
     from ..pipeline.forecast import DEFAULT_SCALES, run_forecast
     from ..report.forecast import draw_forecast, forecast_dict, render_forecast_text
     from ..score.sampling import SampleStore
-    from .options import emit, finite, picture_bytes_for, require_picture_path
+    from .options import announce_written, emit, finite, picture_bytes_for, require_picture_path
 
     distances = _distances(args.distances) if args.distances else None
     if args.distances is not None and not distances:
@@ -140,6 +140,8 @@ def run(args: argparse.Namespace) -> int:
     if args.picture:
         files[args.picture] = picture_bytes_for(args.picture, draw_forecast(payload))
     outputs.commit(files)
+    announce_written({path: "the forecast as JSON" if path == args.json else
+                      "the forecast drawn" for path in files})
     emit(args, payload, render_forecast_text(payload))
     return 0
 

@@ -273,6 +273,14 @@ def emit(args: argparse.Namespace, payload: dict[str, Any], text: str) -> None:
         print(text)
 
 
+def announce_written(written: dict[Any, str]) -> None:
+    """Say on stderr, one line per file, what a command wrote: 'wrote FILE: what' (the wording
+    of `code` and `generate`). Call it only after `Outputs.commit` succeeded, so no line names
+    a file that is not there; never on stdout, which stays clean JSON with --format json."""
+    for path, what in written.items():
+        print(f"wrote {path}: {what}", file=sys.stderr)
+
+
 def progress_printer() -> Callable[[str, int], None] | None:
     """On a terminal, a progress line on stderr ('searching: n maps so far ...'); else None.
     Call it with (stage, count); `progress.done()` clears the line."""

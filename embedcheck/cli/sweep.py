@@ -11,7 +11,7 @@ import json
 import sys
 from typing import Any
 
-from .options import add_executor_options, executor_from, executor_label
+from .options import add_executor_options, announce_written, executor_from, executor_label
 
 __all__ = ["add_parser", "run"]
 
@@ -80,6 +80,9 @@ def run(args: argparse.Namespace) -> int:
         draw_sweep(payload).savefig(buffer, format=Path(args.picture).suffix.lower()[1:])
         files[args.picture] = buffer.getvalue()
     outputs.commit(files)
+    announce_written({path: {args.json: "the sweep report as JSON",
+                             args.markdown: "the sweep report as Markdown"}.get(
+                                 path, "the sweep drawn") for path in files})
     if args.format == "json":
         json.dump(payload, sys.stdout, indent=2)
         sys.stdout.write("\n")

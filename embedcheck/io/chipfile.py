@@ -100,7 +100,7 @@ def devices_from_document(doc: Document) -> list[Device]:
             dead_couplers=frozenset(base_dead[1] | dead_c), directed=directed,
             native_two_qubit_gate=data.get("native_two_qubit_gate", "cx"),
             description=data.get("description", ""), calibration_timestamp=stamp,
-            source=doc.file))
+            source=doc.file, placeholder_calibration=_is_placeholder(cal)))
     if len(paths) > 1:
         stamps = [d.calibration_timestamp for d in devices]
         for i, stamp in enumerate(stamps):
@@ -268,6 +268,12 @@ def _check_t2(doc, path, q, values):
         who = f"qubit {q}: " if q is not None else "default "
         raise doc.error(path + ("t2_us",),
                         f"{who}t2_us {t2} exceeds 2 * t1_us = {2 * t1} (impossible)")
+
+
+def _is_placeholder(cal) -> bool:
+    """True when the calibration's `note` starts with PLACEHOLDER, the mark `embedcheck
+    generate` writes ('note: PLACEHOLDER calibration, not a measurement')."""
+    return str(cal.get("note", "")).lstrip().startswith("PLACEHOLDER")
 
 
 def _check_timestamp(doc, path, stamp):

@@ -126,7 +126,9 @@ class Device:
     `couplers` are undirected pairs (smaller index first). `directed` maps the couplers
     whose native gate runs one way only to that (control, target) direction; the rest
     run both ways. Dead qubits and dead couplers stay listed (so a report can name
-    them) but are never "live".
+    them) but are never "live". `placeholder_calibration` is True when the chip file marks
+    its calibration as a placeholder (as `embedcheck generate` does): the same invented
+    figures everywhere, so a ranking of placements carries no information.
     """
 
     name: str
@@ -142,6 +144,7 @@ class Device:
     description: str = ""
     calibration_timestamp: str | None = None
     source: str | None = None
+    placeholder_calibration: bool = False
 
     def __reduce__(self) -> tuple[Any, ...]:
         return reduce_frozen(self)    # worker processes get copies

@@ -8,6 +8,7 @@ search is too big, stim's graphlike upper bound).
 """
 from __future__ import annotations
 
+from collections import Counter
 from collections.abc import Callable
 from dataclasses import dataclass
 
@@ -15,6 +16,7 @@ from ..errors import InputError
 from ..io.limits import max_file_bytes
 from ..io.patchfile import patch_from_family
 from ..model.codes import family_yaml
+from ..model.device import Device
 from ..model.patch import Patch
 from ..score.simulate import (
     DetectorProblem,
@@ -23,7 +25,35 @@ from ..score.simulate import (
     fault_distance_at_most,
 )
 
-__all__ = ["BuiltCode", "build_code"]
+__all__ = ["BuiltCode", "build_code", "family_for_chip"]
+
+# The built-in family made for chips whose qubits have at most 3 couplers (heavy-hex).
+LOW_DEGREE_FAMILY = "heavy-hex-chipfit"
+
+
+def family_for_chip(device: Device, patch: Patch) -> str | None:
+    """The built-in family to suggest when `patch` cannot fit `device` for want of couplers:
+    some patch qubit meets 4 or more others (the surface code's do) but no live chip qubit
+    has more than 3 couplers (a heavy-hex chip); else None.
+
+    >>> from embedcheck.model.device import Device
+    >>> line = Device(name="line", qubits=(0, 1, 2), couplers=((0, 1), (1, 2)))
+    >>> family_for_chip(line, patch_from_family("surface", distance=3, rounds=1))
+    'heavy-hex-chipfit'
+    >>> family_for_chip(line, patch_from_family("repetition", distance=3, rounds=1)) is None
+    True
+    """
+    chip: Counter[int] = Counter()
+    for a, b in device.live_couplers:
+        chip[a] += 1
+        chip[b] += 1
+    if max(chip.values(), default=0) > 3:
+        return None
+    partners: Counter[int] = Counter()
+    for a, b in patch.interaction_counts():
+        partners[a] += 1
+        partners[b] += 1
+    return LOW_DEGREE_FAMILY if max(partners.values(), default=0) >= 4 else None
 
 
 @dataclass(frozen=True, kw_only=True)

@@ -51,6 +51,7 @@ from ..score.logical import (
     undetected_zero_everywhere,
 )
 from ..score.noise import noisy_circuit
+from .codes import family_for_chip
 from .requests import require_sound_detectors
 from .sdk import SdkComparison, compare_with_sdk
 from .vet import DEFAULT_BUDGET_WORK, Vetting, vet_patch
@@ -87,6 +88,9 @@ class FindResult:
     # The audit of the placement the report leads with: the logical ranking's first when
     # there is one (it may differ from the fidelity product's first), else the vetting's.
     best_audit: AuditReport | None = None
+    # When nothing fits for want of couplers (a patch qubit meets 4 or more others on a chip
+    # of degree 3 or less): the built-in family made for such chips.
+    fitting_family: str | None = None
 
     @property
     def best(self) -> Placement | None:
@@ -158,7 +162,8 @@ def run_find(snapshots: Sequence[Device], patch: Patch, *, limit: int | None = S
     sensitive = tuple(sensitivity(device, patch, leader, top=5)) if leader is not None else ()
     return FindResult(vetting=vetting, top=shown, sensitivity=sensitive, logical=logical,
                       logical_note=note, sampled=bool(monte_carlo), decoded=decode,
-                      snapshots=robust, sdk=sdk, best_audit=audit)
+                      snapshots=robust, sdk=sdk, best_audit=audit,
+                      fitting_family=None if placements else family_for_chip(device, patch))
 
 
 def _logical_ranking(device: Device, patch: Patch, vetting: Vetting, *, figure: str,

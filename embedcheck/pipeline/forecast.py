@@ -68,6 +68,7 @@ from ..model.placement import Placement
 from ..score.logical import wilson
 from ..score.noise import noisy_circuit
 from ..score.sampling import SampleStore, circuit_key, per_round, sample_in_chunks
+from .codes import family_for_chip
 from .vet import vet_patch
 
 __all__ = ["DEFAULT_RANKING", "DEFAULT_SCALES", "FORECAST_FAMILIES", "RANKINGS", "Crossing",
@@ -139,6 +140,7 @@ class DistanceSearch:
     best: Placement | None = None
     median: Placement | None = None
     skipped: str | None = None           # why no placement is sampled
+    fitting_family: str | None = None    # skipped for want of couplers: the family that fits
 
     @property
     def rounds(self) -> int:
@@ -224,6 +226,7 @@ class Forecast:
     chip: str
     calibration_timestamp: str | None
     family: str
+    placeholder_calibration: bool = False     # the chip file says so: rankings mean nothing
     basis: str
     ranking: str
     scales: tuple[float, ...]
@@ -329,6 +332,7 @@ def run_forecast(device: Device, family: str, *, distances: Sequence[int] | None
     kept = [s.distance for s in searches if s.skipped is None]
     return Forecast(
         chip=device.name, calibration_timestamp=device.calibration_timestamp, family=family,
+        placeholder_calibration=device.placeholder_calibration,
         basis=basis, ranking=ranking_name, scales=scale_list, searches=searches,
         points=tuple(points), suppression=_suppression(points, kept, scale_list),
         crossings=_crossings(points, kept, scale_list, median_error),
@@ -403,7 +407,8 @@ def _search(device, family, distances, max_distance, rounds, basis, ranker, limi
                 "the search ran out of time before finding a swap-free placement"
                 if not vetting.complete else "no swap-free placement on this chip")
             out.append(DistanceSearch(distance=d, patch=patch, placements=len(found),
-                                      search_complete=vetting.complete, skipped=why))
+                                      search_complete=vetting.complete, skipped=why,
+                                      fitting_family=family_for_chip(device, patch)))
             if not given:
                 break                   # a bigger patch of the same family will not fit
             continue

@@ -31,8 +31,9 @@ from ..score.logical import LogicalRanking
 from ..score.sampling import per_round
 from ..version import __version__
 
-__all__ = ["audit_dict", "calibration_summary", "check_dict", "chip_details", "chip_summary",
-           "compare_to_baseline", "find_dict", "logical_dict", "logical_note", "patch_details",
+__all__ = ["PLACEHOLDER_WARNING", "audit_dict", "family_hint", "calibration_summary", "check_dict",
+           "chip_details", "chip_summary", "compare_to_baseline", "find_dict",
+           "logical_dict", "logical_note", "patch_details",
            "patch_summary", "placement_rows", "sdk_dict", "sensitivity_rows", "snapshot_dict"]
 __all__ += ["best_first_dict"]
 
@@ -44,7 +45,24 @@ def chip_summary(device: Device) -> Json:
             "couplers": len(device.couplers), "live_couplers": len(device.live_couplers),
             "dead_qubits": sorted(device.dead_qubits),
             "dead_couplers": [list(c) for c in sorted(device.dead_couplers)],
-            "calibration_timestamp": device.calibration_timestamp}
+            "calibration_timestamp": device.calibration_timestamp,
+            "placeholder_calibration": device.placeholder_calibration}
+
+
+def family_hint(family: str, *, how: str) -> str:
+    """One line: the chip's qubits have too few couplers for the patch; try `family`.
+
+    >>> family_hint("heavy-hex-chipfit", how="--family heavy-hex-chipfit")[:31]
+    'hint: this chip has at most 3 c'
+    """
+    return (f"hint: this chip has at most 3 couplers per qubit and the patch needs 4 (as the "
+            f"surface code does); the built-in family {family} is made for such chips "
+            f"(try '{how}')")
+
+
+# One line for the text reports of find, check and forecast on a placeholder chip.
+PLACEHOLDER_WARNING = ("Warning: PLACEHOLDER calibration (the same figures everywhere): the "
+                       "ranking carries no information on this chip")
 
 
 def patch_summary(patch: Patch) -> Json:
@@ -143,7 +161,13 @@ def find_dict(result: FindResult) -> Json:
         if result.logical.estimate_order is not None:
             out["estimate_order"] = result.logical.estimate_order
     if result.logical_note is not None:
-        out["logical_note"] = logical_note(result.logical_note, decoded=result.decoded)
+        out["logical_note"] = logical_note(result.logical_note, decoded=result.decoded,
+                                           skipped_sampling=result.sampled
+                                           and result.logical is None)
+    if result.fitting_family is not None:
+        out["fitting_family"] = result.fitting_family
+        out["hint"] = family_hint(result.fitting_family, how=f"embedcheck code "
+                                  f"{result.fitting_family}")
     if result.snapshots is not None:
         out["snapshots"] = snapshot_dict(v.patch, result.snapshots, top=min(top, 5))
     if result.sdk is not None:
@@ -177,9 +201,28 @@ _NOTES = {
 }
 
 
-def logical_note(note: LogicalNote, *, decoded: bool = False) -> str:
-    """The words for a `LogicalNote`."""
-    return _NOTES[note]
+# Said when --monte-carlo was asked for but not run, for the notes that mean it cannot say
+# anything (the others already say what happened to the shots).
+_SAMPLING_SKIPPED = {
+    LogicalNote.OBSERVABLE_IS_DETECTOR_PARITY:
+        "The --monte-carlo sampling asked for was not run: with the observable a parity of "
+        "detectors, no fault can flip it unseen, so every shot would count 0 logical errors",
+}
+
+
+def logical_note(note: LogicalNote, *, decoded: bool = False,
+                 skipped_sampling: bool = False) -> str:
+    """The words for a `LogicalNote`; with `skipped_sampling` (Monte Carlo shots were asked
+    for and none was sampled) also the sentence that says so and why.
+
+    >>> logical_note(LogicalNote.OBSERVABLE_IS_DETECTOR_PARITY,
+    ...              skipped_sampling=True).split(". ")[-1][:42]
+    'The --monte-carlo sampling asked for was n'
+    """
+    words = _NOTES[note]
+    if skipped_sampling and note in _SAMPLING_SKIPPED:
+        words += ". " + _SAMPLING_SKIPPED[note]
+    return words
 
 
 _WORST_IS_LOW = {"t1_us", "t2_us"}
@@ -316,6 +359,7 @@ def check_dict(result: CheckResult, baseline: Json | None = None) -> Json:
             })
         entries.append({
             "chip": pair.device.name, "chip_file": pair.device.source,
+            "placeholder_calibration": pair.device.placeholder_calibration,
             "patch": pair.patch.name, "patch_file": pair.patch.source,
             "passed": pair.passed,
             "placements_within_allowance": pair.allowed_placements,

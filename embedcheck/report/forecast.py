@@ -19,6 +19,7 @@ from typing import Any
 from ..pipeline.forecast import Forecast, ForecastPoint
 from ..score.cost import CAUTION
 from ..version import __version__
+from .data import PLACEHOLDER_WARNING, family_hint
 
 __all__ = ["draw_forecast", "forecast_dict", "render_forecast_text"]
 
@@ -48,7 +49,8 @@ def forecast_dict(forecast: Forecast, *, chip_file: str | None = None,
         "tool": "embedcheck", "version": __version__, "command": "forecast",
         "chip": {"name": forecast.chip, "file": chip_file,
                  "calibration_timestamp": forecast.calibration_timestamp,
-                 "median_two_qubit_error": _num(forecast.median_two_qubit_error)},
+                 "median_two_qubit_error": _num(forecast.median_two_qubit_error),
+                 "placeholder_calibration": forecast.placeholder_calibration},
         "family": forecast.family, "basis": forecast.basis, "ranking": forecast.ranking,
         "scales": list(forecast.scales),
         "sampling": {"shots": forecast.shots, "max_errors": forecast.max_errors,
@@ -68,6 +70,7 @@ def forecast_dict(forecast: Forecast, *, chip_file: str | None = None,
                        "resolved": c.resolved, "two_qubit_error": _num(c.two_qubit_error),
                        "note": c.note} for c in forecast.crossings],
         "caution": FORECAST_CAUTION,
+        **_hint(forecast),
     }
 
 
@@ -110,6 +113,14 @@ def _ranking_words(ranking: str) -> str:
     return ranking.replace("_", " ")
 
 
+def _hint(forecast: Forecast) -> Json:
+    """The family to try instead when a distance was skipped for want of couplers."""
+    family = next((s.fitting_family for s in forecast.searches if s.fitting_family), None)
+    if family is None:
+        return {}
+    return {"fitting_family": family, "hint": family_hint(family, how=f"--family {family}")}
+
+
 def render_forecast_text(payload: Json) -> str:
     """The forecast for a terminal: per distance today, the verdicts, the scaled table."""
     chip, sampling = payload["chip"], payload["sampling"]
@@ -121,6 +132,7 @@ def render_forecast_text(payload: Json) -> str:
              f"{sampling['shots']} shots or {sampling['max_errors']} logical errors per point; "
              f"{sampling['new_shots']} shots sampled now, {sampling['reused_shots']} reused"
              + (f" from {sampling['samples_file']}" if sampling["samples_file"] else ""),
+             *([PLACEHOLDER_WARNING + "."] if chip.get("placeholder_calibration") else []),
              "", "Logical error per round at today's calibration (decoded by matching; 95% "
              "interval):",
              f"  {'d':>2} {'rounds':>6} {'qubits':>6} {'placements':>10}  "
@@ -136,6 +148,8 @@ def render_forecast_text(payload: Json) -> str:
         lines.append(f"  {s['distance']:>2} {s['rounds']:>6} {s['patch_qubits']:>6} "
                      f"{found:>10}  {_point_row(today.get('best')):<32} "
                      f"{_point_row(today.get('median')):<32}")
+    if payload.get("hint"):
+        lines.append(f"  {payload['hint']}")
     for s in payload["distances"]:
         if s["best"] is not None:
             region = s["best"]["region"]

@@ -40,6 +40,7 @@ def render_sweep_text(payload: dict[str, Any]) -> str:
     for patch in payload["patches"]:
         lines += ["", f"{patch['patch']}: ranked by {_LABELS[patch['figure']]} "
                       f"({patch['better']} is better)",
+                  *([f"  why: {patch['ranking_note']}"] if patch.get("ranking_note") else []),
                   f"  {'snapshot':<12} {'best chip':<22} {'figure':>10}  region (chip qubits)"]
         for day in patch["snapshots"]:
             best = day["best"]
@@ -69,7 +70,8 @@ def render_sweep_markdown(payload: dict[str, Any]) -> str:
         out += [f"### {patch['patch']}", "",
                 f"Ranked by {_LABELS[patch['figure']]} ({patch['better']} is better). The "
                 f"winning chip changed {patch['winner_changes']} time(s), the region "
-                f"{patch['region_changes']} time(s), over {patch['days_compared']} day(s).", "",
+                f"{patch['region_changes']} time(s), over {patch['days_compared']} day(s)."
+                + (f" Why: {patch['ranking_note']}." if patch.get("ranking_note") else ""), "",
                 "| snapshot | best chip | figure | region |", "| --- | --- | --- | --- |"]
         for day in patch["snapshots"]:
             best = day["best"]

@@ -4,6 +4,8 @@ from __future__ import annotations
 import math
 from typing import Any
 
+from .data import PLACEHOLDER_WARNING
+
 __all__ = ["format_score", "render_audit", "render_check", "render_chip", "render_find",
            "render_patch", "render_repair"]
 
@@ -47,6 +49,8 @@ def render_find(d: dict) -> str:
     out = [f"Patch '{patch['name']}' ({patch['qubits']} qubits: {roles}; {patch['rounds']} "
            f"round(s)) on chip '{chip['name']}' ({chip['qubits']} qubits, "
            f"{chip['live_couplers']} live couplers{', ' + ', '.join(dead) if dead else ''})"]
+    if chip.get("placeholder_calibration"):
+        out.append(PLACEHOLDER_WARNING + ".")
     if patch.get("roles_inferred"):
         out.append("Roles were inferred from the circuits (give 'qubits:' or 'role_registers:' "
                    "in a patch file to set them).")
@@ -95,6 +99,8 @@ def render_find(d: dict) -> str:
                        "chip.")
         for reason in s["reasons"]:
             out.append(f"  why: {reason}")
+        if d.get("hint"):
+            out.append(f"  {d['hint']}")
         if d.get("near_misses"):
             out += ["", "Nearest misses (a heuristic: greedy removal of interacting pairs; fewer "
                         "added gates may be possible):"]
@@ -324,6 +330,8 @@ def render_check(d: dict) -> str:
     for e in d["results"]:
         mark = "pass" if e["passed"] else "FAIL"
         out.append(f"[{mark}] {e['patch']} on {e['chip']}")
+        if e.get("placeholder_calibration"):
+            out.append(f"  {PLACEHOLDER_WARNING}.")
         if e["chosen_placement"]:
             label = " (the nearest miss: no placement is swap-free)" if \
                 e.get("chosen_from") == "nearest miss" else ""

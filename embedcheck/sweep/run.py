@@ -3,8 +3,11 @@
 A *unit* is one chip snapshot x one patch. Its ranking is one task (`tasks.rank_unit`);
 when the sweep asks for the sampled `decoded` figure, each of the unit's best swap-free
 placements is then one sampling task (`tasks.sample_placement`), submitted as soon as
-the ranking is back. Task keys name the unit and the parameters the task runs with, so a
-rerun of the same sweep skips every stored task (resume) and a changed parameter (more
+the ranking is back, unless sampling cannot say anything (the patch's observable is a
+parity of its detectors: no fault flips it unseen, every shot counts 0 errors), in which
+case the unit records why (`SAMPLING_SKIPPED`) and is ranked by the fidelity product.
+Task keys name the unit and the parameters the task runs with, so a rerun of the same
+sweep skips every stored task (resume) and a changed parameter (more
 shots, a bigger `top`) recomputes only what it changes.
 
 Chips and patches are loaded here, in the process that runs the sweep (loading is the io
@@ -28,11 +31,15 @@ from ..engine import Done, Executor, Task
 from ..errors import InputError
 from ..io.sweepfile import PatchSource, Sweep
 from ..model.device import Device
-from ..model.patch import Patch
+from ..model.patch import Patch, observable_is_detector_parity
 from .store import ResultRow, ResultStore, Unit
 from .tasks import rank_unit, sample_placement
 
-__all__ = ["SweepOutcome", "plan_units", "run_sweep"]
+__all__ = ["SAMPLING_SKIPPED", "SweepOutcome", "plan_units", "run_sweep"]
+
+# Stored as the unit's note when the `decoded` figure is asked for but cannot say anything.
+SAMPLING_SKIPPED = ("decoded not sampled: the observable is a parity of the detectors, so no "
+                    "fault flips it unseen and every shot would count 0 logical errors")
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -130,6 +137,17 @@ def _run(sweep, executor, store, progress) -> SweepOutcome:
     sample_params = _digest({"shots": sweep.shots, "max_errors": sweep.max_errors,
                              "seed": sweep.seed})
     by_key = {p.unit.key: p for p in planned}
+    parity: dict[int, bool] = {}            # per patch object (shared by its units)
+
+    def skip_note(unit_key: str) -> str | None:
+        """Why the unit's asked-for sampling is not run, or None (it is run)."""
+        patch = by_key[unit_key].patch
+        if "decoded" not in sweep.figures or patch is None or not patch.detectors \
+                or not patch.observable:
+            return None
+        if id(patch) not in parity:
+            parity[id(patch)] = observable_is_detector_parity(patch)
+        return SAMPLING_SKIPPED if parity[id(patch)] else None
     computed = skipped = failed_samples = 0
     tasks: list[Task] = []
 
@@ -138,7 +156,7 @@ def _run(sweep, executor, store, progress) -> SweepOutcome:
         plan = by_key[unit_key]
         patch = plan.patch
         if "decoded" not in sweep.figures or patch is None or not patch.detectors \
-                or not patch.observable:
+                or not patch.observable or skip_note(unit_key) is not None:
             return []
         out = []
         for rank, placement, off in placements:
@@ -180,7 +198,7 @@ def _run(sweep, executor, store, progress) -> SweepOutcome:
         total[0] += len(more)
         return more
 
-    stream = executor.results(tasks, follow=_recording(store, by_key, follow))
+    stream = executor.results(tasks, follow=_recording(store, by_key, follow, skip_note))
     for done in stream:
         finished += 1
         computed += 1
@@ -194,7 +212,7 @@ def _run(sweep, executor, store, progress) -> SweepOutcome:
                         computed=computed, skipped=skipped, failed_samples=failed_samples)
 
 
-def _recording(store: ResultStore, by_key: dict, follow):
+def _recording(store: ResultStore, by_key: dict, follow, skip_note):
     """Store each finished task before anything else looks at it (never lost)."""
 
     def record(done: Done) -> list[Task]:
@@ -214,7 +232,8 @@ def _recording(store: ResultStore, by_key: dict, follow):
                 else "fidelity_product"
             store.record_unit(unit, task=done.key, rows=rows, placements=value["placements"],
                               complete=value["complete"], seconds=value["seconds"],
-                              ranked_by=ranked_by, cpu_seconds=value.get("cpu_seconds"))
+                              ranked_by=ranked_by, cpu_seconds=value.get("cpu_seconds"),
+                              note=skip_note(unit_key))
         else:
             unit_key, rank_text, _ = rest.rsplit(":", 2)
             value = done.value or {}

@@ -4,7 +4,8 @@ Tables (one row per ...):
 
 - `units`: chip x snapshot x patch: names, when the snapshot was taken, status ('done' or
   'failed' with its one-line error), how many placements the search found and whether
-  it was complete, and which figure ranks the unit.
+  it was complete, which figure ranks the unit, and `note`: why a figure the sweep asked
+  for was not computed for it (e.g. sampling that could say nothing), once per unit.
 - `results`: unit x placement rank x figure: the value, its interval (sampled figures),
   shots and errors, the placement (JSON: patch qubit -> chip qubit) and its off-coupler
   gate count.
@@ -44,7 +45,7 @@ CREATE TABLE IF NOT EXISTS units (
     unit TEXT PRIMARY KEY, chip TEXT NOT NULL, chip_file TEXT NOT NULL, snapshot TEXT NOT NULL,
     taken_at TEXT, patch TEXT NOT NULL, distance INTEGER, rounds INTEGER,
     status TEXT NOT NULL CHECK (status IN ('done', 'failed')), error TEXT,
-    placements INTEGER, complete INTEGER, ranked_by TEXT);
+    placements INTEGER, complete INTEGER, ranked_by TEXT, note TEXT);
 CREATE TABLE IF NOT EXISTS results (
     unit TEXT NOT NULL, rank INTEGER NOT NULL, figure TEXT NOT NULL,
     value REAL, low REAL, high REAL, shots INTEGER, errors INTEGER, per_round REAL,
@@ -97,6 +98,8 @@ class ResultStore:
         columns = {row[1] for row in self.db.execute("PRAGMA table_info(tasks)")}
         if "cpu_seconds" not in columns:          # a database written before the column
             self.db.execute("ALTER TABLE tasks ADD COLUMN cpu_seconds REAL")
+        if "note" not in {row[1] for row in self.db.execute("PRAGMA table_info(units)")}:
+            self.db.execute("ALTER TABLE units ADD COLUMN note TEXT")   # an older database
         found = self.db.execute("SELECT value FROM meta WHERE key='version'").fetchone()
         if found is None:
             self.db.execute("INSERT INTO meta VALUES ('version', ?)", (_VERSION,))
@@ -112,10 +115,11 @@ class ResultStore:
 
     def record_unit(self, unit: Unit, *, task: str, rows: Iterable[ResultRow], placements: int,
                     complete: bool, seconds: float, ranked_by: str | None = None,
-                    cpu_seconds: float | None = None) -> None:
-        """A unit's ranking: its placements' rows replace any older ones, in one transaction."""
+                    cpu_seconds: float | None = None, note: str | None = None) -> None:
+        """A unit's ranking: its placements' rows replace any older ones, in one transaction;
+        `note` says why a figure asked for was not computed."""
         with _transaction(self.db):
-            self._put_unit(unit, "done", None, placements, complete, ranked_by)
+            self._put_unit(unit, "done", None, placements, complete, ranked_by, note)
             self.db.execute("DELETE FROM results WHERE unit = ?", (unit.key,))
             self._put_rows(unit.key, rows)
             self._put_task(task, "rank", unit.key, "done", None, seconds, cpu_seconds)
@@ -159,12 +163,15 @@ class ResultStore:
     def task_count(self) -> int:
         return int(self.db.execute("SELECT COUNT(*) FROM tasks").fetchone()[0])
 
-    def _put_unit(self, unit, status, error, placements, complete, ranked_by) -> None:
+    def _put_unit(self, unit, status, error, placements, complete, ranked_by,
+                  note=None) -> None:
         self.db.execute(
-            "INSERT OR REPLACE INTO units VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
+            "INSERT OR REPLACE INTO units (unit, chip, chip_file, snapshot, taken_at, patch, "
+            "distance, rounds, status, error, placements, complete, ranked_by, note) "
+            "VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
             (unit.key, unit.chip, unit.chip_file, unit.snapshot, unit.taken_at, unit.patch,
              unit.distance, unit.rounds, status, error, placements,
-             None if complete is None else int(complete), ranked_by))
+             None if complete is None else int(complete), ranked_by, note))
 
     def _put_rows(self, unit_key, rows) -> None:
         self.db.executemany(

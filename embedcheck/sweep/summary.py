@@ -6,7 +6,10 @@ stored for it: the sampled `decoded` logical error when the sweep sampled it, el
 fast `undetected` figure, else the fidelity product (a figure that is equal on every
 placement, such as the decoded error of a patch whose detectors fix the observable, does
 not rank, and the next one is used); a unit whose best placement needs
-routing counts as no swap-free placement. The winner of a day is the chip whose best
+routing counts as no swap-free placement. When a figure the sweep asked for does not rank
+a patch, `ranking_note` says why: the notes its units recorded (sampling skipped because
+it could say nothing), else that the figure was equal on every placement.
+The winner of a day is the chip whose best
 placement has the best figure; `winner_changes` counts the days on which it differs from
 the day before (and `region_changes` the days on which the winning qubits differ).
 
@@ -44,7 +47,11 @@ def summarise(store: ResultStore) -> dict[str, Any]:
         # the detectors fix, say) does not rank them: the next one is used.
         figure = next((f for f in _PREFERENCE if len(values.get(f, ())) > 1),
                       next((f for f in _PREFERENCE if f in values), "fidelity_product"))
-        patches.append(_patch_summary(patch, figure, mine, rows_by_unit))
+        summary = _patch_summary(patch, figure, mine, rows_by_unit)
+        note = _ranking_note(figure, mine, values)
+        if note:
+            summary["ranking_note"] = note
+        patches.append(summary)
     return {"units": len(units), "patches": patches,
             "failed": [{"unit": u["unit"], "error": u["error"]} for u in units
                        if u["status"] == "failed"]}
@@ -82,6 +89,22 @@ def _patch_summary(patch: str, figure: str, units: list[dict], rows_by_unit) -> 
             "winner_changes": sum(a[0] != b[0] for a, b in pairs),
             "region_changes": sum(a != b for a, b in pairs),
             "series": {chip: points for chip, points in sorted(series.items())}}
+
+
+def _ranking_note(figure: str, units: list[dict], values: dict[str, set]) -> str | None:
+    """Why a figure preferred to `figure` does not rank the patch, in a sentence, or None."""
+    notes = sorted({u["note"] for u in units if u.get("note")})
+    if notes:
+        counted = [f"{note} ({sum(u.get('note') == note for u in units)} unit(s))"
+                   for note in notes]
+        return "; ".join(counted) + f"; ranked by {figure}"
+    better = _PREFERENCE[:_PREFERENCE.index(figure)]
+    flat = [f for f in better if len(values.get(f, ())) == 1]
+    if flat:
+        value = next(iter(values[flat[0]]))
+        return (f"{flat[0]} is {value:g} on every placement stored, so it ranks none; "
+                f"ranked by {figure}")
+    return None
 
 
 def _unit_best(rows: list[dict], figure: str, lower: bool) -> dict | None:

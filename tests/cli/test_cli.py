@@ -384,3 +384,54 @@ def test_find_and_repair_give_the_same_answer_under_any_hash_seed(tmp_path):
     repair = [run(seed, "repair", DEMO_CHIP, DEMO_PATCH, "-o", tmp_path / f"r{seed}.yaml",
                   "--format", "json") for seed in (1, 2)]
     assert repair[0] == repair[1]
+
+
+def test_find_says_when_asked_for_monte_carlo_was_not_run(capsys):
+    # The observable of the fixed patch is a detector parity: no fault flips it unseen, so
+    # sampling cannot say anything; the report must say it skipped the shots and why.
+    code, out, _ = run(capsys, "find", DEMO_CHIP, FIXED_PATCH, "--monte-carlo", "5000",
+                       "--format", "json")
+    data = json.loads(out)
+    assert code == 0 and "logical" not in data
+    assert "--monte-carlo sampling asked for was not run" in data["logical_note"]
+    assert "parity of detectors" in data["logical_note"]
+    code, out, _ = run(capsys, "find", DEMO_CHIP, FIXED_PATCH, "--monte-carlo", "5000")
+    assert "sampling asked for was not run" in " ".join(out.split())
+    # Without --monte-carlo nothing was asked for, so nothing is said about it.
+    code, out, _ = run(capsys, "find", DEMO_CHIP, FIXED_PATCH, "--format", "json")
+    assert "monte-carlo" not in json.loads(out)["logical_note"]
+
+
+def test_a_placeholder_chip_warns_that_the_ranking_means_nothing(tmp_path, capsys):
+    # 'generate' marks its calibration as a PLACEHOLDER in the file; find, check and
+    # forecast say the ranking carries no information there, and their JSON flags it.
+    chip = tmp_path / "grid.yaml"
+    assert main(["generate", "square-grid", "--rows", "4", "--columns", "4", "-o",
+                 str(chip)]) == 0
+    capsys.readouterr()
+    warning = "PLACEHOLDER calibration (the same figures everywhere): the ranking carries no"
+    code, out, _ = run(capsys, "find", chip, FIXED_PATCH)
+    assert code == 0 and warning in " ".join(out.split())
+    data = json.loads(run(capsys, "find", chip, FIXED_PATCH, "--format", "json")[1])
+    assert data["chip"]["placeholder_calibration"] is True
+    real = json.loads(run(capsys, "find", DEMO_CHIP, FIXED_PATCH, "--format", "json")[1])
+    assert real["chip"]["placeholder_calibration"] is False
+    assert warning not in " ".join(run(capsys, "find", DEMO_CHIP, FIXED_PATCH)[1].split())
+    for name in (FIXED_PATCH.name, "flagged_weight4_round.qasm"):
+        (tmp_path / name).write_text((FIXED_PATCH.parent / name).read_text())
+    (tmp_path / "project.yaml").write_text(
+        f"embedcheck_project: 1\nname: p\nchips: [grid.yaml]\npatches: [{FIXED_PATCH.name}]\n")
+    code, out, _ = run(capsys, "check", tmp_path / "project.yaml", "--cross-check-top", "0")
+    assert warning in " ".join(out.split())
+    code, out, _ = run(capsys, "check", tmp_path / "project.yaml", "--cross-check-top", "0",
+                       "--format", "json")
+    assert json.loads(out)["results"][0]["placeholder_calibration"] is True
+    line = tmp_path / "line.yaml"
+    assert main(["generate", "line", "--size", "7", "-o", str(line)]) == 0
+    capsys.readouterr()
+    fast = ["--family", "repetition", "--distances", "3", "--scales", "1", "--shots", "200",
+            "--serial", "--samples", tmp_path / "s.sqlite"]
+    code, out, _ = run(capsys, "forecast", line, *fast)
+    assert code == 0 and warning in " ".join(out.split())
+    code, out, _ = run(capsys, "forecast", line, *fast, "--format", "json")
+    assert json.loads(out)["chip"]["placeholder_calibration"] is True

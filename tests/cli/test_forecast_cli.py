@@ -42,7 +42,8 @@ def test_table_json_picture_and_resume(capsys, chip, tmp_path):
     report, picture = out_dir / "forecast.json", out_dir / "forecast.svg"
     code, out, err = run(capsys, "forecast", chip, *FAST, "--json", report, "--picture",
                          picture, "--format", "json")
-    assert code == 0 and err == ""
+    assert code == 0 and err.splitlines() == [f"wrote {report}: the forecast as JSON",
+                                              f"wrote {picture}: the forecast drawn"]
     data = json.loads(out)
     jsonschema.validate(data, schema("forecast-report"))
     assert json.loads(report.read_text()) == data
@@ -115,3 +116,37 @@ def test_help_names_the_command():
     text = build_parser().format_help()
     assert "forecast" in text
     assert Path(schema("forecast-report")["$id"]).name == "forecast-report.schema.json"
+
+
+def test_surface_on_a_degree_three_chip_names_the_family_that_fits(capsys, tmp_path):
+    # No surface-code qubit (4 partners) fits a heavy-hex chip (at most 3 couplers per
+    # qubit): forecast and find name the built-in family made for such chips.
+    import jsonschema
+
+    from helpers import DEMO_CHIP
+    samples = tmp_path / "s.sqlite"
+    code, out, _ = run(capsys, "forecast", DEMO_CHIP, "--family", "surface", "--serial",
+                       "--distances", "3", "--samples", samples, "--format", "json")
+    data = json.loads(out)
+    jsonschema.validate(data, schema("forecast-report"))
+    assert code == 0 and data["fitting_family"] == "heavy-hex-chipfit"
+    assert "--family heavy-hex-chipfit" in data["hint"]
+    code, out, _ = run(capsys, "forecast", DEMO_CHIP, "--family", "surface", "--serial",
+                       "--distances", "3", "--samples", samples)
+    hints = [line for line in out.splitlines() if line.strip().startswith("hint:")]
+    assert len(hints) == 1 and "heavy-hex-chipfit" in hints[0]
+    patch = tmp_path / "surface.yaml"
+    assert main(["code", "surface", "--distance", "3", "-o", str(patch)]) == 0
+    capsys.readouterr()
+    code, out, _ = run(capsys, "find", DEMO_CHIP, patch)
+    assert code == 0 and "try 'embedcheck code heavy-hex-chipfit'" in " ".join(out.split())
+    data = json.loads(run(capsys, "find", DEMO_CHIP, patch, "--format", "json")[1])
+    jsonschema.validate(data, schema("find-report"))
+    assert data["fitting_family"] == "heavy-hex-chipfit"
+    # A chip with 4 couplers per qubit gets no hint: the surface code is not the problem.
+    grid = tmp_path / "grid.yaml"
+    assert main(["generate", "square-grid", "--rows", "5", "--columns", "5", "-o",
+                 str(grid)]) == 0
+    capsys.readouterr()
+    data = json.loads(run(capsys, "find", grid, patch, "--format", "json")[1])
+    assert "fitting_family" not in data and "hint" not in data

@@ -141,6 +141,9 @@ def test_write_qasm_and_generate_keep_existing_files_unless_forced(work, capsys)
     assert main(["audit", str(work / "chip.yaml"), str(patch), "--pick", "1",
                  "--write-qasm", str(work / "out"), "--force"]) == 0
     assert (work / "out" / "prep.qasm").read_text() != "// mine\n"
+    announced = capsys.readouterr().err.splitlines()     # each file written, on stderr
+    assert [line.split(":")[0] for line in announced] == [
+        f"wrote {work / 'out' / name}.qasm" for name in ("prep", "round", "readout")]
     (work / "g.yaml").write_text("# mine\n")
     _refused(work, capsys, ["generate", "line", "--size", "5", "-o", work / "g.yaml"],
              message="file exists")

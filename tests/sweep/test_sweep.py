@@ -105,7 +105,9 @@ def test_cli_report_files_and_bad_sweep_files(sweep_file, tmp_path, capsys):
     picture = tmp_path / "best.svg"
     assert main(["sweep", str(sweep_file), "--serial", "--markdown", str(out),
                  "--picture", str(picture)]) == 0
-    text = capsys.readouterr().out
+    text, err = capsys.readouterr()
+    assert [line for line in err.splitlines() if line.startswith("wrote ")] == [
+        f"wrote {out}: the sweep report as Markdown", f"wrote {picture}: the sweep drawn"]
     assert "repetition d=3: ranked by decoded logical error" in text
     assert out.read_text().startswith("## embedcheck sweep: test")
     assert picture.read_text().lstrip().startswith("<?xml")
@@ -125,3 +127,37 @@ def test_cli_report_files_and_bad_sweep_files(sweep_file, tmp_path, capsys):
     sweep_file.write_text(sweep_file.read_text().replace("tops: 2", "top: 2"))
     assert main(["sweep", str(sweep_file), "--serial", "--database", str(sweep_file)]) == 2
     assert "will not write over an input file" in capsys.readouterr().err
+
+
+def test_sampling_that_cannot_say_anything_is_skipped_and_the_report_says_why(
+        sweep_file, tmp_path, capsys):
+    # The fixed demo patch's observable is a parity of its detectors: no fault flips it
+    # unseen, so sampled 'decoded' would be 0 errors on every placement. No sampling task
+    # runs; each unit records why, and the report says why it ranks by the fidelity product.
+    from helpers import FIXED_PATCH
+    for name in (FIXED_PATCH.name, "flagged_weight4_round.qasm"):
+        (tmp_path / name).write_text((FIXED_PATCH.parent / name).read_text())
+    sweep_file.write_text(sweep_file.read_text().replace(
+        "patches: [{family: repetition, distances: [3], rounds: 2}]",
+        f"patches: [{FIXED_PATCH.name}]"))
+    markdown = tmp_path / "report.md"
+    assert main(["sweep", str(sweep_file), "--serial", "--markdown", str(markdown)]) == 0
+    text = " ".join(capsys.readouterr().out.split())
+    assert "ranked by fidelity product" in text and "why: decoded not sampled" in text
+    assert "Why: decoded not sampled" in " ".join(markdown.read_text().split())
+    store = ResultStore(str(tmp_path / "sweep.sqlite"))
+    try:
+        units = store.units()
+        assert len(units) == 4 and all("parity of the detectors" in u["note"] for u in units)
+        assert not [r for r in store.results() if r["figure"] == "decoded"]
+        assert not [t for t in store.done_tasks() if t.startswith("sample:")]
+    finally:
+        store.close()
+    assert main(["sweep", str(sweep_file), "--serial", "--format", "json"]) == 0
+    payload = json.loads(capsys.readouterr().out)
+    jsonschema.validate(payload, schema("sweep-report"))
+    assert payload["run"]["computed"] == 0 and payload["run"]["skipped"] == 4    # resumed
+    (patch,) = payload["patches"]
+    assert patch["figure"] == "fidelity_product"
+    assert patch["ranking_note"].startswith("decoded not sampled") and "(4 unit(s))" in \
+        patch["ranking_note"]
