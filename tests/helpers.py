@@ -102,3 +102,27 @@ def stored_results(database):
     units = db.execute("SELECT * FROM units ORDER BY unit").fetchall()
     db.close()
     return results, units
+
+
+def networkx_maps(host_n, host_edges, k, edges, allowed=None) -> list[tuple[int, ...]]:
+    """Every monomorphism of the pattern (k nodes, `edges`) into the host graph, as
+    networkx's `GraphMatcher` lists them (the reference the matcher tests hold ours to):
+    tuples of host nodes in pattern order. `allowed[j][v]`: pattern node j may use v."""
+    import networkx as nx
+    from networkx.algorithms.isomorphism import GraphMatcher
+    h = nx.Graph()
+    h.add_nodes_from(range(host_n))
+    h.add_edges_from(host_edges)
+    p = nx.Graph()
+    p.add_nodes_from(range(k))
+    p.add_edges_from(edges)
+    if allowed is not None:
+        for v in h:
+            h.nodes[v]["ok"] = {j for j in range(k) if allowed[j][v]}
+        for j in p:
+            p.nodes[j]["j"] = j
+        matcher = GraphMatcher(h, p, node_match=lambda a, b: b["j"] in a["ok"])
+    else:
+        matcher = GraphMatcher(h, p)
+    return [tuple(inv[j] for j in range(k)) for inv in
+            ({j: v for v, j in m.items()} for m in matcher.subgraph_monomorphisms_iter())]

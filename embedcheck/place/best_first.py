@@ -50,7 +50,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .matcher import Engine, Host, layers, prepare
+from .matcher import Engine, Host, bfs_distances, layers, prepare
+from .symmetry import canonical_rows
 
 __all__ = ["BestMaps", "best_first"]
 
@@ -170,15 +171,7 @@ class _Search:
             if a != b:
                 nbrs[a].add(b)
                 nbrs[b].add(a)
-        dist, front = {order[0]: 0}, [order[0]] if k else []
-        while front:
-            nxt = []
-            for v in front:
-                for w in nbrs[v]:
-                    if w not in dist:
-                        dist[w] = dist[v] + 1
-                        nxt.append(w)
-            front = nxt
+        dist = bfs_distances(nbrs, order[0]) if k else {}
         for s, v in enumerate(order):
             self.reach[s] = dist.get(v, k)
         # global minima (steps outside the root's part, and anchors not yet looked at)
@@ -383,7 +376,7 @@ class _Search:
         """Complete maps into `best` (orbit key -> (cost, map)), keeping the `top`
         cheapest orbits, each at its cheapest map so far (ties broken by the map)."""
         maps = self.engine.maps(rows)
-        keys = _canonical(maps, perms) if perms is not None else maps
+        keys = canonical_rows(maps, perms) if perms is not None else maps
         if self.invariant:               # every map of an orbit costs the same: show the
             maps = keys                  # lexicographically smallest, as find does
         for m, key, c in zip(maps.tolist(), keys.tolist(), cost.tolist(), strict=True):
@@ -579,19 +572,6 @@ def _cheapest_sums(owner: np.ndarray, values: np.ndarray, counts: np.ndarray,
     sums[blocked[at] - blocked_before[:, None] > 0] = np.inf
     out[:, 1:] = np.where(ok, sums, np.inf)
     return out
-
-
-def _canonical(maps: np.ndarray, perms: np.ndarray) -> np.ndarray:
-    """The lexicographically smallest image of each map under the symmetries."""
-    best = maps[:, perms[0]]
-    for perm in perms[1:]:
-        cand = maps[:, perm]
-        differ = cand != best
-        first = np.argmax(differ, axis=1)
-        rows = np.arange(len(best))
-        smaller = differ[rows, first] & (cand[rows, first] < best[rows, first])
-        best = np.where(smaller[:, None], cand, best)
-    return best
 
 
 def _masked_min(values: np.ndarray, mask: np.ndarray) -> float:

@@ -62,8 +62,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["Engine", "Host", "Plan", "Prepared", "girth", "grow", "layers", "monomorphisms",
-           "node_dtype", "plan", "prepare"]
+__all__ = ["Engine", "Host", "Plan", "Prepared", "bfs_distances", "girth", "grow", "layers",
+           "monomorphisms", "node_dtype", "plan", "prepare"]
 
 FIRST_ANCHORS = 256         # anchors in the first batch; batches then grow fourfold
 PROBE_SAMPLE = 16           # anchors sampled to pick where the probe starts
@@ -246,7 +246,7 @@ def _top_degrees(indptr, indices, degree, width) -> np.ndarray:
     return out
 
 
-def _distances(nbrs, source) -> dict[int, int]:
+def bfs_distances(nbrs, source) -> dict[int, int]:
     """Breadth-first distances from `source` within its connected part."""
     dist, front = {source: 0}, [source]
     while front:
@@ -263,9 +263,9 @@ def _distances(nbrs, source) -> dict[int, int]:
 def _centre(nbrs, source) -> int:
     """A roughly central node of `source`'s part: the middle of a long shortest path
     found by two breadth-first sweeps (linear time; exact on trees)."""
-    far = _distances(nbrs, source)
+    far = bfs_distances(nbrs, source)
     a = max(far, key=lambda v: (far[v], -v))
-    from_a = _distances(nbrs, a)
+    from_a = bfs_distances(nbrs, a)
     b = max(from_a, key=lambda v: (from_a[v], -v))
     half, v = from_a[b] // 2, b
     while from_a[v] > half:
@@ -359,7 +359,7 @@ def plan(k: int, edges: Sequence[tuple[int, int]], counts: np.ndarray,
         rest = [v for v in range(k) if pos[v] < 0]
         fewest = min(counts[v] for v in rest)
         tied = [v for v in rest if counts[v] == fewest]
-        centre = _distances(nbrs, _centre(nbrs, tied[0]))
+        centre = bfs_distances(nbrs, _centre(nbrs, tied[0]))
         take(min(tied, key=lambda v: (centre.get(v, k), -len(nbrs[v]), v)))
     parent, extra, anchors = [], [], []
     for s, v in enumerate(order):
@@ -453,7 +453,7 @@ def prepare(host: Host, k: int, edges: Sequence[tuple[int, int]], *,
     p = plan(k, edges, sizes, symmetries)
     profile = np.ones(1, dtype=np.int64)
     if k:
-        dist = _distances(pnbr, p.order[0])
+        dist = bfs_distances(pnbr, p.order[0])
         profile = np.cumsum(np.bincount(np.array(list(dist.values()))))
     start = np.flatnonzero(masks[p.order[0]]) if k and not (sizes == 0).any() else \
         np.zeros(0, np.int64)
@@ -593,7 +593,9 @@ class Engine:
                             dist[w] = dist[x] + 1
                             nxt.append(w)
                 front = nxt
-            hit = [t for t in range(s) if dist.get(t, k + 1) >= g - 1]
+            # an image with no mapped path to the parent (another part of the pattern)
+            # may sit anywhere: always compared (the default must reach g - 1, whatever k)
+            hit = [t for t in range(s) if dist.get(t, g) >= g - 1]
             prefix = max(hit) + 1 if hit else 0
             near = tuple(t for t in range(prefix, s) if dist.get(t) == 1)
             self.far.append((prefix, near))

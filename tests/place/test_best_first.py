@@ -1,37 +1,16 @@
 """The best-first search against ranking every map: the maps come from networkx's
 GraphMatcher (VF2, Cordella et al., IEEE TPAMI 26, 1367 (2004)), an independent matcher,
 and are scored in numpy; the symmetry groups from rustworkx's VF2 (pattern onto itself)."""
-import networkx as nx
 import numpy as np
 import pytest
 import rustworkx as rx
 from hypothesis import given, settings
 from hypothesis import strategies as st
-from networkx.algorithms.isomorphism import GraphMatcher
 
 from embedcheck.place.best_first import best_first
 from embedcheck.place.matcher import Host
 from embedcheck.place.symmetry import automorphisms
-
-
-def _all_maps(n, host_edges, k, edges, allowed=None):
-    h = nx.Graph()
-    h.add_nodes_from(range(n))
-    h.add_edges_from(host_edges)
-    p = nx.Graph()
-    p.add_nodes_from(range(k))
-    p.add_edges_from(edges)
-    if allowed is not None:
-        for v in h:
-            h.nodes[v]["ok"] = {j for j in range(k) if allowed[j][v]}
-        for j in p:
-            p.nodes[j]["j"] = j
-        matcher = GraphMatcher(h, p, node_match=lambda a, b: b["j"] in a["ok"])
-    else:
-        matcher = GraphMatcher(h, p)
-    maps = [[inv[j] for j in range(k)] for inv in
-            ({j: v for v, j in m.items()} for m in matcher.subgraph_monomorphisms_iter())]
-    return np.array(maps, dtype=np.int64).reshape(-1, k)
+from helpers import networkx_maps
 
 
 def _costs(host, maps, edges, node_cost, edge_cost):
@@ -111,7 +90,7 @@ def test_top_maps_equal_the_full_ranking(case):
     k, edges, n, host_edges, seed, symmetric, masks, top = case
     host, group, node_cost, edge_cost, allowed = _problem(k, edges, n, host_edges, seed,
                                                           symmetric, masks)
-    maps = _all_maps(n, host_edges, k, edges, allowed)
+    maps = np.array(networkx_maps(n, host_edges, k, edges, allowed), dtype=np.int64).reshape(-1, k)
     cost = _costs(host, maps, edges, node_cost, edge_cost)
     finite = np.isfinite(cost)
     reference = [(key, c) for key, c in _reference(host, maps[finite], edges, node_cost,
@@ -153,7 +132,8 @@ def test_a_budget_stops_at_the_same_place_twice_and_bounds_the_rest(case, budget
         (b.proven, b.stop_reason, b.bound, b.gap, b.work)
     if a.stop_reason == "budget":
         assert not a.proven
-        maps = _all_maps(n, host_edges, k, edges, allowed)
+        maps = np.array(networkx_maps(n, host_edges, k, edges, allowed),
+                        dtype=np.int64).reshape(-1, k)
         reference = _reference(host, maps, edges, node_cost, edge_cost, group)
         returned = set(_canonical(a.maps, group))
         for key, c in reference:             # nothing left out costs less than the bound
