@@ -184,6 +184,7 @@ def _logical_ranking(device: Device, patch: Patch, vetting: Vetting, *, figure: 
         swap_free = ranked.placements[:int(np.count_nonzero(ranked.unscored_gates == 0))]
     if not swap_free:
         return None, None
+    note_after: LogicalNote | None = None
     if figure == "auto":
         if observable_is_detector_parity(patch):   # no fault flips it unseen: every score is 0
             return None, LogicalNote.OBSERVABLE_IS_DETECTOR_PARITY
@@ -192,9 +193,12 @@ def _logical_ranking(device: Device, patch: Patch, vetting: Vetting, *, figure: 
         elif undetected_zero_everywhere(patch):    # every fault at once: 0 there, 0 anywhere
             try:
                 decoder_model(noisy_circuit(device, patch, swap_free[0]))
+                figure = "estimate"
             except InputError:
-                return None, LogicalNote.NOT_MATCHABLE
-            figure = "estimate"
+                if not monte_carlo:
+                    return None, LogicalNote.NOT_MATCHABLE
+                figure = "kept"            # asked to sample: undecoded shots still say
+                note_after = LogicalNote.NOT_MATCHABLE   # how often detectors stay quiet
         else:
             figure = "undetected"
     require_sound_detectors(patch, patch.source)
@@ -204,7 +208,7 @@ def _logical_ranking(device: Device, patch: Patch, vetting: Vetting, *, figure: 
                               top=top if top is not None else len(swap_free), decode=decode,
                               processes=processes, executor=executor, progress=progress,
                               deadline=deadline)
-    note = None
+    note = note_after
     if out.figure == "undetected" and out.undetected is not None and not np.any(out.undetected):
         note = LogicalNote.UNDETECTED_ALL_ZERO
     elif out.estimate is not None and not out.estimate_complete:

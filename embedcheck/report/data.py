@@ -190,8 +190,9 @@ _NOTES = {
     LogicalNote.NOT_MATCHABLE:
         "no one or two faults flip the logical observable unseen, and some faults flip more "
         "than two detectors in a way stim cannot split into graph-like pieces, so neither "
-        "'undetected' nor the decoded estimate can rank the placements; ranked by "
-        "fidelity_product (--monte-carlo SHOTS samples the placements listed)",
+        "'undetected' nor the decoded estimate can rank the placements, and sampled shots "
+        "cannot be decoded; ranked by fidelity_product without --monte-carlo, by 'kept' (how "
+        "often no detector fires, sampled on the placements listed) with it",
     LogicalNote.ESTIMATE_INCOMPLETE:
         "an enumeration budget cut the decoded estimate short on some placements: it is a "
         "partial sum there (a lower bound of the leading order)",

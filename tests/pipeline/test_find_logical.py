@@ -86,3 +86,11 @@ def test_auto_keeps_the_fidelity_product_when_the_model_cannot_be_matched(monkey
     device = replace(lognormal_calibration(Device.from_lattice(square_grid(5, 5), name="g"), 2))
     result = run_find([device], patch)
     assert result.logical is None and result.logical_note is LogicalNote.NOT_MATCHABLE
+    # Shots asked for are still sampled (undecoded: how often no detector fires), not
+    # dropped while the note said the listed placements were sampled (it did).
+    sampled = run_find([device], patch, monte_carlo=400, top=3)
+    assert sampled.logical is not None and sampled.logical.figure == "kept"
+    assert sampled.logical_note is LogicalNote.NOT_MATCHABLE
+    listed = min(3, len(sampled.logical.placements))
+    assert listed and [mc.shots if mc else 0 for mc in sampled.logical.monte_carlo[:listed]] \
+        == [400] * listed
