@@ -190,9 +190,11 @@ def render_find(d: dict) -> str:
             each = " ".join(format_score(x) for x in r["per_snapshot_success"])
             out.append(f"  {r['rank']:>4}  per snapshot {each}  {_placement(r['qubits'])}")
         kept = round(snap["stability"] * snap["count"])
-        out.append(f"  The winner is in the top {snap['top_k']} of {kept} of {snap['count']} "
-                   f"snapshots (its rank in each: {', '.join(map(str, snap['winner_ranks']))}); "
-                   f"the newest snapshot's own winner ranks {snap['newest_winner_rank']} here.")
+        out.append(f"  The robust winner (rank 1 above) ranks "
+                   f"{', '.join(map(str, snap['winner_ranks']))} in the snapshots taken one "
+                   f"at a time (oldest first): in the top {snap['top_k']} in {kept} of "
+                   f"{snap['count']}. The newest snapshot's own best placement ranks "
+                   f"{snap['newest_winner_rank']} in the list above.")
         if snap["newest_winner_rank"] != 1:
             out.append("  The robust choice differs from the newest snapshot's best: prefer it "
                        "if the calibration drifts as it has.")
