@@ -63,10 +63,31 @@ def target_state(patch: Patch, circuit: str) -> tuple[Any, tuple[str, ...], set[
     try:
         state = StabilizerState(whole)
     except Exception:
-        raise InputError(f"circuit '{circuit}' is not a Clifford circuit, so its state cannot be "
-                         "proven equal to a rewrite; it is not rewritten") from None
+        where = _first_non_clifford(patch, circuit)
+        raise InputError(f"circuit '{circuit}' is not a Clifford circuit"
+                         f"{' (gate ' + where[2] + ')' if where[2] else ''}, so its state cannot "
+                         "be proven equal to a rewrite; it is not rewritten",
+                         file=where[0], line=where[1]) from None
     support = tuple(q for q in patch.qubits if q in touched)
     return state, support, reset_at_start
+
+
+def _first_non_clifford(patch: Patch, circuit: str) -> tuple[str | None, int | None, str]:
+    """(file, line, gate name) of the circuit's first gate that is never Clifford (t, tdg,
+    ccx, ...: fixed gates only, as a rotation's angle decides); else the circuit's file."""
+    from qiskit.circuit.library import get_standard_gate_name_mapping
+    from qiskit.quantum_info import Clifford
+    gates = get_standard_gate_name_mapping()
+    source = patch.circuits[circuit]
+    for op in source.operations:
+        gate = gates.get(op.name)
+        if op.kind not in ("1q", "2q") or gate is None or gate.params:
+            continue
+        try:
+            Clifford(gate)
+        except Exception:
+            return op.file or source.file, op.line, f"'{op.name}'"
+    return source.file, None, ""
 
 
 def placement_edges(device: Device, patch: Patch,

@@ -218,6 +218,10 @@ def test_non_clifford_and_measuring_preparations_are_not_rewritten(tmp_path):
     with pytest.raises(InputError) as err:
         repair_preparation(device, patch, placement)
     assert "not a Clifford circuit" in str(err.value) and "not rewritten" in str(err.value)
+    # It names the gate and where it is (a new user's trial: no file or line was given).
+    t_line = text.splitlines().index("      t d[0];") + 1
+    assert err.value.file == str(tmp_path / "p.yaml") and err.value.line == t_line
+    assert "(gate 't')" in str(err.value)
 
 
 def test_repair_command_writes_a_new_patch_and_never_overwrites(tmp_path, capsys):
