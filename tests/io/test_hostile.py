@@ -156,6 +156,12 @@ def _snapshot(root: Path) -> dict[str, bytes]:
             if p.is_file()}
 
 
+# One pytest worker runs the whole corpus (it starts two capped workers of its own): with
+# `-n 2` and pytest-xdist's 'loadgroup' (pyproject's addopts) the module's tests stay
+# together instead of each pytest worker running the corpus once.
+pytestmark = pytest.mark.xdist_group("hostile-corpus")
+
+
 @pytest.fixture(scope="module")
 def runs(tmp_path_factory):
     """Every case through every command, once: (results by id, files before, files after)."""
