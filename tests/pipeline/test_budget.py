@@ -29,7 +29,7 @@ def test_budget_bound_find_on_a_big_grid_says_incomplete_and_stores_ints(tmp_pat
                  "-o", str(tmp_path / "rep.yaml")]) == 0
     capsys.readouterr()
     find = ["find", str(tmp_path / "grid.yaml"), str(tmp_path / "rep.yaml"),
-            "--budget-s", "2", "--limit", str(10**12)]
+            "--budget-s", "1", "--limit", str(10**12)]
     assert main(find) == 0
     text = " ".join(capsys.readouterr().out.split())
     # On a loaded machine the budget may run out in an earlier stage (a circuit alone):
@@ -42,7 +42,7 @@ def test_budget_bound_find_on_a_big_grid_says_incomplete_and_stores_ints(tmp_pat
     # The same run through the API: every stored placement is one int32 row.
     device = Device.from_lattice(square_grid(45, 45), name="grid")
     patch = patch_from_family("repetition", distance=5, rounds=1)
-    found = run_find([device], patch, limit=10**12, budget_s=2.0)
+    found = run_find([device], patch, limit=10**12, budget_s=1.0)
     rows = found.vetting.ranking.placements
     assert isinstance(rows, PlacementRows) and not found.vetting.complete
     assert rows.array.dtype == np.int32
