@@ -201,14 +201,25 @@ def _scores_until(device: Device, patch: Patch, placements: Sequence[Placement],
                   at_least: int) -> list[FastScore]:
     """The first placements' fast scores, in pieces, until the deadline has passed and at
     least `at_least` are scored."""
-    out: list[FastScore] = []
-    piece = 16 * max(1, processes)        # small pieces: the deadline is read often
+    return _in_pieces(placements, lambda part: fast_scores(device, patch, part,
+                                                           processes=processes),
+                      piece=16 * max(1, processes), deadline=deadline, at_least=at_least,
+                      progress=progress)
+
+
+def _in_pieces(placements: Sequence[Placement], score: Callable[[list[Placement]], list[Any]],
+               *, piece: int, deadline: float, at_least: int,
+               progress: Callable[[int], None] | None) -> list[Any]:
+    """`score` the placements a piece at a time (small pieces: the deadline is read often),
+    stopping once `deadline` has passed and at least `at_least` are scored; past the
+    deadline, what is missing of `at_least` goes in one piece."""
+    out: list[Any] = []
     while len(out) < len(placements):
         late = time.monotonic() > deadline
         if len(out) >= at_least and late:
             break
-        chunk = placements[len(out):len(out) + (at_least - len(out) if late else piece)]
-        out += fast_scores(device, patch, list(chunk), processes=processes)
+        out += score(list(placements[len(out):len(out) + (at_least - len(out) if late
+                                                           else piece)]))
         if progress is not None:
             progress(len(out))
     return out
@@ -397,14 +408,7 @@ def _estimates_until(device: Device, patch: Patch, placements: Sequence[Placemen
     and at least `at_least` are scored (all of them without a deadline)."""
     if deadline is None:
         return estimate_scores(device, patch, placements, executor=executor, progress=progress)
-    out: list[DecodedEstimate] = []
-    piece = 16 * max(1, getattr(executor, "processes", 1))
-    while len(out) < len(placements):
-        late = time.monotonic() > deadline
-        if len(out) >= at_least and late:
-            break
-        part = placements[len(out):len(out) + (at_least - len(out) if late else piece)]
-        out += estimate_scores(device, patch, list(part), executor=executor)
-        if progress is not None:
-            progress(len(out))
-    return out
+    return _in_pieces(placements, lambda part: estimate_scores(device, patch, part,
+                                                               executor=executor),
+                      piece=16 * max(1, getattr(executor, "processes", 1)), deadline=deadline,
+                      at_least=at_least, progress=progress)
