@@ -20,6 +20,7 @@ from .options import (
     executor_label,
     positive_float,
     positive_int,
+    resumable,
     seed_value,
 )
 
@@ -115,23 +116,16 @@ def run(args: argparse.Namespace) -> int:
     bar = _Bar() if sys.stderr.isatty() else None
     store = SampleStore(samples)
     try:
-        with executor_from(args) as executor:
+        with resumable(bar, f"finished samples are stored in {samples}"), \
+                executor_from(args) as executor:
             forecast = run_forecast(
                 device, args.family, distances=distances, max_distance=args.max_distance,
                 rounds=args.rounds, basis=args.basis, scales=scales, shots=args.shots,
                 max_errors=args.max_errors, budget_s=args.budget_s, search_limit=args.limit,
                 search_budget_s=args.search_budget_s, executor=executor, store=store,
                 progress=bar, seed=args.seed)
-    except KeyboardInterrupt:
-        if bar:
-            bar.close()
-        print(f"embedcheck: interrupted; finished samples are stored in {samples}: rerun to "
-              "resume", file=sys.stderr)
-        raise SystemExit(130) from None
     finally:
         store.close()
-    if bar:
-        bar.close()
     payload = forecast_dict(forecast, chip_file=args.chip, samples_file=samples,
                             executor=executor_label(args))
     files: dict[str | Path, str | bytes] = {}

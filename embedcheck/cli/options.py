@@ -12,12 +12,13 @@ builds every command's parser without loading numpy, qiskit or stim.
 from __future__ import annotations
 
 import argparse
+import contextlib
 import json
 import math
 import os
 import sys
 import time
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, NoReturn
 
@@ -159,12 +160,17 @@ def positive_float(text: str) -> float:
 
 
 def positive_int(text: str) -> int:
+    return _whole(text, 1, "must be at least 1")
+
+
+def _whole(text: str, low: int, must: str) -> int:
+    """`text` as a whole number of at least `low`, or the argparse error saying `must`."""
     try:
         value = int(text)
     except ValueError:
         raise argparse.ArgumentTypeError(f"'{text}' is not a whole number") from None
-    if value < 1:
-        raise argparse.ArgumentTypeError(f"'{text}' must be at least 1")
+    if value < low:
+        raise argparse.ArgumentTypeError(f"'{text}' {must}")
     return value
 
 
@@ -184,13 +190,7 @@ def bounded_int(limit: int) -> Callable[[str], int]:
 
 def non_negative_int(text: str) -> int:
     """An argparse type: a whole number, 0 or more (a count where 0 turns something off)."""
-    try:
-        value = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"'{text}' is not a whole number") from None
-    if value < 0:
-        raise argparse.ArgumentTypeError(f"'{text}' must be 0 or more")
-    return value
+    return _whole(text, 0, "must be 0 or more")
 
 
 def add_executor_options(parser: Any, *, serial_help: str) -> None:
@@ -217,6 +217,21 @@ def executor_from(args: argparse.Namespace) -> Any:
         return DaskExecutor(scheduler=args.scheduler, workers=args.workers)
     except ConnectionError as err:
         raise InputError(f"--scheduler: {err}") from None
+
+
+@contextlib.contextmanager
+def resumable(bar: Any, stored: str) -> Iterator[None]:
+    """Run a resumable job (sweep, forecast): Ctrl-C closes the progress bar, says where
+    the finished work is (`stored`) and exits 130; the bar is closed at the end too."""
+    try:
+        yield
+    except KeyboardInterrupt:
+        if bar:
+            bar.close()
+        print(f"embedcheck: interrupted; {stored}: rerun to resume", file=sys.stderr)
+        raise SystemExit(130) from None
+    if bar:
+        bar.close()
 
 
 def executor_label(args: argparse.Namespace) -> str:

@@ -11,7 +11,13 @@ import json
 import sys
 from typing import Any
 
-from .options import add_executor_options, announce_written, executor_from, executor_label
+from .options import (
+    add_executor_options,
+    announce_written,
+    executor_from,
+    executor_label,
+    resumable,
+)
 
 __all__ = ["add_parser", "run"]
 
@@ -93,18 +99,10 @@ def run(args: argparse.Namespace) -> int:
 
 def _run(args, sweep, database, run_sweep) -> dict:
     bar = _progress_bar()
-    try:
-        with executor_from(args) as executor:
-            outcome = run_sweep(sweep, executor=executor, database=database,
-                                progress=bar.update if bar else None)
-    except KeyboardInterrupt:
-        if bar:
-            bar.close()
-        print(f"embedcheck: interrupted; finished tasks are stored in {database}: rerun to "
-              "resume", file=sys.stderr)
-        raise SystemExit(130) from None
-    if bar:
-        bar.close()
+    with resumable(bar, f"finished tasks are stored in {database}"), \
+            executor_from(args) as executor:
+        outcome = run_sweep(sweep, executor=executor, database=database,
+                            progress=bar.update if bar else None)
     return {"executor": executor_label(args),
         "computed": outcome.computed, "skipped": outcome.skipped, "units": outcome.units,
         "failed_units": len(outcome.failed_units), "failed_samples": outcome.failed_samples}

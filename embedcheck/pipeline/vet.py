@@ -207,8 +207,8 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = SEARCH_LIMIT,
         kept = [p for p in earlier if p not in search.placements]     # a few at most
         if kept:                             # found before, not found again in what was left
             extra = PlacementRows(kept, patch.num_qubits)
-            ranker(extra.array, ranker.perms_or_none(patch.num_qubits))
-            listed = PlacementRows(search.placements).array
+            ranker(extra.array, ranker.perms_or_identity(patch.num_qubits))
+            listed = PlacementRows(search.placements, copy=False).array
             search = replace(search, placements=PlacementRows(np.concatenate(
                 [listed.astype(np.int64), extra.array.astype(np.int64)])))
         if best_first and not search.complete and not search.reasons:
@@ -222,7 +222,7 @@ def vet_patch(device: Device, patch: Patch, *, limit: int | None = SEARCH_LIMIT,
             new = _new_orbits(search, best_found.placements)
             if new:
                 ranker(PlacementRows(new, patch.num_qubits).array,
-                       ranker.perms_or_none(patch.num_qubits))
+                       ranker.perms_or_identity(patch.num_qubits))
         misses: tuple[NearMiss, ...] = ()
     elif inconclusive:
         search = SearchResult(circuits=tuple(gated), placements=(), raw_maps=0,
@@ -258,8 +258,10 @@ def _new_orbits(search: SearchResult,
     its orbit's cheapest member, the search's its smallest; both stand for the same
     orbit). The search lists one member per orbit, so an orbit is listed when any image
     of the placement is among the search's rows."""
-    perms = search.symmetries or (tuple(range(len(extra[0].physical))),) if extra else ()
-    rows = PlacementRows(search.placements).array
+    if not extra:
+        return ()
+    perms = search.symmetries or (tuple(range(len(extra[0].physical))),)
+    rows = PlacementRows(search.placements, copy=False).array       # a view, not a copy
     listed = {row.tobytes() for row in rows.astype(np.int64)} if len(extra) * len(perms) > 64 \
         else None
 
@@ -306,7 +308,7 @@ class _Ranker:
         self.canonical: list[np.ndarray] = []  # ... unscored, while `best` is kept
         self.best: list[_Scored] | None = []   # the best member of each orbit (None: too many)
 
-    def perms_or_none(self, num_qubits: int) -> np.ndarray:
+    def perms_or_identity(self, num_qubits: int) -> np.ndarray:
         """The symmetries the search reported, else the identity (placements added after
         a search that found none: each stands for itself)."""
         if self.perms is not None:
