@@ -255,6 +255,8 @@ def processes_section(runs):
     try:
         t1, t2, p1, p2 = median_times([one, two, lambda: _pool_time(prep, 1),
                                        lambda: _pool_time(prep, 2)], runs)
+        grow_s, start_s = median_times([lambda: _grow_parts(prep, [(0, 1)]), _worker_start],
+                                       runs)
     finally:
         CLOCK = saved
     serial = find_placements(device, patch, limit=None)
@@ -265,7 +267,29 @@ def processes_section(runs):
     print(f"the machine right now: two halves of the same search in 1 forked process "
           f"{p1:.3f} s, in 2 {p2:.3f} s: it gives {p1 / p2:.2f}x for 2 processes (2.00 "
           f"on an idle 2-core machine); our speed-up is {t1 / t2 / (p1 / p2):.2f} of that")
+    # Where the time goes: the search proper (the part workers share) against the rest,
+    # which one process does whatever --processes says (reading the chip into the matcher's
+    # form, the pattern and its symmetries, turning maps into placement rows), and the
+    # fixed cost of starting one worker process. Amdahl's law bounds the speed-up.
+    rest = max(t1 - grow_s, 0.0)
+    bound = t1 / (rest + grow_s / 2 + start_s)
+    print(f"where one process's {t1:.3f} s go: the search proper {grow_s:.3f} s (split "
+          f"between workers), the rest {rest:.3f} s (done once); starting a worker process "
+          f"{start_s:.3f} s. Amdahl's bound for 2 processes on an idle machine: "
+          f"{t1:.3f} / ({rest:.3f} + {grow_s:.3f} / 2 + {start_s:.3f}) = {bound:.2f}x; "
+          f"ours {t1 / t2:.2f}x")
     print(f"(load after: {load():.2f})")
+
+
+def _noop():
+    return None
+
+
+def _worker_start():
+    """Start a one-process pool the way `place.enumeration` does and run nothing in it."""
+    from concurrent.futures import ProcessPoolExecutor
+    with ProcessPoolExecutor(1) as pool:
+        pool.submit(_noop).result()
 
 
 def _fidelity_chip(lattice, name):
